@@ -1,0 +1,51 @@
+"""accuracy-checks: gate forecast pipelines on coverage and accuracy, per segment.
+
+The package root stays light: heavy modules (pandas engine, Prefect, Great Expectations) load
+only when used.
+
+>>> import accuracy_checks
+>>> accuracy_checks.__version__
+'0.1.0'
+"""
+
+from __future__ import annotations
+
+from typing import TYPE_CHECKING, Any
+
+from accuracy_checks.errors import (
+    AccuracyChecksError,
+    ConfigError,
+    GateFailed,
+    InputError,
+    UsageError,
+)
+from accuracy_checks.results import CheckResult, RunReport
+
+__version__ = "0.1.0"
+
+__all__ = [
+    "AccuracyChecksError",
+    "CheckResult",
+    "ConfigError",
+    "GateFailed",
+    "InputError",
+    "RunReport",
+    "UsageError",
+    "__version__",
+    "load_config",
+    "run_checks",
+]
+
+if TYPE_CHECKING:
+    from accuracy_checks.config import load_config
+    from accuracy_checks.engine import run_checks
+
+_LAZY = {"load_config": "accuracy_checks.config", "run_checks": "accuracy_checks.engine"}
+
+
+def __getattr__(name: str) -> Any:
+    if name in _LAZY:
+        import importlib
+
+        return getattr(importlib.import_module(_LAZY[name]), name)
+    raise AttributeError(f"module 'accuracy_checks' has no attribute {name!r}")

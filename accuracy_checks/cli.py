@@ -1,0 +1,125 @@
+"""The ``accuracy-checks`` command line. Thin: parse, call the library, render, exit.
+
+Exit codes: 0 pass or warnings only, 1 gate failed (or warned with ``--fail-on warn``),
+2 unusable config or input (one paragraph on stderr, no traceback), 3 internal error.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import os
+import sys
+from pathlib import Path
+
+from accuracy_checks.errors import UsageError
+
+EXIT_PASS, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = argparse.ArgumentParser(
+        prog="accuracy-checks",
+        description="Gate a forecast: coverage and output checks, accuracy of earlier cycles "
+        "against actuals, per-segment thresholds.",
+    )
+    sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
+
+    run = sub.add_parser("run", help="check the current forecast and judge accuracy")
+    run.add_argument("--config", required=True, type=Path, help="the YAML config file")
+    run.add_argument("--forecast", type=Path, help="forecast file or folder (overrides config)")
+    run.add_argument("--actuals", type=Path, help="actuals file or folder (overrides config)")
+    run.add_argument("--json", type=Path, metavar="PATH", help="write the results as JSON")
+    run.add_argument("--junit", type=Path, metavar="PATH", help="write JUnit XML for CI")
+    run.add_argument("--markdown", type=Path, metavar="PATH", help="write a Markdown summary")
+    run.add_argument("--fail-on", choices=("warn", "fail"), default="fail",
+                     help="lowest verdict that exits 1 (default: fail)")
+    run.add_argument("--no-snapshot", action="store_true",
+                     help="do not archive this forecast (a dry run)")
+    run.add_argument("-v", "--verbose", action="store_true", help="list passing results too")
+    run.add_argument("-q", "--quiet", action="store_true", help="no progress lines")
+    run.add_argument("--no-color", action="store_true", help="plain text output")
+
+    val = sub.add_parser("validate", help="validate a config file and exit")
+    val.add_argument("--config", required=True, type=Path)
+
+    sch = sub.add_parser("schema", help="print the config's JSON Schema (for editors)")
+    sch.add_argument("--out", type=Path, help="write to a file instead of stdout")
+
+    demo = sub.add_parser("demo", help="run the garden-centre demo over several cycles")
+    demo.add_argument("--out", type=Path, default=Path("accuracy-checks-demo"),
+                      help="folder to write the demo into (default: ./accuracy-checks-demo)")
+    demo.add_argument("--cycles", type=int, default=6, help="number of weekly cycles (default 6)")
+    return p
+
+
+def main(argv: list[str] | None = None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        if args.command == "run":
+            return _run(args)
+        if args.command == "validate":
+            from accuracy_checks.config import load_config
+
+            cfg = load_config(args.config)
+            print(f"{args.config}: valid (forecast {cfg.forecast.path}, horizon {cfg.horizon}, "
+                  f"frequency {cfg.frequency})")
+            return EXIT_PASS
+        if args.command == "schema":
+            from accuracy_checks.config import json_schema
+
+            text = json.dumps(json_schema(), indent=2)
+            if args.out:
+                args.out.write_text(text + "\n", encoding="utf-8")
+            else:
+                print(text)
+            return EXIT_PASS
+        if args.command == "demo":
+            from accuracy_checks.demo import run_demo
+
+            run_demo(args.out, cycles=args.cycles)
+            return EXIT_PASS
+    except UsageError as exc:
+        print(f"accuracy-checks: error: {exc.message}", file=sys.stderr)
+        return EXIT_USAGE
+    except KeyboardInterrupt:
+        print("accuracy-checks: interrupted; nothing was archived.", file=sys.stderr)
+        return 130
+    except Exception as exc:  # noqa: BLE001 - last resort: a short message, not a traceback
+        if os.environ.get("ACCURACY_CHECKS_DEBUG"):
+            raise
+        print(f"accuracy-checks: internal error: {type(exc).__name__}: {exc}. This is a bug; "
+              "set ACCURACY_CHECKS_DEBUG=1 for the traceback and please report it.",
+              file=sys.stderr)
+        return EXIT_INTERNAL
+    return EXIT_USAGE
+
+
+def _run(args: argparse.Namespace) -> int:
+    from accuracy_checks.config import load_config
+    from accuracy_checks.engine import run_checks
+    from accuracy_checks.outputs import render_console, write_json, write_junit, write_markdown
+
+    config = load_config(args.config)
+    color = False if args.no_color or os.environ.get("NO_COLOR") else None
+
+    def progress(text: str) -> None:
+        if not args.quiet:
+            print(f"· {text}", file=sys.stderr, flush=True)
+
+    report = run_checks(config, forecast_path=args.forecast, actuals_path=args.actuals,
+                        progress=progress, snapshot=not args.no_snapshot)
+    if args.json:
+        write_json(report, args.json)
+    if args.junit:
+        write_junit(report, args.junit)
+    if args.markdown:
+        write_markdown(report, args.markdown)
+    render_console(report, color=color, verbose=args.verbose)
+    if report.status == "fail" or (report.status == "warn" and args.fail_on == "warn"):
+        return EXIT_FAIL
+    return EXIT_PASS
+
+
+if __name__ == "__main__":  # pragma: no cover
+    sys.exit(main())

@@ -1,0 +1,471 @@
+"""The YAML config: pydantic v2 models, safe loading and messages a user can act on.
+
+The models are declarations only (no pandas, no I/O beyond reading the file itself). Every
+problem is raised as :class:`~accuracy_checks.errors.ConfigError` naming the file, the key path
+and, for a misspelt key, the closest valid key.
+"""
+
+from __future__ import annotations
+
+import difflib
+import json
+import typing
+from pathlib import Path
+from typing import Annotated, Any, Literal
+
+import yaml
+from pydantic import (
+    BaseModel,
+    ConfigDict,
+    Field,
+    PrivateAttr,
+    ValidationError,
+    field_validator,
+    model_validator,
+)
+
+from accuracy_checks.errors import ConfigError
+
+Direction = Literal["lower", "centered", "higher"]
+
+#: Measures a threshold can name, with the way that is better. Accuracy measures come from the
+#: measure registry; the rest are figures of the coverage checks.
+CHECK_MEASURES: dict[str, tuple[Direction, str]] = {
+    "missing_series_pct": ("lower", "%"),
+    "unexpected_series": ("lower", "count"),
+    "incomplete_series": ("lower", "count"),
+    "series_count_change_pct": ("centered", "%"),
+}
+
+#: Column names the tool uses for its own canonical frames; key columns may not use them.
+RESERVED_COLUMNS = frozenset(
+    {"period", "issued", "forecast", "actual", "segment", "lag", "attempt", "source", "cycle"}
+)
+
+
+def measure_directions() -> dict[str, tuple[Direction, str]]:
+    """Every measure id a threshold may name → (direction, unit)."""
+    from accuracy_checks.measures.registry import MEASURES
+
+    out: dict[str, tuple[Direction, str]] = {
+        m.id: (m.direction, m.unit) for m in MEASURES.values()
+    }
+    out.update(CHECK_MEASURES)
+    return out
+
+
+class _Strict(BaseModel):
+    model_config = ConfigDict(extra="forbid", frozen=True)
+
+
+Bound = float | tuple[float, float]
+
+
+class Level(_Strict):
+    """Warn and fail levels of one measure.
+
+    A number bounds the value (``lower`` measures: beyond it is bad; ``higher``: below it is
+    bad; ``centered`` measures: its absolute value). A ``[low, high]`` pair bounds a centred
+    measure asymmetrically. A value strictly beyond a level breaks it.
+    """
+
+    warn: Bound | None = None
+    fail: Bound | None = None
+
+    @model_validator(mode="after")
+    def _one_level(self) -> Level:
+        if self.warn is None and self.fail is None:
+            raise ValueError("give a `warn` level, a `fail` level, or both")
+        return self
+
+
+class ForecastSource(_Strict):
+    """Where the forecast is and which columns hold what."""
+
+    path: Path
+    keys: Annotated[list[str], Field(min_length=1)]
+    period: str
+    value: str
+    issued: str
+    quantiles: dict[float, str] = Field(default_factory=dict)
+    #: negative forecasts are an output-check failure unless allowed here
+    #: (``true`` for every segment, or a list of segment names)
+    allow_negative: bool | list[str] = False
+
+    @field_validator("keys")
+    @classmethod
+    def _keys(cls, keys: list[str]) -> list[str]:
+        if len(set(keys)) != len(keys):
+            raise ValueError(f"key columns repeat: {keys}")
+        clash = sorted(set(keys) & RESERVED_COLUMNS)
+        if clash:
+            raise ValueError(
+                f"key column name(s) {clash} are reserved by accuracy-checks; rename the "
+                "column(s) in the data or add a renamed copy"
+            )
+        return keys
+
+    @field_validator("quantiles")
+    @classmethod
+    def _quantiles(cls, quantiles: dict[float, str]) -> dict[float, str]:
+        for tau in quantiles:
+            if not 0 < tau < 1:
+                raise ValueError(f"quantile level {tau} must lie strictly between 0 and 1")
+        if len(set(quantiles.values())) != len(quantiles):
+            raise ValueError("two quantile levels name the same column")
+        return dict(sorted(quantiles.items()))
+
+
+class ActualsSource(_Strict):
+    """Where the actuals are; ``keys`` default to the forecast's keys."""
+
+    path: Path
+    period: str
+    value: str
+    keys: list[str] | None = None
+
+
+class Segments(_Strict):
+    """How series are grouped into segments that share thresholds."""
+
+    columns: list[str] = Field(default_factory=list)
+    mapping: Path | None = None
+
+
+class Coverage(_Strict):
+    active_periods: Annotated[int, Field(ge=1)] = 8
+
+
+class Evaluation(_Strict):
+    lags: Annotated[list[int], Field(min_length=1)] = Field(default_factory=lambda: [1])
+    window: Annotated[int, Field(ge=1)] = 4
+    min_obs: Annotated[int, Field(ge=1)] = 20
+    #: status of a thresholded measure whose value is undefined (zero actuals, too few rows)
+    undefined_status: Literal["pass", "warn", "fail", "skipped"] = "warn"
+
+    @field_validator("lags")
+    @classmethod
+    def _lags(cls, lags: list[int]) -> list[int]:
+        bad = [lag for lag in lags if lag < 1]
+        if bad:
+            raise ValueError(f"lags start at 1 (the first period a cycle forecasts); got {bad}")
+        return sorted(set(lags))
+
+
+class Thresholds(_Strict):
+    default: dict[str, Level] = Field(default_factory=dict)
+    segments: dict[str, dict[str, Level]] = Field(default_factory=dict)
+
+
+class Config(_Strict):
+    """A validated config. Paths are absolute (resolved against the config file's folder)."""
+
+    version: Literal[1] = 1
+    forecast: ForecastSource
+    actuals: ActualsSource
+    history: Path | list[Path] | None = None
+    archive: Path = Path(".accuracy_checks/archive")
+    store: str | None = None
+    frequency: str
+    horizon: int
+    segments: Segments = Field(default_factory=Segments)
+    coverage: Coverage = Field(default_factory=Coverage)
+    evaluation: Evaluation = Field(default_factory=Evaluation)
+    thresholds: Thresholds = Field(default_factory=Thresholds)
+
+    _source: Path | None = PrivateAttr(default=None)
+    _text: str = PrivateAttr(default="")
+
+    @property
+    def source(self) -> Path | None:
+        """The config file this was read from (``None`` if built in code)."""
+        return self._source
+
+    @property
+    def text(self) -> str:
+        """The config file's text, as read."""
+        return self._text
+
+    @property
+    def actual_keys(self) -> list[str]:
+        return list(self.actuals.keys or self.forecast.keys)
+
+    @property
+    def history_paths(self) -> list[Path]:
+        if self.history is None:
+            return []
+        return list(self.history) if isinstance(self.history, list) else [self.history]
+
+    @field_validator("horizon")
+    @classmethod
+    def _horizon(cls, horizon: int) -> int:
+        if horizon < 1:
+            raise ValueError(f"horizon must be at least 1 period; got {horizon}")
+        return horizon
+
+    @field_validator("frequency")
+    @classmethod
+    def _frequency(cls, frequency: str) -> str:
+        import pandas as pd
+
+        try:
+            pd.tseries.frequencies.to_offset(frequency)
+        except ValueError as exc:
+            raise ValueError(
+                f"{frequency!r} is not a pandas offset alias (e.g. D, W-MON, MS, QS)"
+            ) from exc
+        return frequency
+
+    @model_validator(mode="after")
+    def _cross_field(self) -> Config:
+        beyond = [lag for lag in self.evaluation.lags if lag > self.horizon]
+        if beyond:
+            raise ValueError(
+                f"evaluation.lags {beyond} lie beyond the horizon of {self.horizon} periods"
+            )
+        known = measure_directions()
+        levels = [("thresholds.default", self.thresholds.default)] + [
+            (f"thresholds.segments.{name}", lv) for name, lv in self.thresholds.segments.items()
+        ]
+        for where, by_measure in levels:
+            for measure, level in by_measure.items():
+                if measure not in known:
+                    raise ValueError(
+                        f"{where}.{measure}: unknown measure {measure!r}"
+                        + _did_you_mean(measure, known)
+                        + f"; measures: {', '.join(sorted(known))}"
+                    )
+                _check_level(f"{where}.{measure}", level, known[measure][0])
+        return self
+
+
+def _as_pair(bound: Bound, direction: Direction) -> tuple[float, float]:
+    if isinstance(bound, tuple):
+        return bound
+    return (-bound, bound) if direction == "centered" else (bound, bound)
+
+
+def _check_level(where: str, level: Level, direction: Direction) -> None:
+    for name in ("warn", "fail"):
+        bound = getattr(level, name)
+        if isinstance(bound, tuple):
+            if direction != "centered":
+                raise ValueError(
+                    f"{where}.{name}: a [low, high] pair only suits measures judged by their "
+                    f"distance from 0 (me, bias_pct, series_count_change_pct); give one number"
+                )
+            if bound[0] > bound[1]:
+                raise ValueError(f"{where}.{name}: low {bound[0]} is above high {bound[1]}")
+        elif bound is not None and direction == "centered" and bound < 0:
+            raise ValueError(
+                f"{where}.{name}: {bound} bounds the absolute value and cannot be negative; "
+                "use a [low, high] pair for asymmetric bounds"
+            )
+    if level.warn is None or level.fail is None:
+        return
+    w, f = level.warn, level.fail
+    if direction == "centered":
+        (wl, wh), (fl, fh) = _as_pair(w, direction), _as_pair(f, direction)
+        if not (fl <= wl and wh <= fh):
+            raise ValueError(
+                f"{where}: the warn level {_show(w)} must lie inside the fail level {_show(f)} "
+                "(warn comes before fail)"
+            )
+    elif direction == "lower" and w > f:  # type: ignore[operator]
+        raise ValueError(
+            f"{where}: warn {_show(w)} is beyond fail {_show(f)}; for this measure lower is "
+            f"better, so warn must be ≤ fail (e.g. warn: {_show(f)}, fail: {_show(w)})"
+        )
+    elif direction == "higher" and w < f:  # type: ignore[operator]
+        raise ValueError(
+            f"{where}: warn {_show(w)} is below fail {_show(f)}; for this measure higher is "
+            "better, so warn must be ≥ fail"
+        )
+
+
+def _show(bound: Bound) -> str:
+    if isinstance(bound, tuple):
+        return f"[{bound[0]:g}, {bound[1]:g}]"
+    return f"{bound:g}"
+
+
+def _did_you_mean(word: str, candidates: typing.Iterable[str]) -> str:
+    match = difflib.get_close_matches(word, list(candidates), n=1, cutoff=0.6)
+    return f" — did you mean {match[0]!r}?" if match else ""
+
+
+# --------------------------------------------------------------------------- loading
+
+
+class _UniqueKeyLoader(yaml.SafeLoader):
+    """Safe loader that rejects a key given twice in one mapping (YAML keeps the last silently)."""
+
+
+def _construct_mapping(loader: _UniqueKeyLoader, node: yaml.MappingNode) -> dict[Any, Any]:
+    seen: set[Any] = set()
+    for key_node, _ in node.value:
+        key = loader.construct_object(key_node)
+        if key in seen:
+            raise yaml.constructor.ConstructorError(
+                None, None, f"key {key!r} is given twice", key_node.start_mark
+            )
+        seen.add(key)
+    return loader.construct_mapping(node)
+
+
+_UniqueKeyLoader.add_constructor(
+    yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG,
+    _construct_mapping,  # type: ignore[arg-type]
+)
+
+
+def load_config(path: str | Path, **overrides: Any) -> Config:
+    """Read, validate and resolve a config file.
+
+    ``overrides`` replace top-level sections after loading (used by the CLI's path options).
+    Raises :class:`ConfigError` with a message naming the file and key.
+    """
+    path = Path(path)
+    try:
+        text = path.read_text(encoding="utf-8")
+    except FileNotFoundError:
+        raise ConfigError(
+            f"Config file {path} does not exist. Pass the path of your YAML config with "
+            "--config (see the README's config reference)."
+        ) from None
+    except (OSError, UnicodeDecodeError) as exc:
+        raise ConfigError(f"Config file {path} cannot be read: {exc}.") from exc
+    return parse_config(text, source=path, **overrides)
+
+
+def parse_config(text: str, *, source: Path | None = None, **overrides: Any) -> Config:
+    """Validate config text (YAML). Relative paths resolve against ``source``'s folder."""
+    name = str(source) if source else "<config>"
+    try:
+        raw = yaml.load(text, Loader=_UniqueKeyLoader)  # noqa: S506 - a SafeLoader subclass
+    except yaml.YAMLError as exc:
+        mark = getattr(exc, "problem_mark", None)
+        where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""
+        problem = getattr(exc, "problem", None) or str(exc)
+        raise ConfigError(f"Config file {name} is not valid YAML{where}: {problem}.") from None
+    if raw is None:
+        raise ConfigError(f"Config file {name} is empty; see the README's config reference.")
+    if not isinstance(raw, dict):
+        raise ConfigError(
+            f"Config file {name} must be a mapping of keys (version, forecast, actuals, …); "
+            f"it holds a {type(raw).__name__}."
+        )
+    raw.update(overrides)
+    try:
+        config = Config.model_validate(raw)
+    except ValidationError as exc:
+        raise ConfigError(_explain(exc, name)) from None
+    base = source.resolve().parent if source else Path.cwd()
+    config = _resolve_paths(config, base)
+    config._source = source.resolve() if source else None
+    config._text = text
+    return config
+
+
+def _resolve_paths(config: Config, base: Path) -> Config:
+    def res(p: Path) -> Path:
+        p = p.expanduser()
+        return p if p.is_absolute() else (base / p)
+
+    history = config.history
+    if isinstance(history, list):
+        history = [res(p) for p in history]
+    elif history is not None:
+        history = res(history)
+    store = config.store
+    prefix = "sqlite:///"
+    if store and store.startswith(prefix) and not store.startswith(prefix + "/"):
+        rest = store[len(prefix) :]
+        if rest and rest != ":memory:":
+            store = prefix + str(res(Path(rest)))
+    mapping = config.segments.mapping
+    return config.model_copy(
+        update={
+            "forecast": config.forecast.model_copy(update={"path": res(config.forecast.path)}),
+            "actuals": config.actuals.model_copy(update={"path": res(config.actuals.path)}),
+            "history": history,
+            "archive": res(config.archive),
+            "store": store,
+            "segments": config.segments.model_copy(
+                update={"mapping": res(mapping) if mapping else None}
+            ),
+        }
+    )
+
+
+def _explain(exc: ValidationError, name: str) -> str:
+    lines = []
+    for err in exc.errors():
+        loc = tuple(err["loc"])
+        key = ".".join(str(p) for p in loc if not _is_union_tag(p)) or "(top level)"
+        kind = err["type"]
+        if kind == "extra_forbidden":
+            parent = tuple(p for p in loc[:-1] if not _is_union_tag(p))
+            valid = _fields_at(parent)
+            hint = _did_you_mean(str(loc[-1]), valid)
+            allowed = f" Valid keys here: {', '.join(valid)}." if valid else ""
+            lines.append(f"unknown key `{key}`{hint}.{allowed}")
+        elif kind == "missing":
+            lines.append(f"`{key}` is required but missing.")
+        else:
+            msg = err["msg"].removeprefix("Value error, ")
+            value = err.get("input")
+            shown = (
+                f" (got {json.dumps(value, default=str)[:80]})"
+                if not isinstance(value, dict | list)
+                else ""
+            )
+            lines.append(f"`{key}`: {msg}{shown}.")
+    unique = list(dict.fromkeys(lines))
+    return f"Config file {name} is invalid: " + " ".join(unique)
+
+
+def _is_union_tag(part: Any) -> bool:
+    # pydantic inserts the member type's name into the location of union errors
+    return isinstance(part, str) and (
+        part in {"float", "tuple[float, float]", "bool", "list[str]", "list[Path]", "Path"}
+        or part.startswith(("function-", "tuple[", "list["))
+    )
+
+
+def _fields_at(loc: tuple[Any, ...]) -> list[str]:
+    """The valid keys of the model found at ``loc`` (for "did you mean")."""
+    tp: Any = Config
+    for part in loc:
+        tp = _unwrap(tp)
+        if isinstance(tp, type) and issubclass(tp, BaseModel):
+            field = tp.model_fields.get(str(part))
+            if field is None:
+                return []
+            tp = field.annotation
+        elif typing.get_origin(tp) is dict:
+            tp = typing.get_args(tp)[1]
+        else:
+            return []
+    tp = _unwrap(tp)
+    if isinstance(tp, type) and issubclass(tp, BaseModel):
+        return list(tp.model_fields)
+    return []
+
+
+def _unwrap(tp: Any) -> Any:
+    origin = typing.get_origin(tp)
+    if origin is Annotated:
+        return _unwrap(typing.get_args(tp)[0])
+    if origin in (typing.Union, getattr(__import__("types"), "UnionType", None)):
+        models = [a for a in typing.get_args(tp) if a is not type(None)]
+        return _unwrap(models[0]) if len(models) == 1 else tp
+    return tp
+
+
+def json_schema() -> dict[str, Any]:
+    """The config's JSON Schema (for editors: yaml-language-server, VS Code)."""
+    schema = Config.model_json_schema()
+    schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
+    schema["title"] = "accuracy-checks config"
+    return schema

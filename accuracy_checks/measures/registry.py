@@ -1,0 +1,274 @@
+"""The registry of accuracy measures: id, label, unit, which way is better, and the formula.
+
+Every :class:`Measure` turns a statistics frame from
+:func:`~accuracy_checks.measures.stats.error_stats` (one row per group) into a frame with the
+same index and the columns ``value`` (float, NaN when undefined) and ``reason`` (``None`` or why
+the value is undefined), plus optional extra columns. All formulas are vectorised over the
+groups. Thresholds read ``direction`` and ``unit``; outputs read ``label`` and ``description``.
+
+Rules (``METRICS.md``): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0`` →
+``zero_denominator`` (Bias %, WAPE); any zero actual → ``zero_actual`` (MAPE, which then reports
+``mape_nonzero``); ``n < 2`` → ``too_few_rows`` (SDE). Percentages are in percent.
+
+>>> import pandas as pd
+>>> from accuracy_checks.measures.stats import error_stats
+>>> stats = error_stats(pd.DataFrame({"actual": [0.0, 4.0, 0.0, 1.0],
+...                                   "forecast": [1.0, 2.0, 0.0, 0.0]}), [])
+>>> get_measure("wape").from_stats(stats)
+   value reason
+0   80.0   None
+>>> get_measure("mape").from_stats(stats)
+   value       reason  mape_nonzero  n_zero_actual
+0    NaN  zero_actual          75.0              2
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from dataclasses import dataclass
+from typing import Literal
+
+import numpy as np
+import pandas as pd
+
+__all__ = [
+    "CORE_MEASURES",
+    "MEASURES",
+    "REASONS",
+    "Direction",
+    "Measure",
+    "get_measure",
+    "register_measure",
+]
+
+#: ``lower``: lower is better; ``centered``: closer to 0 is better; ``higher``: higher is better.
+Direction = Literal["lower", "centered", "higher"]
+
+#: Reasons a measure value can be undefined.
+REASONS: tuple[str, ...] = ("zero_actual", "zero_denominator", "too_few_rows", "no_data")
+
+
+@dataclass(frozen=True)
+class Measure:
+    """One accuracy measure.
+
+    ``from_stats(stats)`` maps a statistics frame to a frame with the same index and columns
+    ``value`` (float, NaN when undefined) and ``reason`` (object: ``None`` or one of
+    :data:`REASONS`), plus optional extra columns.
+    """
+
+    id: str
+    label: str
+    #: ``"%"`` (always in percent) or ``"units"`` (data units)
+    unit: str
+    direction: Direction
+    from_stats: Callable[[pd.DataFrame], pd.DataFrame]
+    description: str
+
+
+def _column(stats: pd.DataFrame, name: str) -> np.ndarray:
+    return stats[name].to_numpy(dtype=np.float64)
+
+
+def _ratio(numerator: np.ndarray, denominator: np.ndarray) -> np.ndarray:
+    """numerator / denominator, NaN where the denominator is 0 (no warning, never inf)."""
+    out = np.full(numerator.shape, np.nan)
+    with np.errstate(invalid="ignore", over="ignore"):
+        np.divide(numerator, denominator, out=out, where=denominator != 0)
+    return out
+
+
+def _result(
+    stats: pd.DataFrame,
+    value: np.ndarray,
+    rules: list[tuple[np.ndarray, str]],
+    **extra: np.ndarray,
+) -> pd.DataFrame:
+    """Frame of ``value``/``reason`` (+ extras); the first matching rule gives the reason."""
+    reason = np.full(len(stats), None, dtype=object)
+    undefined = np.zeros(len(stats), dtype=bool)
+    for mask, label in reversed(rules):
+        reason[mask] = label
+        undefined |= mask
+    value = np.where(undefined, np.nan, value)
+    out = pd.DataFrame({"value": value}, index=stats.index)
+    # dtype=object keeps None as None (pandas 3 would infer ``str`` and turn None into NaN).
+    out["reason"] = pd.Series(reason, index=stats.index, dtype=object)
+    for name, column in extra.items():
+        out[name] = column
+    return out
+
+
+def _no_data(stats: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
+    n = _column(stats, "n")
+    return n, n == 0
+
+
+def _me(stats: pd.DataFrame) -> pd.DataFrame:
+    _, empty = _no_data(stats)
+    return _result(stats, _column(stats, "mean_e"), [(empty, "no_data")])
+
+
+def _bias_pct(stats: pd.DataFrame) -> pd.DataFrame:
+    _, empty = _no_data(stats)
+    sum_abs_y = _column(stats, "sum_abs_y")
+    value = 100.0 * _ratio(_column(stats, "sum_e"), sum_abs_y)
+    return _result(stats, value, [(empty, "no_data"), (sum_abs_y == 0, "zero_denominator")])
+
+
+def _mae(stats: pd.DataFrame) -> pd.DataFrame:
+    n, empty = _no_data(stats)
+    return _result(stats, _ratio(_column(stats, "sum_abs_e"), n), [(empty, "no_data")])
+
+
+def _mape(stats: pd.DataFrame) -> pd.DataFrame:
+    n, empty = _no_data(stats)
+    n_zero = stats["n_zero_y"].to_numpy(dtype=np.int64)
+    sum_ape = _column(stats, "sum_ape")
+    value = 100.0 * _ratio(sum_ape, n)
+    nonzero = 100.0 * _ratio(sum_ape, n - n_zero)
+    return _result(
+        stats,
+        value,
+        [(empty, "no_data"), (n_zero > 0, "zero_actual")],
+        mape_nonzero=nonzero,
+        n_zero_actual=n_zero,
+    )
+
+
+def _wape(stats: pd.DataFrame) -> pd.DataFrame:
+    _, empty = _no_data(stats)
+    sum_abs_y = _column(stats, "sum_abs_y")
+    value = 100.0 * _ratio(_column(stats, "sum_abs_e"), sum_abs_y)
+    return _result(stats, value, [(empty, "no_data"), (sum_abs_y == 0, "zero_denominator")])
+
+
+def _rmse(stats: pd.DataFrame) -> pd.DataFrame:
+    n, empty = _no_data(stats)
+    with np.errstate(invalid="ignore"):
+        value = np.sqrt(_ratio(_column(stats, "sum_sq_e"), n))
+    return _result(stats, value, [(empty, "no_data")])
+
+
+def _sde(stats: pd.DataFrame) -> pd.DataFrame:
+    n, empty = _no_data(stats)
+    with np.errstate(invalid="ignore"):
+        value = np.sqrt(_ratio(_column(stats, "m2_e"), n - 1.0))
+    return _result(stats, value, [(empty, "no_data"), (n < 2, "too_few_rows")])
+
+
+#: Every known measure by id. Extend it with :func:`register_measure`, not by assignment.
+MEASURES: dict[str, Measure] = {}
+
+#: The measures computed from :func:`~accuracy_checks.measures.stats.error_stats` by default.
+CORE_MEASURES: tuple[str, ...] = ("me", "bias_pct", "mae", "mape", "wape", "rmse", "sde")
+
+
+def get_measure(measure_id: str) -> Measure:
+    """The measure registered under ``measure_id``.
+
+    Raises
+    ------
+    KeyError
+        If no measure has that id; the message lists the known ids.
+
+    >>> get_measure("wape").direction
+    'lower'
+    """
+    try:
+        return MEASURES[measure_id]
+    except KeyError:
+        known = ", ".join(sorted(MEASURES))
+        raise KeyError(f"unknown measure {measure_id!r}; known measures: {known}") from None
+
+
+def register_measure(measure: Measure, *, replace: bool = False) -> None:
+    """Add ``measure`` to :data:`MEASURES`.
+
+    Raises
+    ------
+    ValueError
+        If a measure with the same id is registered and ``replace`` is false, or the measure's
+        direction or unit is not one of the allowed values.
+    """
+    if measure.direction not in ("lower", "centered", "higher"):
+        raise ValueError(
+            f"measure {measure.id!r}: direction must be 'lower', 'centered' or 'higher', "
+            f"got {measure.direction!r}"
+        )
+    if measure.id in MEASURES and not replace:
+        raise ValueError(
+            f"a measure with id {measure.id!r} is already registered "
+            f"({MEASURES[measure.id].label}); pass replace=True to override it"
+        )
+    MEASURES[measure.id] = measure
+
+
+for _measure in (
+    Measure(
+        id="me",
+        label="Mean error",
+        unit="units",
+        direction="centered",
+        from_stats=_me,
+        description="Σe/n with e = actual − forecast; positive = under-forecast. "
+        "METRICS.md 1 (common practice).",
+    ),
+    Measure(
+        id="bias_pct",
+        label="Bias %",
+        unit="%",
+        direction="centered",
+        from_stats=_bias_pct,
+        description="100·Σe/Σ|actual| in percent, pooled (volume-weighted); positive = "
+        "under-forecast. Undefined if Σ|actual| = 0. METRICS.md 2 (common practice).",
+    ),
+    Measure(
+        id="mae",
+        label="MAE",
+        unit="units",
+        direction="lower",
+        from_stats=_mae,
+        description="Mean absolute error Σ|e|/n in data units (MAD). METRICS.md 3 "
+        "(common practice; Brown 1959).",
+    ),
+    Measure(
+        id="mape",
+        label="MAPE %",
+        unit="%",
+        direction="lower",
+        from_stats=_mape,
+        description="100·mean(|e|/|actual|) in percent, pooled over rows. Undefined if any "
+        "actual is 0; then mape_nonzero covers the nonzero rows. METRICS.md 4 "
+        "(common practice; critiqued by Hyndman & Koehler 2006).",
+    ),
+    Measure(
+        id="wape",
+        label="WAPE %",
+        unit="%",
+        direction="lower",
+        from_stats=_wape,
+        description="100·Σ|e|/Σ|actual| in percent (MAD/mean ratio), pooled. Undefined if "
+        "Σ|actual| = 0. METRICS.md 5 (Kolassa & Schütz 2007).",
+    ),
+    Measure(
+        id="rmse",
+        label="RMSE",
+        unit="units",
+        direction="lower",
+        from_stats=_rmse,
+        description="√(Σe²/n) in data units, pooled. METRICS.md 7 "
+        "(common practice; Hyndman & Koehler 2006).",
+    ),
+    Measure(
+        id="sde",
+        label="SD of errors",
+        unit="units",
+        direction="lower",
+        from_stats=_sde,
+        description="√(Σ(e − ME)²/(n − 1)) in data units, pooled. Undefined if n < 2. "
+        "METRICS.md 8 (common practice).",
+    ),
+):
+    register_measure(_measure)
+del _measure

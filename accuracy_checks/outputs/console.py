@@ -1,0 +1,174 @@
+"""The console summary of a run, for a terminal or a CI log (``rich``).
+
+Layout, failures first (:func:`~accuracy_checks.results.sort_for_display`):
+
+1. a compact table of the results that need attention (fail, error, warn, waived): status
+   word, check, segment, lag, measure, value in words, thresholds, message — with
+   ``verbose=True`` the passing and skipped results are listed too;
+2. a line counting what is not listed (passes, and skips with their reasons);
+3. the first 3 examples (offending rows) under each failure and error;
+4. the one-line headline (verdict, counts, cycle).
+
+The status is always a word (FAIL, WARN…), colour only adds to it. Text from the data
+(segment names, messages, examples) is never read as markup. Outside a real terminal the
+table uses a plain ASCII box and a fixed width of 140 columns, so CI logs wrap well and the
+output does not depend on the environment.
+"""
+
+from __future__ import annotations
+
+import sys
+from typing import IO
+
+from rich import box
+from rich.console import Console
+from rich.table import Table
+from rich.text import Text
+
+from accuracy_checks.outputs.wording import (
+    count_summary,
+    describe_value,
+    format_example_value,
+    headline,
+    result_label,
+    status_word,
+    threshold_parts,
+)
+from accuracy_checks.results import DISPLAY_ORDER, CheckResult, RunReport, sort_for_display
+
+__all__ = ["render_console"]
+
+#: Width used when the output is not an interactive terminal (CI logs, files, pipes).
+LOG_WIDTH = 140
+#: Examples shown under each failure.
+MAX_EXAMPLES = 3
+
+_ATTENTION = ("fail", "error", "warn", "waived")
+_STYLES: dict[str, str] = {
+    "fail": "bold red",
+    "error": "bold red",
+    "warn": "bold yellow",
+    "waived": "cyan",
+    "skipped": "dim",
+    "pass": "green",
+}
+
+
+def _is_tty(file: IO[str]) -> bool:
+    isatty = getattr(file, "isatty", None)
+    try:
+        return bool(isatty()) if callable(isatty) else False
+    except (ValueError, OSError):  # closed or detached stream
+        return False
+
+
+def _make_console(file: IO[str] | None, color: bool | None) -> Console:
+    target = file if file is not None else sys.stdout
+    tty = _is_tty(target)
+    return Console(
+        file=target,
+        force_terminal=color,
+        no_color=color is False,
+        width=None if tty else LOG_WIDTH,
+        highlight=False,
+        emoji=False,
+        markup=False,
+        soft_wrap=False,
+    )
+
+
+def _cell(value: object) -> Text:
+    return Text("" if value is None else str(value))
+
+
+def _results_table(results: list[CheckResult], ascii_box: bool) -> Table:
+    table = Table(
+        box=box.ASCII if ascii_box else box.SIMPLE_HEAVY,
+        show_edge=not ascii_box,
+        pad_edge=False,
+        header_style="bold",
+        expand=False,
+    )
+    table.add_column("status", no_wrap=True)
+    table.add_column("check", no_wrap=True, overflow="fold")
+    table.add_column("segment", overflow="fold")
+    table.add_column("lag", justify="right", no_wrap=True)
+    table.add_column("measure", no_wrap=True)
+    table.add_column("value", overflow="fold")
+    table.add_column("thresholds", overflow="fold")
+    table.add_column("message", overflow="fold", min_width=20)
+    for result in results:
+        table.add_row(
+            Text(status_word(result.status), style=_STYLES.get(result.status, "")),
+            _cell(result.check),
+            _cell(result.segment),
+            _cell(result.lag),
+            _cell(result.measure),
+            _cell(describe_value(result)),
+            _cell("\n".join(threshold_parts(result)) or "none"),
+            _cell(result.message),
+        )
+    return table
+
+
+def _example_lines(result: CheckResult) -> list[Text]:
+    lines: list[Text] = []
+    shown = result.examples[:MAX_EXAMPLES]
+    for example in shown:
+        pairs = ", ".join(f"{k}={format_example_value(v)}" for k, v in example.items())
+        lines.append(Text(f"    - {pairs}"))
+    hidden = len(result.examples) - len(shown)
+    if hidden > 0:
+        lines.append(Text(f"    (and {hidden} more)"))
+    return lines
+
+
+def render_console(
+    report: RunReport,
+    *,
+    file: IO[str] | None = None,
+    color: bool | None = None,
+    verbose: bool = False,
+) -> None:
+    """Print the summary of ``report`` to ``file`` (default: standard output).
+
+    ``color``: ``True`` forces colour (a CI log that shows ANSI colours), ``False`` prints
+    plain text, ``None`` decides from the stream. ``verbose`` also lists passing and skipped
+    results. The output is deterministic for a given report, width and colour choice.
+    """
+    console = _make_console(file, color)
+    with console.capture() as captured:
+        _print_report(console, report, verbose=verbose)
+    # Cells are padded to the column width: drop the trailing blanks so logs stay clean.
+    text = "\n".join(line.rstrip(" ") for line in captured.get().split("\n"))
+    console.file.write(text)
+    console.file.flush()
+
+
+def _print_report(console: Console, report: RunReport, *, verbose: bool) -> None:
+    ascii_box = not console.is_terminal or not _is_tty(console.file)
+    ordered = sort_for_display(report.results)
+    shown = _ATTENTION if not verbose else tuple(DISPLAY_ORDER)
+    listed = [r for r in ordered if r.status in shown]
+    unlisted = [r for r in ordered if r.status not in shown]
+
+    rest = count_summary(unlisted, ("pass", "skipped"))
+    if listed:
+        console.print(_results_table(listed, ascii_box))
+        if rest:
+            console.print(Text(f"Not shown: {rest}."))
+    elif rest:
+        console.print(Text(f"{rest}."))
+
+    with_examples = [r for r in ordered if r.status in ("fail", "error") and r.examples]
+    for result in with_examples:
+        console.print()
+        title = Text()
+        title.append(status_word(result.status), style=_STYLES[result.status])
+        title.append(f" {result_label(result)} — examples:")
+        console.print(title)
+        for line in _example_lines(result):
+            console.print(line)
+
+    console.print()
+    console.print(Text(headline(report), style=_STYLES.get(report.status, "") or "bold"))

@@ -1,0 +1,392 @@
+"""Human wording of results, shared by every output (console, JUnit, Markdown).
+
+Contract:
+
+- Numbers are rounded to 3 significant digits (at most 6 decimals, so float noise such as
+  ``2e-15`` reads as ``0``), integers are never cut (``12346``, not ``12300``), values of
+  magnitude 1e9 and above use scientific notation, and ``-0`` is never shown.
+- Bias-type measures (``me``, ``bias_pct``, ``tracking_signal``) are worded with the fixed sign
+  convention ``e = actual − forecast``: positive = **under-forecast**, negative =
+  **over-forecast**. A bare sign is never the only clue.
+- Percentages are always in percent (``23.4 %``).
+- An undefined value (``None``, NaN, inf) reads ``undefined (<reason>)``.
+
+The direction of a measure (which way is better) decides how a single-number threshold is
+worded: centred measures (ideal 0) are bounded on ``|value|`` ("beyond ±5 %"), all others are
+lower-is-better ("> 25 %") unless a result states ``details["direction"] = "higher"``.
+"""
+
+from __future__ import annotations
+
+import datetime as _dt
+import math
+from collections.abc import Iterable, Sequence
+from typing import Any
+
+from accuracy_checks.results import CheckResult, RunReport
+
+__all__ = [
+    "CENTRED_MEASURES",
+    "count_summary",
+    "describe_threshold",
+    "describe_value",
+    "family",
+    "format_example_value",
+    "format_number",
+    "headline",
+    "result_label",
+    "status_word",
+    "threshold_parts",
+    "unit_of",
+    "unit_suffix",
+]
+
+#: Measures whose ideal value is 0; a single-number threshold bounds ``|value|``.
+CENTRED_MEASURES: frozenset[str] = frozenset({"me", "bias_pct", "tracking_signal"})
+#: Measures expressed in percent when a result does not state its unit.
+_PERCENT_MEASURES: frozenset[str] = frozenset(
+    {"bias_pct", "mape", "wape", "smape", "interval_coverage", "mape_nonzero"}
+)
+#: Measures expressed in data units when a result does not state its unit.
+_DATA_UNIT_MEASURES: frozenset[str] = frozenset({"me", "mae", "rmse", "sde", "pinball"})
+
+_MAX_DECIMALS = 6
+_SCIENTIFIC_FROM = 1e9
+
+# (status, word when the count is 1, word otherwise), in headline order.
+_COUNT_WORDS: tuple[tuple[str, str, str], ...] = (
+    ("fail", "failed", "failed"),
+    ("error", "error", "errors"),
+    ("warn", "warning", "warnings"),
+    ("pass", "passed", "passed"),
+    ("skipped", "skipped", "skipped"),
+    ("waived", "waived", "waived"),
+)
+
+
+def format_number(value: float, sig: int = 3) -> str:
+    """Round ``value`` to ``sig`` significant digits for reading; never ``-0``.
+
+    Integer digits are kept (no rounding of 12345.6 to 12300), at most 6 decimals are shown,
+    trailing zeros are dropped and magnitudes of 1e9 and above use scientific notation.
+
+    >>> format_number(17.94)
+    '17.9'
+    >>> format_number(0.0123456)
+    '0.0123'
+    >>> format_number(12345.6)
+    '12346'
+    >>> format_number(20.0)
+    '20'
+    >>> format_number(-0.0000000001)
+    '0'
+    >>> format_number(1.1259e17)
+    '1.13e+17'
+    >>> format_number(float("nan"))
+    'nan'
+    """
+    value = float(value)
+    if not math.isfinite(value):
+        return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
+    if value == 0:
+        return "0"
+    if abs(value) >= _SCIENTIFIC_FROM:
+        return f"{value:.{sig - 1}e}"
+    magnitude = math.floor(math.log10(abs(value)))
+    decimals = min(max(sig - 1 - magnitude, 0), _MAX_DECIMALS)
+    text = f"{value:.{decimals}f}"
+    if "." in text:
+        text = text.rstrip("0").rstrip(".")
+    if text in ("-0", ""):
+        text = "0"
+    return text
+
+
+def _format_bound_number(value: float) -> str:
+    """A threshold as the user wrote it (6 significant digits), never ``-0``."""
+    text = f"{float(value):g}"
+    return "0" if text == "-0" else text
+
+
+def unit_of(result: CheckResult) -> str | None:
+    """The unit of a result: its own ``unit``, else the usual unit of its measure.
+
+    >>> unit_of(CheckResult(check="accuracy", status="pass", measure="wape"))
+    '%'
+    >>> unit_of(CheckResult(check="accuracy", status="pass", measure="mase")) is None
+    True
+    """
+    if result.unit:
+        return result.unit
+    measure = result.measure or ""
+    if measure in _PERCENT_MEASURES or measure.endswith("_pct"):
+        return "%"
+    if measure in _DATA_UNIT_MEASURES:
+        return "units"
+    return None
+
+
+def unit_suffix(unit: str | None) -> str:
+    """The text put after a number of ``unit``: ``" %"``, ``" units"``; nothing for counts.
+
+    >>> unit_suffix("%"), unit_suffix("count"), unit_suffix(None)
+    (' %', '', '')
+    """
+    if unit is None or unit == "count":
+        return ""
+    return f" {unit}"
+
+
+def _is_defined(value: float | None) -> bool:
+    return value is not None and math.isfinite(float(value))
+
+
+def _direction(result: CheckResult) -> str:
+    """``centred``, ``higher`` or ``lower`` (which way the measure is better)."""
+    stated = result.details.get("direction") if isinstance(result.details, dict) else None
+    if stated in ("centred", "centered"):
+        return "centred"
+    if stated in ("higher", "lower"):
+        return str(stated)
+    if (result.measure or "") in CENTRED_MEASURES:
+        return "centred"
+    return "lower"
+
+
+def describe_value(result: CheckResult) -> str:
+    """The value of a result in words.
+
+    Bias-type measures follow ``e = actual − forecast`` (positive = under-forecast):
+
+    >>> describe_value(CheckResult("accuracy", "fail", measure="bias_pct", value=17.94, unit="%"))
+    'under-forecast by 17.9 %'
+    >>> describe_value(CheckResult("accuracy", "pass", measure="bias_pct", value=-4.2, unit="%"))
+    'over-forecast by 4.2 %'
+    >>> describe_value(CheckResult("accuracy", "pass", measure="bias_pct", value=0.0, unit="%"))
+    'no bias'
+    >>> describe_value(CheckResult("accuracy", "warn", measure="me", value=12.5, unit="units"))
+    'under-forecast by 12.5 units on average'
+    >>> describe_value(CheckResult("accuracy", "pass", measure="wape", value=23.44, unit="%"))
+    '23.4 %'
+    >>> describe_value(CheckResult("coverage.missing_series", "fail", value=3.0, unit="count"))
+    '3'
+    >>> describe_value(
+    ...     CheckResult("accuracy", "skipped", measure="mape", value=None, reason="zero_actual")
+    ... )
+    'undefined (zero_actual)'
+    """
+    value = result.value
+    if not _is_defined(value):
+        return f"undefined ({result.reason})" if result.reason else "undefined"
+    assert value is not None
+    value = float(value)
+    measure = result.measure or ""
+    unit = unit_of(result)
+    if measure in CENTRED_MEASURES:
+        magnitude = format_number(abs(value))
+        side = "under-forecast" if value > 0 else "over-forecast"
+        if magnitude == "0":
+            side = "no bias"
+        if measure == "tracking_signal":
+            signed = format_number(value)
+            prefix = side if side == "no bias" else f"sustained {side}"
+            return f"{prefix} (tracking signal {signed})"
+        if side == "no bias":
+            return side
+        if measure == "me":
+            return f"{side} by {magnitude} {unit or 'units'} on average"
+        return f"{side} by {magnitude}{unit_suffix(unit or '%')}"
+    return f"{format_number(value)}{unit_suffix(unit)}"
+
+
+def _describe_bound(bound: Any, direction: str, suffix: str) -> str:
+    if isinstance(bound, Sequence) and not isinstance(bound, str) and len(bound) == 2:
+        low, high = (_format_bound_number(b) for b in bound)
+        return f"outside [{low}, {high}]{suffix}"
+    number = float(bound)
+    if direction == "centred":
+        return f"beyond ±{_format_bound_number(abs(number))}{suffix}"
+    sign = "<" if direction == "higher" else ">"
+    return f"{sign} {_format_bound_number(number)}{suffix}"
+
+
+def describe_threshold(result: CheckResult) -> str:
+    """The thresholds a result was judged against, in words.
+
+    A threshold is exceeded when the value is strictly beyond it (PRODUCT.md).
+
+    >>> describe_threshold(CheckResult("accuracy", "pass", measure="wape", warn=25, fail=40))
+    'warn > 25 %, fail > 40 %'
+    >>> describe_threshold(CheckResult("accuracy", "pass", measure="bias_pct", warn=5.0))
+    'warn beyond ±5 %'
+    >>> describe_threshold(CheckResult("accuracy", "pass", measure="me", fail=(-10.0, 20.0)))
+    'fail outside [-10, 20] units'
+    >>> describe_threshold(CheckResult("coverage.missing_series", "pass", unit="count", warn=0))
+    'warn > 0'
+    >>> describe_threshold(CheckResult("accuracy", "pass", measure="wape"))
+    'no threshold'
+    """
+    parts = threshold_parts(result)
+    return ", ".join(parts) if parts else "no threshold"
+
+
+def threshold_parts(result: CheckResult) -> list[str]:
+    """Each threshold level of ``result`` in words (``[]`` when it has none).
+
+    >>> threshold_parts(CheckResult("accuracy", "pass", measure="bias_pct", fail=(-10, 20)))
+    ['fail outside [-10, 20] %']
+    """
+    suffix = unit_suffix(unit_of(result))
+    direction = _direction(result)
+    return [
+        f"{level} {_describe_bound(bound, direction, suffix)}"
+        for level, bound in (("warn", result.warn), ("fail", result.fail))
+        if bound is not None
+    ]
+
+
+def status_word(status: str) -> str:
+    """The status as an upper-case word (outputs never rely on colour alone).
+
+    >>> status_word("warn")
+    'WARN'
+    """
+    return status.upper()
+
+
+def family(check: str) -> str:
+    """The check family: the part of ``check`` before the first dot.
+
+    >>> family("coverage.horizon")
+    'coverage'
+    >>> family("accuracy")
+    'accuracy'
+    """
+    return check.split(".", 1)[0]
+
+
+def result_label(result: CheckResult, *, within_family: bool = False) -> str:
+    """A readable identifier of a result, e.g. ``wape[segment=tools, lag=1]``.
+
+    Accuracy results are named by their measure; other checks by their check name (without
+    the family when ``within_family``), with the measure, segment and lag in brackets.
+
+    >>> result_label(CheckResult("accuracy", "pass", segment="tools", lag=1, measure="wape"))
+    'wape[segment=tools, lag=1]'
+    >>> result_label(CheckResult("coverage.horizon", "fail", segment="*"))
+    'coverage.horizon[segment=*]'
+    >>> result_label(CheckResult("coverage.horizon", "fail"), within_family=True)
+    'horizon'
+    """
+    qualifiers: list[str] = []
+    if result.check == "accuracy" and result.measure:
+        base = result.measure
+    else:
+        base = result.check
+        if within_family and "." in base:
+            base = base.split(".", 1)[1]
+        if result.measure:
+            qualifiers.append(f"measure={result.measure}")
+    if result.segment is not None:
+        qualifiers.append(f"segment={result.segment}")
+    if result.lag is not None:
+        qualifiers.append(f"lag={result.lag}")
+    return f"{base}[{', '.join(qualifiers)}]" if qualifiers else base
+
+
+def _count_phrase(count: int, singular: str, plural: str) -> str:
+    return f"{count} {singular if count == 1 else plural}"
+
+
+def headline(report: RunReport) -> str:
+    """One line verdict with the counts behind it and the cycle.
+
+    >>> r = RunReport("r1", "2026-03-02", 2, [CheckResult("accuracy", "fail")], "t0", "t1")
+    >>> headline(r)
+    'FAIL — 1 failed (cycle 2026-03-02, attempt 2)'
+    """
+    counts = report.counts()
+    parts = [
+        _count_phrase(counts[status], singular, plural)
+        for status, singular, plural in _COUNT_WORDS
+        if counts.get(status, 0)
+    ]
+    text = f"{status_word(report.status)} — {', '.join(parts) if parts else 'no results'}"
+    where: list[str] = []
+    if report.cycle is not None:
+        where.append(f"cycle {report.cycle}")
+    if report.attempt is not None:
+        where.append(f"attempt {report.attempt}")
+    if where:
+        text += f" ({', '.join(where)})"
+    return text
+
+
+def count_summary(results: Iterable[CheckResult], statuses: Sequence[str]) -> str:
+    """Counts of the given statuses, with the reasons of skipped results.
+
+    >>> rs = [CheckResult("accuracy", "pass"), CheckResult("accuracy", "skipped",
+    ...       reason="zero_actual"), CheckResult("accuracy", "skipped", reason="zero_actual")]
+    >>> count_summary(rs, ("pass", "skipped"))
+    '1 passed, 2 skipped (zero_actual: 2)'
+    >>> count_summary([], ("pass",))
+    ''
+    """
+    by_status: dict[str, list[CheckResult]] = {s: [] for s in statuses}
+    for result in results:
+        if result.status in by_status:
+            by_status[result.status].append(result)
+    words = {status: (singular, plural) for status, singular, plural in _COUNT_WORDS}
+    parts: list[str] = []
+    for status in statuses:
+        group = by_status[status]
+        if not group:
+            continue
+        singular, plural = words.get(status, (status, status))
+        phrase = _count_phrase(len(group), singular, plural)
+        if status == "skipped":
+            reasons: dict[str, int] = {}
+            for result in group:
+                key = result.reason or "no reason given"
+                reasons[key] = reasons.get(key, 0) + 1
+            listed = ", ".join(f"{k}: {v}" for k, v in sorted(reasons.items()))
+            phrase += f" ({listed})"
+        parts.append(phrase)
+    return ", ".join(parts)
+
+
+def format_example_value(value: Any) -> str:
+    """An example cell (a value from an offending row) as text for people.
+
+    Offending values are shown as they are (``nan``, ``inf``): they are often the point.
+    Timestamps at midnight without a time zone read as a date.
+
+    >>> import pandas as pd
+    >>> format_example_value(pd.Timestamp("2026-03-02"))
+    '2026-03-02'
+    >>> format_example_value(float("nan"))
+    'nan'
+    >>> format_example_value(None)
+    'null'
+    >>> format_example_value(2.5)
+    '2.5'
+    """
+    if value is None:
+        return "null"
+    if isinstance(value, bool):
+        return str(value).lower()
+    if isinstance(value, _dt.datetime):
+        if value.tzinfo is None and value.time() == _dt.time(0):
+            return value.date().isoformat()
+        return value.isoformat()
+    if isinstance(value, _dt.date):
+        return value.isoformat()
+    if isinstance(value, float):
+        return format_number(value, sig=6) if math.isfinite(value) else str(value)
+    item = getattr(value, "item", None)  # numpy scalars
+    if callable(item) and type(value).__module__ == "numpy":
+        try:
+            return format_example_value(item())
+        except (TypeError, ValueError):
+            return str(value)
+    return str(value)
