@@ -592,25 +592,29 @@ def _intro(out_dir: Path, cycles: int) -> str:
 
 
 def _outro(scenario: Scenario) -> str:
-    rel = scenario.out_dir
-    last = scenario.forecast_paths[-1].relative_to(rel).as_posix()
+    out = scenario.out_dir
+    last = scenario.forecast_paths[-1].relative_to(out).as_posix()
     return (
-        "\nWhat was written:\n"
-        f"  {rel / 'data'}: actuals.csv (all weeks up to the final cycle), actuals/ (the "
-        "actuals known at each cycle),\n"
-        "      forecasts/ (one file per cycle), earlier_forecasts.csv (history), products.csv "
-        "(segment of each product), stores.csv\n"
-        f"  {scenario.config_path}: the config (thresholds per segment)\n"
-        f"  {rel / '.accuracy_checks' / 'archive'}: a snapshot of every checked forecast, by "
-        "cycle (later runs measure these)\n"
-        f"  {rel / '.accuracy_checks' / 'audit.db'}: the audit record of every run and result\n"
-        "Run one check by hand (a re-run is recorded as a new attempt of its cycle):\n"
-        f"  accuracy-checks run --config {scenario.config_path}\n"
-        f"  accuracy-checks run --config {scenario.config_path} --forecast {last} "
-        "--actuals data/actuals.csv --json result.json\n"
-        "(--forecast/--actuals paths are read like the config's: relative to where you run "
-        "the command, so run it from the demo folder or pass full paths.)\n"
-        "The demo always exits 0: the failing final cycle is part of the show.\n"
+        f"What was written to {out}:\n"
+        "  data/actuals.csv           weekly units sold, about two years up to the final cycle\n"
+        "  data/actuals/              the actuals as known on each cycle's issue date\n"
+        "  data/forecasts/            one forecast file per cycle (13 weeks, p10/p90)\n"
+        "  data/earlier_forecasts.csv the four cycles before the demo (the history)\n"
+        "  data/products.csv          the segment (category) of each product; stores.csv\n"
+        "  accuracy-checks.yaml       the config: inputs, horizon, lags, thresholds per segment\n"
+        "  .accuracy_checks/archive/  a snapshot of every checked forecast, by cycle; later runs\n"
+        "                             measure these against the actuals that arrive\n"
+        + (
+            "  .accuracy_checks/audit.db  the audit record of every run and result\n"
+            if (out / ".accuracy_checks" / "audit.db").exists()
+            else ""
+        )
+        + "Run one check by hand (a re-run is recorded as a new attempt of its cycle):\n"
+        f"  cd {out}\n"
+        "  accuracy-checks run --config accuracy-checks.yaml\n"
+        f"  accuracy-checks run --config accuracy-checks.yaml --forecast {last} \\\n"
+        "      --actuals data/actuals.csv --json result.json --markdown result.md\n"
+        "The demo itself exits 0: the failing final cycle is part of the show.\n"
     )
 
 
@@ -629,11 +633,11 @@ def run_demo(
     removed first; a non-empty folder that is not an earlier demo is refused
     (:class:`~accuracy_checks.errors.UsageError`).
     """
+    out_dir = Path(out_dir)
+    _prepare_folder(out_dir)
     from accuracy_checks.config import load_config
     from accuracy_checks.engine import run_checks
 
-    out_dir = Path(out_dir)
-    _prepare_folder(out_dir)
     echo(_intro(out_dir, cycles))
     scenario = generate_scenario(out_dir, cycles=cycles, seed=seed)
     echo(
@@ -654,6 +658,7 @@ def run_demo(
         report = run_checks(config, forecast_path=forecast, actuals_path=actuals)
         reports.append(report)
         echo(_cycle_block(k, cycles, day, report))
+    echo("The planted problems were:\n" + "".join(f"  - {line}\n" for line in describe_planted(scenario)))
     echo(_outro(scenario))
     return reports
 

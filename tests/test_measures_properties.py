@@ -83,18 +83,21 @@ rows = st.lists(st.tuples(st.integers(0, 4), values, values, st.booleans()), min
 def _check(stats: pd.DataFrame, frame: pd.DataFrame) -> None:
     stats = stats.set_index("group")
     assert set(MEASURES) <= set(DIRECT), "add a direct computation for each new measure"
+    groups: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+    for group, rows_of in frame.groupby("group"):
+        y = rows_of["actual"].to_numpy()
+        f = rows_of["forecast"].to_numpy()
+        keep = ~(np.isnan(y) | np.isnan(f))
+        groups[int(group)] = (y[keep], y[keep] - f[keep])
+    assert sorted(groups) == stats.index.tolist()
     for measure_id, measure in MEASURES.items():
-        out = measure.from_stats(stats)
-        for group, rows_of in frame.groupby("group"):
-            y = rows_of["actual"].to_numpy()
-            f = rows_of["forecast"].to_numpy()
-            keep = ~(np.isnan(y) | np.isnan(f))
-            y, e = y[keep], y[keep] - f[keep]
+        out = measure.from_stats(stats).to_dict(orient="index")
+        for group, (y, e) in groups.items():
             if y.size == 0:
                 want, reason, scale = NAN, "no_data", 0.0
             else:
                 want, reason, scale = DIRECT[measure_id](y, e)
-            got = out.loc[group]
+            got = out[group]
             assert got["reason"] == reason, (measure_id, group)
             if math.isnan(want):
                 assert math.isnan(got["value"]), (measure_id, group)
