@@ -301,14 +301,17 @@ def _forecast_table(
     )
 
 
-def _write_csv(table: pa.Table, path: Path) -> None:
+def _csv_bytes(table: pa.Table) -> bytes:
     """Plain CSV: an unquoted header, no quotes (no value holds a comma, quote or newline)."""
+    sink = pa.BufferOutputStream()
+    sink.write((",".join(table.column_names) + "\n").encode("utf-8"))
+    pa_csv.write_csv(table, sink, pa_csv.WriteOptions(include_header=False, quoting_style="none"))
+    return bytes(sink.getvalue())
+
+
+def _write_csv(table: pa.Table, path: Path) -> None:
     path.parent.mkdir(parents=True, exist_ok=True)
-    with path.open("wb") as out:
-        out.write((",".join(table.column_names) + "\n").encode("utf-8"))
-        pa_csv.write_csv(
-            table, out, pa_csv.WriteOptions(include_header=False, quoting_style="none")
-        )
+    path.write_bytes(_csv_bytes(table))
 
 
 def _drop_rows(table: pa.Table, drop: np.ndarray) -> pa.Table:
@@ -416,23 +419,26 @@ def generate_scenario(out_dir: Path, *, cycles: int = 6, seed: int = 7) -> Scena
     gap_rows = np.sort(rng.choice(steady, size=GAP_SERIES, replace=False))
     gap_week = gap_cycle + dt.timedelta(weeks=GAP_STEP - 1)
 
-    # actuals
-    weeks = world.weeks
+    # actuals, week by week (as a weekly feed appends them): the actuals known at a cycle are
+    # then a prefix of the file, cut before the first row of its issue week
     actuals = pa.table(
         {
-            "store": np.repeat(world.store, HISTORY_WEEKS),
-            "product": np.repeat(world.product, HISTORY_WEEKS),
-            "week": pa.array(np.tile(weeks, n_series), pa.date32()),
-            "units_sold": world.units.ravel(),
+            "store": np.tile(world.store, HISTORY_WEEKS),
+            "product": np.tile(world.product, HISTORY_WEEKS),
+            "week": pa.array(np.repeat(world.weeks, n_series), pa.date32()),
+            "units_sold": world.units.T.ravel(),
         }
     )
+    text = _csv_bytes(actuals)
+    line_ends = np.flatnonzero(np.frombuffer(text, dtype=np.uint8) == ord("\n"))
     actuals_path = data / "actuals.csv"
-    _write_csv(actuals, actuals_path)
-    week_of_row = np.tile(weeks, n_series)
+    actuals_path.write_bytes(text)
     cycle_actuals: list[Path] = []
+    (data / "actuals").mkdir(exist_ok=True)
     for day in cycle_dates:
+        rows = index_of(day) * n_series  # weeks before the issue date; + 1 line of header
         path = data / "actuals" / f"actuals_{day.isoformat()}.csv"
-        _write_csv(_drop_rows(actuals, week_of_row >= np.datetime64(day, "D")), path)
+        path.write_bytes(text[: line_ends[rows] + 1])
         cycle_actuals.append(path)
 
     # reference tables

@@ -93,6 +93,7 @@ def _check(stats: pd.DataFrame, frame: pd.DataFrame) -> None:
     for measure_id, measure in MEASURES.items():
         out = measure.from_stats(stats).to_dict(orient="index")
         for group, (y, e) in groups.items():
+            reason: str | None
             if y.size == 0:
                 want, reason, scale = NAN, "no_data", 0.0
             else:

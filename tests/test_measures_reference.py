@@ -12,6 +12,7 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 import pytest
+from numpy.typing import ArrayLike
 from sklearn import metrics as sk
 from statsmodels.tools import eval_measures as sm
 
@@ -46,7 +47,7 @@ TABLE: dict[str, list[float]] = {
 }
 CASE_IDS = list(CASES)
 
-FUNCTIONS: dict[str, Callable[[object, object], float]] = {
+FUNCTIONS: dict[str, Callable[[ArrayLike, ArrayLike], float]] = {
     "me": fn.mean_error,
     "bias_pct": fn.bias_pct,
     "mae": fn.mean_absolute_error,

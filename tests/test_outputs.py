@@ -254,7 +254,7 @@ def test_json_converts_numpy_and_pandas_values_in_details() -> None:
             "when": pd.Timestamp("2026-03-02 06:30", tz="UTC"),
             "missing": pd.NaT,
             "arr": np.array([1, 2]),
-            np.int64(4): "numpy key",
+            np.int64(4): "numpy key",  # type: ignore[dict-item]  # a key that is not a str
         },
     )
     document = json.loads(jsonfile.dumps_report(_report([result])))
@@ -504,3 +504,22 @@ def test_console_passing_report_is_one_count_line_and_the_headline() -> None:
         "",
         "PASS — 2 passed (cycle 2026-03-02, attempt 2)",
     ]
+
+
+def test_examples_that_are_not_mappings_are_shown_as_text() -> None:
+    result = CheckResult("output.issue_dates", "fail", value=1, fail=0, examples=["row 7"])
+    report = _report([result])
+    assert "    - row 7" in _console_text(report).splitlines()
+    assert "| value |" in render_markdown(report)
+    failure = ET.fromstring(to_junit_xml(report)).find("testsuite/testcase/failure")
+    assert failure is not None and "  - row 7" in (failure.text or "")
+
+
+def test_unit_and_direction_come_from_the_measure_registry() -> None:
+    # mae is registered in data units, me as centred (accuracy_checks/measures/registry.py)
+    mae = CheckResult("accuracy", "pass", measure="mae", value=4.0, warn=5.0)
+    assert describe_value(mae) == "4 units"
+    assert describe_threshold(mae) == "warn > 5 units"
+    me = CheckResult("accuracy", "pass", measure="me", value=-4.0, warn=5.0)
+    assert describe_value(me) == "over-forecast by 4 units on average"
+    assert describe_threshold(me) == "warn beyond ±5 units"

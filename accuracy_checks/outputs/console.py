@@ -28,7 +28,7 @@ from rich.text import Text
 from accuracy_checks.outputs.wording import (
     count_summary,
     describe_value,
-    format_example_value,
+    format_example,
     headline,
     result_label,
     status_word,
@@ -115,7 +115,7 @@ def _example_lines(result: CheckResult) -> list[Text]:
     lines: list[Text] = []
     shown = result.examples[:MAX_EXAMPLES]
     for example in shown:
-        pairs = ", ".join(f"{k}={format_example_value(v)}" for k, v in example.items())
+        pairs = format_example(example)
         lines.append(Text(f"    - {pairs}"))
     hidden = len(result.examples) - len(shown)
     if hidden > 0:

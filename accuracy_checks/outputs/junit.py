@@ -34,7 +34,7 @@ from accuracy_checks.outputs.wording import (
     describe_threshold,
     describe_value,
     family,
-    format_example_value,
+    format_example,
     result_label,
 )
 from accuracy_checks.results import CheckResult, RunReport, sort_for_display
@@ -87,7 +87,7 @@ def _detail_text(result: CheckResult) -> str:
         shown = result.examples[:MAX_EXAMPLES]
         lines.append(f"examples ({len(shown)} of {len(result.examples)}):")
         for example in shown:
-            pairs = ", ".join(f"{k}={format_example_value(v)}" for k, v in example.items())
+            pairs = format_example(example)
             lines.append(f"  - {pairs}")
     return "\n".join(lines)
 

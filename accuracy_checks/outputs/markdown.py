@@ -24,7 +24,7 @@ from __future__ import annotations
 
 import math
 import os
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 
 from accuracy_checks.outputs.jsonfile import write_text_atomic
 from accuracy_checks.outputs.wording import (
@@ -194,10 +194,14 @@ def _examples_section(results: list[CheckResult]) -> list[str]:
         "",
     ]
     for r in with_examples:
-        shown = r.examples[:MAX_EXAMPLES]
+        shown = [
+            ex if isinstance(ex, Mapping) else {"value": ex} for ex in r.examples[:MAX_EXAMPLES]
+        ]
         columns: list[str] = []
         for example in shown:
-            columns.extend(str(k) for k in example if str(k) not in columns)
+            for key in example:
+                if str(key) not in columns:
+                    columns.append(str(key))
         label = escape_cell(result_label(r))
         lines += [f"{status_word(r.status)} **{label}** ({len(shown)} of {len(r.examples)})", ""]
         rows = [

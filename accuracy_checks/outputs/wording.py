@@ -13,14 +13,15 @@ Contract:
 
 The direction of a measure (which way is better) decides how a single-number threshold is
 worded: centred measures (ideal 0) are bounded on ``|value|`` ("beyond ±5 %"), all others are
-lower-is-better ("> 25 %") unless a result states ``details["direction"] = "higher"``.
+lower-is-better ("> 25 %"), and higher-is-better measures read "< 10". The direction comes
+from ``details["direction"]`` when a result states it, else from the measure registry.
 """
 
 from __future__ import annotations
 
 import datetime as _dt
 import math
-from collections.abc import Iterable, Sequence
+from collections.abc import Iterable, Mapping, Sequence
 from typing import Any
 
 from accuracy_checks.results import CheckResult, RunReport
@@ -31,6 +32,7 @@ __all__ = [
     "describe_threshold",
     "describe_value",
     "family",
+    "format_example",
     "format_example_value",
     "format_number",
     "headline",
@@ -108,8 +110,22 @@ def _format_bound_number(value: float) -> str:
     return "0" if text == "-0" else text
 
 
+def _registered(measure: str | None) -> Any:
+    """The registry entry of ``measure`` (it states unit and direction), or ``None``.
+
+    Looked up lazily so that the outputs never fail to import with the measures package.
+    """
+    if not measure:
+        return None
+    try:
+        from accuracy_checks.measures.registry import MEASURES
+    except ImportError:  # pragma: no cover - the registry is part of the package
+        return None
+    return MEASURES.get(measure)
+
+
 def unit_of(result: CheckResult) -> str | None:
-    """The unit of a result: its own ``unit``, else the usual unit of its measure.
+    """The unit of a result: its own ``unit``, else the registered or usual unit of its measure.
 
     >>> unit_of(CheckResult(check="accuracy", status="pass", measure="wape"))
     '%'
@@ -118,6 +134,9 @@ def unit_of(result: CheckResult) -> str | None:
     """
     if result.unit:
         return result.unit
+    registered = _registered(result.measure)
+    if registered is not None and getattr(registered, "unit", None):
+        return str(registered.unit)
     measure = result.measure or ""
     if measure in _PERCENT_MEASURES or measure.endswith("_pct"):
         return "%"
@@ -142,8 +161,14 @@ def _is_defined(value: float | None) -> bool:
 
 
 def _direction(result: CheckResult) -> str:
-    """``centred``, ``higher`` or ``lower`` (which way the measure is better)."""
+    """``centred``, ``higher`` or ``lower`` (which way the measure is better).
+
+    From ``details["direction"]`` when a result states it, else the measure registry, else
+    :data:`CENTRED_MEASURES`, else lower-is-better (errors and counts).
+    """
     stated = result.details.get("direction") if isinstance(result.details, dict) else None
+    if stated is None:
+        stated = getattr(_registered(result.measure), "direction", None)
     if stated in ("centred", "centered"):
         return "centred"
     if stated in ("higher", "lower"):
@@ -390,3 +415,16 @@ def format_example_value(value: Any) -> str:
         except (TypeError, ValueError):
             return str(value)
     return str(value)
+
+
+def format_example(example: Any) -> str:
+    """One example (an offending row, normally a mapping) as ``key=value, …`` text.
+
+    >>> format_example({"store": 3, "week": "2026-03-02"})
+    'store=3, week=2026-03-02'
+    >>> format_example("row 7")
+    'row 7'
+    """
+    if isinstance(example, Mapping):
+        return ", ".join(f"{k}={format_example_value(v)}" for k, v in example.items())
+    return format_example_value(example)
