@@ -664,14 +664,17 @@ def run_demo(
         report = run_checks(config, forecast_path=forecast, actuals_path=actuals)
         reports.append(report)
         echo(_cycle_block(k, cycles, day, report))
-    echo("The planted problems were:\n" + "".join(f"  - {line}\n" for line in describe_planted(scenario)))
+    planted = "".join(f"  - {line}\n" for line in describe_planted(scenario))
+    echo(f"The planted problems were:\n{planted}")
     echo(_outro(scenario))
     return reports
 
 
 def _cycle_block(k: int, cycles: int, day: dt.date, report: RunReport) -> str:
     verdict = {"pass": "PASS", "warn": "WARN", "fail": "FAIL"}[report.status]
-    lines = [f"Cycle {k}/{cycles}, issued Monday {day.isoformat()}: {verdict}  ({_count_line(report)})"]
+    lines = [
+        f"Cycle {k}/{cycles}, issued Monday {day.isoformat()}: {verdict}  ({_count_line(report)})"
+    ]
     findings = top_findings(report)
     if findings:
         lines += [f"  - {f}" for f in findings]

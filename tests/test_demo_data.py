@@ -144,7 +144,8 @@ def test_forecast_schema_and_quantile_order(scenario: Scenario, which: str) -> N
             assert [pd.Timestamp(x).date() for x in issued] == [day]
             assert path.name == f"forecast_{day.isoformat()}.csv"
     else:
-        issued = sorted(pd.Timestamp(x).date() for x in read_forecast(paths[0])["issued_on"].unique())
+        history = read_forecast(paths[0])
+        issued = sorted(pd.Timestamp(x).date() for x in history["issued_on"].unique())
         assert issued == list(scenario.earlier_dates)
 
 

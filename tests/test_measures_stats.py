@@ -151,6 +151,38 @@ def test_nullable_dtypes_and_missing_group_keys() -> None:
     assert stats["sum_e"].tolist() == [1.0, 2.0]
 
 
+@pytest.mark.parametrize(
+    "by", [["text"], ["cat"], ["whole", "cat"], ["day", "flag", "text"], ["many", "day", "text"]]
+)
+def test_groups_match_pandas_groupby(by: list[str]) -> None:
+    # Groups and their order are those of frame.groupby(by, observed=True, sort=True), for
+    # every key dtype: str with missing values, categoricals (unsorted and unobserved
+    # categories), nullable Int64, datetimes, bools; "many" forces the pandas fallback path.
+    rng = np.random.default_rng(9)
+    rows = 400
+    frame = pd.DataFrame(
+        {
+            "text": pd.array(rng.choice(["b", "a", None, "c"], rows), dtype="str"),
+            "cat": pd.Categorical(rng.choice(["z", "y"], rows), categories=["z", "x", "y"]),
+            "whole": pd.array(rng.choice(np.array([1, 2, None], dtype=object), rows),
+                              dtype="Int64"),
+            "day": pd.to_datetime(rng.choice(["2024-01-08", "2024-01-01"], rows)),
+            "flag": rng.random(rows) < 0.5,
+            "many": rng.permutation(rows),
+            "actual": rng.normal(100.0, 10.0, rows),
+            "forecast": rng.normal(100.0, 10.0, rows),
+        }
+    )
+    stats = error_stats(frame, by)
+    grouped = frame.groupby(by, observed=True, sort=True)
+    want = grouped.size().index.to_frame(index=False)
+    pd.testing.assert_frame_equal(stats[by], want)
+    np.testing.assert_array_equal(stats["n"], grouped.size().to_numpy())
+    np.testing.assert_allclose(stats["sum_e"], grouped.apply(
+        lambda g: (g["actual"] - g["forecast"]).sum(), include_groups=False
+    ).to_numpy(), rtol=1e-12, atol=1e-9)
+
+
 def test_counts_of_zero_and_negative_actuals() -> None:
     frame = pd.DataFrame(
         {"actual": [0.0, -2.0, 4.0, 0.0, np.nan], "forecast": [1.0, 1.0, 2.0, np.nan, 1.0]}

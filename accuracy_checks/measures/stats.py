@@ -268,10 +268,49 @@ def _check_by(frame: pd.DataFrame, by: Sequence[str], what: str) -> list[str]:
 
 
 def _group_codes(frame: pd.DataFrame, by: list[str]) -> tuple[np.ndarray, pd.DataFrame]:
-    """Group number of each row (−1: no group) and the sorted observed keys as a frame."""
+    """Group number of each row (−1: no group) and the sorted observed keys as a frame.
+
+    Same groups and order as ``frame.groupby(by, observed=True, sort=True)``. Each key column
+    is factorised (sorted; categoricals use their codes and category order), the codes are
+    combined in mixed radix and compressed to the observed combinations with one ``bincount``.
+    When the product of the key cardinalities is too large for that, pandas groups instead.
+    """
+    rows = len(frame)
     if not by:
-        rows = len(frame)
         return np.zeros(rows, dtype=np.intp), pd.DataFrame(index=pd.RangeIndex(1 if rows else 0))
+    codes_of: list[np.ndarray] = []
+    levels: list[pd.Index] = []
+    for column in by:
+        series = frame[column]
+        if isinstance(series.dtype, pd.CategoricalDtype):
+            codes_of.append(series.cat.codes.to_numpy().astype(np.int64))
+            levels.append(pd.CategoricalIndex(series.cat.categories, dtype=series.dtype))
+        else:
+            column_codes, uniques = pd.factorize(series, sort=True)
+            codes_of.append(column_codes.astype(np.int64, copy=False))
+            levels.append(uniques)
+    shape = tuple(max(len(level), 1) for level in levels)
+    cells = int(np.prod(shape, dtype=np.float64))
+    if cells > min(4 * rows + 1024, 1 << 26):
+        return _group_codes_pandas(frame, by)
+    combined = np.ravel_multi_index(tuple(np.maximum(c, 0) for c in codes_of), shape)
+    missing = np.zeros(rows, dtype=bool)
+    for column_codes in codes_of:
+        missing |= column_codes < 0
+    if missing.any():  # rows with a missing key go to an extra cell that is no group
+        combined[missing] = cells
+    counts = np.bincount(combined, minlength=cells + 1)[:cells]
+    present = np.flatnonzero(counts)
+    lookup = np.full(cells + 1, -1, dtype=np.intp)
+    lookup[present] = np.arange(present.size, dtype=np.intp)
+    key_codes = np.unravel_index(present, shape)
+    keys = pd.DataFrame(
+        {column: level.take(kc) for column, level, kc in zip(by, levels, key_codes, strict=True)}
+    )
+    return lookup[combined], keys
+
+
+def _group_codes_pandas(frame: pd.DataFrame, by: list[str]) -> tuple[np.ndarray, pd.DataFrame]:
     grouped = frame.groupby(by, observed=True, sort=True)
     keys = grouped.size().index.to_frame(index=False)
     raw = grouped.ngroup().to_numpy()
