@@ -1,8 +1,8 @@
 """The forecast archive: one Parquet snapshot of each checked forecast, by cycle and attempt.
 
-Layout: ``<archive>/cycle=<YYYY-MM-DD>/attempt-<NNNN>.parquet`` holding the canonical columns
-(keys, ``period``, ``issued``, ``forecast``, quantile columns, ``segment``). A snapshot is written to
-``<archive>/.incoming/`` first and then hard-linked to its final name, which fails if the name
+Layout: ``<archive>/cycle=<YYYY-MM-DD>/attempt-<NNNN>.parquet`` holding the canonical
+columns (keys, ``period``, ``issued``, ``forecast``, quantile columns, ``segment``). A snapshot
+is written to ``<archive>/.incoming/`` first and then hard-linked to its final name, which fails if the name
 is taken: an interrupted run leaves no half snapshot under a final name, and two runs of the same
 cycle that start together still get distinct, consecutive attempt numbers.
 """

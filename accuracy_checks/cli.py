@@ -85,7 +85,7 @@ def main(argv: list[str] | None = None) -> int:
     except KeyboardInterrupt:
         print("accuracy-checks: interrupted; nothing was archived.", file=sys.stderr)
         return 130
-    except Exception as exc:  # noqa: BLE001 - last resort: a short message, not a traceback
+    except Exception as exc:
         if os.environ.get("ACCURACY_CHECKS_DEBUG"):
             raise
         print(f"accuracy-checks: internal error: {type(exc).__name__}: {exc}. This is a bug; "

@@ -342,7 +342,7 @@ def parse_config(text: str, *, source: Path | None = None, **overrides: Any) -> 
     """Validate config text (YAML). Relative paths resolve against ``source``'s folder."""
     name = str(source) if source else "<config>"
     try:
-        raw = yaml.load(text, Loader=_UniqueKeyLoader)  # noqa: S506 - a SafeLoader subclass
+        raw = yaml.load(text, Loader=_UniqueKeyLoader)
     except yaml.YAMLError as exc:
         mark = getattr(exc, "problem_mark", None)
         where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""

@@ -584,16 +584,17 @@ def _count_line(report: RunReport) -> str:
 
 
 def _intro(out_dir: Path, cycles: int) -> str:
+    segments = ", ".join(s.name for s in SEGMENTS)
     return (
-        "accuracy-checks demo — invented data, no real company or store.\n"
-        f"Writing a fictional chain of {N_STORES} garden centres to {out_dir}: weekly unit sales "
-        f"of about 300 products in {len(SEGMENTS)} segments\n"
-        f"({', '.join(s.name for s in SEGMENTS)}), {EARLIER_CYCLES} earlier forecast cycles "
-        f"and {cycles} new weekly cycles of {HORIZON}-week forecasts.\n"
-        "Then running the gate once per cycle, in issue order, as a weekly job would: each run "
-        "checks that cycle's forecast\nfile for missing series and weeks, measures the earlier "
-        "cycles' forecasts against the actuals known that Monday,\nand judges them against the "
-        "thresholds in accuracy-checks.yaml. A few problems are planted; watch for them.\n"
+        "accuracy-checks demo: invented data, no real company, store or person.\n"
+        f"It writes a fictional chain of {N_STORES} garden centres to {out_dir}: weekly unit\n"
+        f"sales of about 300 products in {len(SEGMENTS)} segments ({segments}),\n"
+        f"{EARLIER_CYCLES} earlier forecast cycles and {cycles} new weekly cycles of "
+        f"{HORIZON}-week forecasts.\n"
+        "Then it runs the gate once per cycle, in issue order, as a weekly job would. Each run\n"
+        "checks that cycle's forecast file for missing series and weeks, measures the earlier\n"
+        "cycles' forecasts against the actuals known that Monday, and judges the figures\n"
+        "against the thresholds in accuracy-checks.yaml. A few problems are planted.\n"
     )
 
 

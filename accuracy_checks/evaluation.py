@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass, field
 
+import numpy as np
 import pandas as pd
 
 from accuracy_checks import frames as F
@@ -49,6 +50,8 @@ def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list
     rows = earlier.loc[earlier[F.PERIOD].isin(periods)]
     rows = add_lags_for_subset(earlier, rows, frequency)
     rows = rows.loc[rows[F.LAG].isin(lags)]
+    # a non-finite earlier forecast cannot be scored: count it as dropped, like a missing one
+    rows = rows.assign(**{F.FORECAST: rows[F.FORECAST].where(np.isfinite(rows[F.FORECAST]))})
     joined = rows.merge(
         actuals[[*keys, F.PERIOD, F.ACTUAL]], on=[*keys, F.PERIOD], how="left", validate="m:1"
     )

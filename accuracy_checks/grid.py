@@ -19,7 +19,8 @@ def offset_of(frequency: str) -> BaseOffset:
     return to_offset(frequency)
 
 
-def grid_positions(dates: pd.Series | pd.DatetimeIndex, frequency: str) -> tuple[np.ndarray, np.ndarray]:
+def grid_positions(dates: pd.Series | pd.DatetimeIndex,
+                   frequency: str) -> tuple[np.ndarray, np.ndarray]:
     """Integer grid position of each date and whether the date lies exactly on the grid.
 
     An off-grid date gets the position of the next grid point. Vectorised: fixed steps

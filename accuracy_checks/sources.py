@@ -154,7 +154,8 @@ def _to_number(s: pd.Series, file: Path, c: Column, role: str, first_line: int) 
         raise InputError(
             f"The {role} file {file}, column {c.name!r} (config key `{c.key}`), holds "
             f"{int(bad.sum())} values that are not numbers ({_rows(bad, s, first_line)}). "
-            "Write plain numbers (a dot as decimal mark), or leave the cell empty for a missing value."
+            "Write plain numbers (a dot as decimal mark), or leave the cell empty for a "
+            "missing value."
         )
     return num.astype("float64")
 
@@ -254,9 +255,9 @@ def read_actuals(config: Config, path: Path | None = None) -> pd.DataFrame:
     if ac.keys and list(ac.keys) != list(config.forecast.keys):
         frame = frame.rename(columns=dict(zip(ac.keys, config.forecast.keys, strict=False)))
     keys = list(config.forecast.keys)
-    dup = frame.duplicated(keys + [F.PERIOD], keep=False).to_numpy()
+    dup = frame.duplicated([*keys, F.PERIOD], keep=False).to_numpy()
     if dup.any():
-        sample = frame.loc[dup, keys + [F.PERIOD]].head(_SHOW)
+        sample = frame.loc[dup, [*keys, F.PERIOD]].head(_SHOW)
         shown = "; ".join(
             ", ".join(f"{k}={v}" for k, v in row.items() if k != F.PERIOD)
             + f", {row[F.PERIOD]:%Y-%m-%d}"
@@ -344,7 +345,7 @@ def assign_segments(frame: pd.DataFrame, config: Config, mapping: pd.DataFrame |
 
 def segments_of_series(frames: Sequence[pd.DataFrame], keys: list[str]) -> pd.DataFrame:
     """A (keys → segment) table from frames that carry ``segment`` (last one wins)."""
-    table = pd.concat([f[keys + [F.SEGMENT]] for f in frames if len(f)], ignore_index=True)
+    table = pd.concat([f[[*keys, F.SEGMENT]] for f in frames if len(f)], ignore_index=True)
     return table.drop_duplicates(keys, keep="last")
 
 

@@ -76,8 +76,9 @@ values = st.one_of(
     st.integers(-50, 500).map(float),
     st.floats(-1e4, 1e4, allow_nan=False, allow_subnormal=False),
 )
-rows = st.lists(st.tuples(st.integers(0, 4), values, values, st.booleans()), min_size=1,
-                max_size=40)
+rows = st.lists(
+    st.tuples(st.integers(0, 4), values, values, st.booleans()), min_size=1, max_size=40
+)
 
 
 def _check(stats: pd.DataFrame, frame: pd.DataFrame) -> None:

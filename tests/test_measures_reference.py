@@ -101,9 +101,7 @@ def test_function_matches_check_value(measure: str, case: str) -> None:
 
 @pytest.mark.parametrize("case", CASE_IDS)
 @pytest.mark.parametrize("measure", list(TABLE))
-def test_registry_matches_check_value(
-    measure: str, case: str, case_stats: pd.DataFrame
-) -> None:
+def test_registry_matches_check_value(measure: str, case: str, case_stats: pd.DataFrame) -> None:
     # Source: METRICS.md check-value table (rounded to 6 significant digits → rel=1e-5).
     expected = TABLE[measure][CASE_IDS.index(case)]
     result = get_measure(measure).from_stats(case_stats).loc[case]
@@ -156,6 +154,7 @@ def test_sklearn_mape_blows_up_on_zero_actuals() -> None:
 
 
 # ---- cross-checks against sklearn / statsmodels (rel 1e-12) ----------------------------------
+
 
 def _references(y: np.ndarray, f: np.ndarray) -> dict[str, float]:
     """The reference call for each measure, as named in METRICS.md entries 1–8."""
@@ -241,9 +240,7 @@ def test_elec_equip_seasonal_naive_regression() -> None:
     assert get_measure("wape").from_stats(stats)["value"].iloc[0] == pytest.approx(
         2.83290, rel=1e-5
     )
-    assert get_measure("me").from_stats(stats)["value"].iloc[0] == pytest.approx(
-        2.88417, rel=1e-5
-    )
+    assert get_measure("me").from_stats(stats)["value"].iloc[0] == pytest.approx(2.88417, rel=1e-5)
     # Same figures from the references: statsmodels bias (METRICS.md 1) and
     # 100 * sklearn mean_absolute_error / mean|y| (METRICS.md 5).
     assert fn.mean_error(y, f) == pytest.approx(float(sm.bias(y, f)), rel=1e-12)

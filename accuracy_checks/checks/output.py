@@ -177,6 +177,20 @@ def plural(n: int, singular: str, many: str | None = None) -> str:
     return f"{n:,} {singular if n == 1 else (many or singular + 's')}"
 
 
+def verb(n: int, one: str, many: str) -> str:
+    """The verb form that agrees with a count: ``verb(1, "has", "have")`` → ``"has"``."""
+    return one if n == 1 else many
+
+
+def all_of(n: int, noun: str) -> str:
+    """``"All 2,400 active series"``, or ``"The 1 active series"`` (``noun`` is plural).
+
+    >>> all_of(3, "rows"), all_of(1, "series")
+    ('All 3 rows', 'The 1 series')
+    """
+    return f"The 1 {noun}" if n == 1 else f"All {n:,} {noun}"
+
+
 # --------------------------------------------------------------------------- row masks
 
 
@@ -577,8 +591,8 @@ def _invalid(
         frame,
         keys,
         mask,
-        f"{plural(n_bad, 'row')} hold a missing (null/NaN) or infinite value in {where}; "
-        "every forecast and quantile value must be a finite number",
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a missing (null/NaN) or "
+        f"infinite value in {where}; every forecast and quantile value must be a finite number",
         f"Every value in {', '.join(values)} is a finite number.",
         row_examples(frame, _first(mask, max_examples), [*ident, *values]),
         {"by_column": by_column} if by_column else None,
@@ -594,12 +608,13 @@ def _negative(
     max_examples: int,
 ) -> CheckResult:
     shown = [*ident, *([SEGMENT] if SEGMENT in frame.columns else []), *values]
+    n_bad = int(np.count_nonzero(mask))
     return _result(
         NEGATIVE_VALUES,
         frame,
         keys,
         mask,
-        f"{plural(int(np.count_nonzero(mask)), 'row')} hold a negative forecast or quantile; "
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a negative forecast or quantile; "
         "forecasts must be 0 or more unless forecast.allow_negative lists the segment",
         f"No negative value in {', '.join(values)} outside the segments that allow them.",
         row_examples(frame, _first(mask, max_examples), shown),
@@ -614,12 +629,13 @@ def _crossing(
     max_examples: int,
 ) -> CheckResult:
     ident = [*keys, PERIOD, ISSUED]
+    n_bad = int(np.count_nonzero(mask))
     return _result(
         QUANTILE_ORDER,
         frame,
         keys,
         mask,
-        f"{plural(int(np.count_nonzero(mask)), 'row')} have crossing quantiles (a lower level "
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'has', 'have')} crossing quantiles (a lower level "
         f"above a higher one, e.g. {quantile_columns[0]} > {quantile_columns[-1]}); quantile "
         "forecasts must not decrease as the level rises",
         f"Quantiles rise with their level ({', '.join(quantile_columns)}) in every row.",

@@ -172,8 +172,10 @@ def merge_stats(parts: Sequence[pd.DataFrame], by: Sequence[str]) -> pd.DataFram
         if parts:
             return parts[0].loc[:, [*by, *STAT_COLUMNS]].reset_index(drop=True)
         return pd.DataFrame(
-            {c: pd.Series(dtype=np.int64 if c in _COUNT_COLUMNS else np.float64)
-             for c in (*by, *STAT_COLUMNS)}
+            {
+                c: pd.Series(dtype=np.int64 if c in _COUNT_COLUMNS else np.float64)
+                for c in (*by, *STAT_COLUMNS)
+            }
         )
     stacked = kept[0] if len(kept) == 1 else pd.concat(kept, ignore_index=True)
     return total_stats(stacked, by)
