@@ -2,9 +2,9 @@
 
 Layout: ``<archive>/cycle=<YYYY-MM-DD>/attempt-<NNNN>.parquet`` holding the canonical
 columns (keys, ``period``, ``issued``, ``forecast``, quantile columns, ``segment``). A snapshot
-is written to ``<archive>/.incoming/`` first and then hard-linked to its final name, which fails if the name
-is taken: an interrupted run leaves no half snapshot under a final name, and two runs of the same
-cycle that start together still get distinct, consecutive attempt numbers.
+is written to ``<archive>/.incoming/`` first and then hard-linked to its final name, which
+fails if the name is taken: an interrupted run leaves no half snapshot under a final name, and
+two runs of the same cycle that start together still get distinct, consecutive attempt numbers.
 """
 
 from __future__ import annotations

@@ -34,8 +34,8 @@ def direct(earlier: pd.DataFrame, actuals: pd.DataFrame, periods: list[str],
         j = j[mask(j)]
     y = j["units_sold"].to_numpy()
     e = y - j["units"].to_numpy()
-    return {"bias_pct": 100 * e.sum() / np.abs(y).sum(), "wape": 100 * np.abs(e).sum() / np.abs(y).sum(),
-            "n": len(j)}
+    scale = np.abs(y).sum()
+    return {"bias_pct": 100 * e.sum() / scale, "wape": 100 * np.abs(e).sum() / scale, "n": len(j)}
 
 
 def test_clean_project_passes_with_exact_numbers(make_project: Callable[..., Project]) -> None:
