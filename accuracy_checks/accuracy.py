@@ -31,12 +31,7 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
             "no actuals yet" if not window
             else f"no earlier forecast targets the window {span}"
         )
-        return [
-            CheckResult(CHECK, "skipped", segment=ALL_SERIES, lag=lag, measure=m,
-                        unit=book.unit(m), reason="no_data", n_obs=0, n_series=0,
-                        message=f"Not measured: {reason} at lag {lag}.")
-            for lag in lags for m in measures
-        ]
+        return [_no_data(ALL_SERIES, lag, m, book, reason) for lag in lags for m in measures]
     stats = _stats_with_all(frame, keys)
     values = {m: get_measure(m).from_stats(stats) for m in measures}
     out: list[CheckResult] = []
@@ -73,7 +68,25 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
                 reason=None if defined else (row["reason"] or "no_data"),
                 **common)  # type: ignore[arg-type]
             out.append(_with_message(result, measure.label, span))
+    # every segment seen gets a result at every lag, even where that lag has no rows
+    segments = sorted(set(stats.index.get_level_values(F.SEGMENT)), key=str)
+    have = set(stats.index)
+    for lag in lags:
+        for segment in segments:
+            if (lag, segment) not in have:
+                out += [_no_data(str(segment), lag, m, book,
+                                 f"no earlier forecast at lag {lag} targets {span}")
+                        for m in measures]
     return out
+
+
+def _no_data(segment: str, lag: int, measure: str, book: ThresholdBook,
+             reason: str) -> CheckResult:
+    level = book.level(measure, segment)
+    return CheckResult(CHECK, "skipped", segment=segment, lag=lag, measure=measure,
+                       unit=book.unit(measure), reason="no_data", n_obs=0, n_series=0,
+                       warn=level.warn if level else None, fail=level.fail if level else None,
+                       message=f"{get_measure(measure).label} not measured: {reason}.")
 
 
 def _stats_with_all(frame: pd.DataFrame, keys: list[str]) -> pd.DataFrame:

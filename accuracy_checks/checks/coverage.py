@@ -129,11 +129,14 @@ def _identify(forecast: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) ->
     f_ids, a_ids = ids[:n_f], ids[n_f:]
     in_forecast = np.bincount(f_ids, minlength=n) > 0
     in_actuals = np.bincount(a_ids, minlength=n) > 0
-    seg_values = pd.concat([_segment_column(forecast), _segment_column(actuals)], ignore_index=True)
-    seg_codes, seg_names = pd.factorize(seg_values.array, use_na_sentinel=False)
+    f_seg, f_names = _segment_codes(forecast)
+    a_seg, a_names = _segment_codes(actuals)
+    names = list(dict.fromkeys([*f_names, *a_names]))
+    position = {name: i for i, name in enumerate(names)}
     segment = np.zeros(n, dtype=np.int64)
-    segment[a_ids] = seg_codes[n_f:]
-    segment[f_ids] = seg_codes[:n_f]  # the forecast's segment wins
+    segment[a_ids] = np.array([position[x] for x in a_names], dtype=np.int64)[a_seg]
+    # the forecast's segment wins
+    segment[f_ids] = np.array([position[x] for x in f_names], dtype=np.int64)[f_seg]
     return _Series(
         n=n,
         f_ids=f_ids,
@@ -141,14 +144,20 @@ def _identify(forecast: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) ->
         in_forecast=in_forecast,
         in_actuals=in_actuals,
         segment=segment,
-        segment_names=[str(s) for s in seg_names],
+        segment_names=names,
     )
 
 
-def _segment_column(frame: pd.DataFrame) -> pd.Series:
+def _segment_codes(frame: pd.DataFrame) -> tuple[np.ndarray, list[str]]:
+    """Segment code per row and the segment names (missing → ``"unassigned"``)."""
     if SEGMENT not in frame.columns:
-        return pd.Series(ALL_SERIES, index=frame.index, dtype="str")
-    return frame[SEGMENT].astype("str").fillna(UNASSIGNED)
+        return np.zeros(len(frame), dtype=np.int64), [ALL_SERIES]
+    codes, uniques = pd.factorize(frame[SEGMENT].array)  # missing → -1
+    names = [str(u) for u in uniques]
+    if (codes < 0).any():
+        codes = np.where(codes < 0, len(names), codes)
+        names.append(UNASSIGNED)
+    return codes, names
 
 
 def _first_rows(ids: np.ndarray, wanted: np.ndarray) -> np.ndarray:
@@ -555,7 +564,9 @@ def _horizon(
         n_gaps = int((gaps & in_seg).sum())
         n_extra = int(((steps.extra > 0) & in_seg).sum())
         n_off = int(((steps.off_grid > 0) & in_seg).sum())
-        details = {
+        rows_beyond = int(steps.extra[in_seg].sum())
+        off_grid_rows = int(steps.off_grid[in_seg].sum())
+        details: dict[str, Any] = {
             "first_period": first,
             "horizon": horizon,
             "frequency": frequency,
@@ -564,8 +575,8 @@ def _horizon(
             "with_rows_beyond": n_extra,
             "with_off_grid_rows": n_off,
             "missing_steps": int(n_gap_steps[in_seg].sum()),
-            "rows_beyond": int(steps.extra[in_seg].sum()),
-            "off_grid_rows": int(steps.off_grid[in_seg].sum()),
+            "rows_beyond": rows_beyond,
+            "off_grid_rows": off_grid_rows,
         }
         examples: list[dict[str, Any]] = []
         if n_bad:
@@ -608,7 +619,7 @@ def _horizon(
                 value=n_bad,
                 unit="count",
                 n_series=n_bad,
-                n_obs=details["rows_beyond"] + details["off_grid_rows"],
+                n_obs=rows_beyond + off_grid_rows,
                 message=message,
                 examples=examples,
                 details=details,

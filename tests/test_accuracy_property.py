@@ -1,0 +1,81 @@
+"""Property: every segment's (and "*"'s) accuracy results equal a direct numpy computation of
+the METRICS.md formulas on the same rows, for random evaluation frames."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+
+from accuracy_checks.accuracy import accuracy_results
+from accuracy_checks.config import parse_config
+from accuracy_checks.measures import CORE_MEASURES
+from accuracy_checks.thresholds import ThresholdBook
+
+CONFIG = parse_config(
+    "version: 1\n"
+    "forecast: {path: f.csv, keys: [sku], period: p, value: v, issued: i}\n"
+    "actuals: {path: a.csv, period: p, value: v}\n"
+    "frequency: D\nhorizon: 3\nevaluation: {lags: [1, 2]}\n",
+    source=Path("/x/c.yaml"),
+)
+
+
+def direct(y: np.ndarray, f: np.ndarray) -> dict[str, float | None]:
+    """METRICS.md entries 1–8 written out with numpy (NaN rows dropped first)."""
+    keep = ~(np.isnan(y) | np.isnan(f))
+    y, f = y[keep], f[keep]
+    e = y - f
+    n = len(e)
+    if n == 0:
+        return dict.fromkeys(CORE_MEASURES)
+    sy = np.abs(y).sum()
+    return {
+        "me": e.mean(),
+        "bias_pct": 100 * e.sum() / sy if sy else None,
+        "mae": np.abs(e).mean(),
+        "mape": 100 * np.mean(np.abs(e) / np.abs(y)) if (y != 0).all() else None,
+        "wape": 100 * np.abs(e).sum() / sy if sy else None,
+        "rmse": np.sqrt(np.mean(e**2)),
+        "sde": np.std(e, ddof=1) if n >= 2 else None,
+    }
+
+
+values = st.one_of(st.just(0.0), st.floats(-1e4, 1e4, allow_nan=False), st.just(np.nan))
+
+
+@settings(max_examples=40, deadline=None)
+@given(data=st.data(), n=st.integers(1, 40), n_seg=st.integers(1, 3))
+def test_segment_measures_equal_numpy(data: st.DataObject, n: int, n_seg: int) -> None:
+    y = np.array(data.draw(st.lists(values, min_size=n, max_size=n)))
+    f = np.array(data.draw(st.lists(values, min_size=n, max_size=n)))
+    seg = np.array(data.draw(st.lists(st.sampled_from(["a", "b", "c"][:n_seg]),
+                                      min_size=n, max_size=n)))
+    lag = np.array(data.draw(st.lists(st.sampled_from([1, 2]), min_size=n, max_size=n)))
+    frame = pd.DataFrame({"sku": [f"s{i % 7}" for i in range(n)], "segment": seg, "lag": lag,
+                          "forecast": f, "actual": y})
+    results = accuracy_results(frame, keys=["sku"], book=ThresholdBook(CONFIG),
+                               measures=CORE_MEASURES, lags=[1, 2], min_obs=1,
+                               window=[pd.Timestamp("2026-01-01")])
+    # every segment seen (and "*") at every configured lag, with or without rows there
+    groups = [(s, lg) for s in [*sorted(set(seg)), "*"] for lg in (1, 2)]
+    seen = 0
+    for s, lg in groups:
+        rows = (frame["lag"] == lg) & ((frame["segment"] == s) if s != "*" else True)
+        want = direct(y[rows.to_numpy()], f[rows.to_numpy()])
+        n_used = int((~(np.isnan(y) | np.isnan(f)))[rows.to_numpy()].sum())
+        for m in CORE_MEASURES:
+            (got,) = [r for r in results if r.segment == s and r.lag == lg and r.measure == m]
+            seen += 1
+            assert got.n_obs == n_used
+            if n_used < 1:
+                assert got.status == "skipped"
+            elif want[m] is None:
+                assert got.value is None and got.reason
+            else:
+                assert got.value == pytest.approx(want[m], rel=1e-9, abs=1e-9)
+    assert seen == len(results)
