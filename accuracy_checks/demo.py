@@ -537,40 +537,49 @@ def _prepare_folder(out_dir: Path) -> None:
 
 
 def _finding(result: CheckResult) -> str:
-    if result.message:
-        return result.message
-    where = " ".join(
-        part
-        for part in (
-            result.check,
-            f"segment {result.segment}" if result.segment else "",
-            f"lag {result.lag}" if result.lag is not None else "",
-            f"{result.measure} = {result.value:.3g}" if result.value is not None else "",
-        )
-        if part
-    )
-    return f"{result.status}: {where}"
+    """The result's message, led by its segment when the message does not name it."""
+    text = result.message
+    if not text:
+        parts = [result.check]
+        if result.lag is not None:
+            parts.append(f"lag {result.lag}")
+        if result.measure:
+            value = "undefined" if result.value is None else f"{result.value:.3g}"
+            parts.append(f"{result.measure} = {value}")
+        text = f"{result.status}: {', '.join(parts)}"
+    segment = result.segment
+    if segment and segment not in text:
+        text = f"{'all series' if segment == '*' else segment}: {text}"
+    return text
 
 
 _RANK = {"fail": 0, "error": 0, "warn": 1}
 
 
 def top_findings(report: RunReport, n: int = 3) -> list[str]:
-    """The ``n`` most important findings of a run: failures and errors, then warnings.
+    """The ``n`` most important findings of a run, in plain words (each result's message).
 
-    Within a status, whole-store and coverage problems come before accuracy figures, then
-    the all-series segment ``"*"`` before single segments, then lower lags.
+    Failures and errors come before warnings. Within a status, different kinds of finding
+    (check and measure) come before a second finding of the same kind, the all-series segment
+    ``"*"`` before single segments, and lower lags first: so a store missing from every
+    segment shows once, next to a biased segment, rather than six times.
     """
     bad = [r for r in report.results if r.status in _RANK]
     bad.sort(
         key=lambda r: (
             _RANK[r.status],
-            0 if r.check.startswith("coverage") or r.measure == "missing_series_pct" else 1,
-            r.lag if r.lag is not None else 0,
             0 if r.segment == "*" else 1,
+            r.lag if r.lag is not None else 0,
         )
     )
-    return [_finding(r) for r in bad[:n]]
+    seen: set[tuple[str, str | None]] = set()
+    first, repeats = [], []
+    for r in bad:
+        kind = (r.check, r.measure)
+        (repeats if kind in seen else first).append(r)
+        seen.add(kind)
+    ordered = sorted(first, key=lambda r: _RANK[r.status]) + repeats
+    return [_finding(r) for r in ordered[:n]]
 
 
 def _count_line(report: RunReport) -> str:
@@ -680,7 +689,7 @@ def _cycle_block(k: int, cycles: int, day: dt.date, report: RunReport) -> str:
     if findings:
         lines += [f"  - {f}" for f in findings]
     else:
-        lines.append("  - every check passed")
+        lines.append("  - no warnings or failures")
     return "\n".join(lines) + "\n"
 
 

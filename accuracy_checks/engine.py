@@ -12,6 +12,7 @@ from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
+from typing import TypeVar
 
 import pandas as pd
 
@@ -28,6 +29,7 @@ from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.thresholds import ThresholdBook
 
 Progress = Callable[[str], None]
+T = TypeVar("T")
 
 
 @dataclass
@@ -52,7 +54,7 @@ class _Stage:
     def __init__(self, progress: Progress) -> None:
         self.progress = progress
 
-    def __call__(self, text: str, fn: Callable[[], object]) -> object:
+    def __call__(self, text: str, fn: Callable[[], T]) -> T:
         t0 = time.perf_counter()
         self.progress(f"{text} …")
         out = fn()
@@ -193,12 +195,12 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
     results: list[CheckResult] = []
     results += stage("output checks", lambda: output_checks(
         inputs.forecast, keys=keys, quantile_columns=qcols,
-        allow_negative=allow if isinstance(allow, bool) else set(allow)))  # type: ignore[operator]
+        allow_negative=allow if isinstance(allow, bool) else set(allow)))
     results += stage("coverage checks", lambda: coverage_checks(
         inputs.forecast, inputs.actuals, keys=keys, frequency=config.frequency,
         horizon=config.horizon, active_periods=config.coverage.active_periods, book=book,
         known_series=inputs.mapping, previous=inputs.previous,
-        previous_label=inputs.previous_label))  # type: ignore[operator]
+        previous_label=inputs.previous_label))
 
     def accuracy() -> list[CheckResult]:
         ev = evaluation_frame(inputs.earlier, inputs.actuals, keys=keys,
@@ -212,7 +214,7 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
                    if r.segment == ALL_SERIES else r for r in out]
         return out
 
-    results += stage("accuracy", accuracy)  # type: ignore[operator]
+    results += stage("accuracy", accuracy)
     results += unmatched_thresholds(config, inputs)
     return results
 

@@ -45,7 +45,9 @@ def direct(y: np.ndarray, f: np.ndarray) -> dict[str, float | None]:
     }
 
 
-values = st.one_of(st.just(0.0), st.floats(-1e4, 1e4, allow_nan=False), st.just(np.nan))
+# demand-like values in hundredths (no subnormals: a 1e-308 denominator overflows numpy itself)
+values = st.one_of(st.just(0.0), st.integers(-10**6, 10**6).map(lambda i: i / 100),
+                   st.just(np.nan))
 
 
 @settings(max_examples=40, deadline=None)

@@ -218,7 +218,24 @@ def test_two_issue_dates_listed_with_row_counts() -> None:
         {"issued": "2026-02-20", "rows": 3},
         {"issued": "2026-02-27", "rows": 6},
     ]
-    assert "2 issue dates" in r.message
+    assert r.message.startswith("The rows carry 2 different issue dates")
+    assert r.message.endswith("drop the 3 rows not issued on 2026-02-27")
+
+
+def test_no_issue_date_at_all() -> None:
+    f = frame().assign(issued=pd.NaT)
+    r = run(f)[ISSUE_DATES]
+    assert (r.status, r.n_obs) == ("fail", 9)
+    assert r.message.startswith("No row has an issue date")
+
+
+def test_issue_date_examples_are_capped() -> None:
+    f = frame({(f"S{i}", "P1"): "*" for i in range(8)}, periods=1)
+    f["issued"] = pd.date_range("2026-02-01", periods=8, freq="D")
+    r = run(f, max_examples=3)[ISSUE_DATES]
+    assert r.n_obs == 7 and len(r.examples) == 3
+    assert r.details["issue_dates"] == 8 and r.details["latest"] == "2026-02-08"
+    assert "; and 3 more)" in r.message
 
 
 def test_missing_issue_date_offends() -> None:

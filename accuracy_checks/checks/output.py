@@ -646,27 +646,41 @@ def _crossing(
 def _issue_dates(
     frame: pd.DataFrame, mask: np.ndarray, keys: list[str], max_examples: int
 ) -> CheckResult:
-    counts = frame[ISSUED].value_counts(dropna=False, sort=False)
-    order = np.argsort(counts.index.to_numpy(), kind="stable")  # NaT sorts last
+    # distinct issue dates in date order, a missing date last
+    counts = frame[ISSUED].value_counts(dropna=False, sort=False).sort_index(na_position="last")
+    n_dates = len(counts)
+    dated = counts.index.notna()
+    latest = json_value(counts.index[dated].max()) if dated.any() else None
+    shown_dates = counts.iloc[: max(max_examples, 5)]
     listed = [
         {ISSUED: json_value(day), "rows": int(n)}
-        for day, n in zip(counts.index[order], counts.to_numpy()[order], strict=True)
+        for day, n in zip(shown_dates.index, shown_dates.to_numpy(), strict=True)
     ]
-    shown = "; ".join(f"{d[ISSUED] or 'no date'}: {plural(d['rows'], 'row')}" for d in listed[:5])
-    more = f"; and {len(listed) - 5:,} more" if len(listed) > 5 else ""
-    latest = listed[-1][ISSUED] if listed and listed[-1][ISSUED] is not None else None
-    if listed and latest is None and len(listed) > 1:
-        latest = listed[-2][ISSUED]
+    n_bad = int(np.count_nonzero(mask))
+    if latest is None:
+        fail_message = (
+            f"No row has an issue date ({plural(len(frame), 'row')}); every row must carry the "
+            "issue date of its cycle"
+        )
+    else:
+        shown = "; ".join(
+            f"{d[ISSUED] or 'no date'}: {plural(d['rows'], 'row')}" for d in listed[:5]
+        )
+        more = f"; and {n_dates - 5:,} more" if n_dates > 5 else ""
+        fail_message = (
+            f"The rows carry {n_dates:,} different issue dates ({shown}{more}); a forecast file "
+            f"must hold one cycle, so split it by issue date or drop the {n_bad:,} rows not "
+            f"issued on {latest}"
+        )
     return _result(
         ISSUE_DATES,
         frame,
         keys,
         mask,
-        f"The file holds {len(listed):,} issue dates ({shown}{more}); a forecast file must "
-        f"hold one cycle, so split it by issue date or drop the rows issued before {latest}",
+        fail_message,
         "Every row has the same issue date (one cycle)."
-        if listed
+        if n_dates
         else "The file has no rows, so no issue dates to compare.",
         listed[:max_examples],
-        {"issue_dates": len(listed)},
+        {"issue_dates": n_dates, "latest": latest},
     )
