@@ -596,8 +596,9 @@ def _intro(out_dir: Path, cycles: int) -> str:
     segments = ", ".join(s.name for s in SEGMENTS)
     return (
         "accuracy-checks demo: invented data, no real company, store or person.\n"
-        f"It writes a fictional chain of {N_STORES} garden centres to {out_dir}: weekly unit\n"
-        f"sales of about 300 products in {len(SEGMENTS)} segments ({segments}),\n"
+        f"It writes a fictional chain of {N_STORES} garden centres to {out_dir}:\n"
+        f"weekly unit sales of about 300 products in {len(SEGMENTS)} segments\n"
+        f"({segments}),\n"
         f"{EARLIER_CYCLES} earlier forecast cycles and {cycles} new weekly cycles of "
         f"{HORIZON}-week forecasts.\n"
         "Then it runs the gate once per cycle, in issue order, as a weekly job would. Each run\n"

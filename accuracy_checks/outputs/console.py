@@ -3,10 +3,11 @@
 Layout, failures first (:func:`~accuracy_checks.results.sort_for_display`):
 
 1. a compact table of the results that need attention (fail, error, warn, waived): status
-   word, check, segment, lag, measure, value in words, thresholds, message — with
-   ``verbose=True`` the passing and skipped results are listed too;
+   word, check, segment, lag, measure, value in words, thresholds — with ``verbose=True``
+   the passing and skipped results are listed too;
 2. a line counting what is not listed (passes, and skips with their reasons);
-3. the first 3 examples (offending rows) under each failure and error;
+3. the findings of the non-accuracy checks that need attention, each as its sentence with the
+   first 3 examples (offending rows) under it (accuracy rows say all in the table);
 4. the one-line headline (verdict, counts, cycle).
 
 The status is always a word (FAIL, WARN…), colour only adds to it. Text from the data
@@ -96,7 +97,6 @@ def _results_table(results: list[CheckResult], ascii_box: bool) -> Table:
     table.add_column("measure", no_wrap=True)
     table.add_column("value", overflow="fold")
     table.add_column("thresholds", overflow="fold")
-    table.add_column("message", overflow="fold", min_width=20)
     for result in results:
         table.add_row(
             Text(status_word(result.status), style=_STYLES.get(result.status, "")),
@@ -105,8 +105,7 @@ def _results_table(results: list[CheckResult], ascii_box: bool) -> Table:
             _cell(result.lag),
             _cell(result.measure),
             _cell(describe_value(result)),
-            _cell("\n".join(threshold_parts(result)) or "none"),
-            _cell(result.message),
+            _cell(", ".join(threshold_parts(result)) or "none"),
         )
     return table
 
@@ -160,15 +159,16 @@ def _print_report(console: Console, report: RunReport, *, verbose: bool) -> None
     elif rest:
         console.print(Text(f"{rest}."))
 
-    with_examples = [r for r in ordered if r.status in ("fail", "error") and r.examples]
-    for result in with_examples:
+    findings = [r for r in ordered if r.status in _ATTENTION and r.check != "accuracy"]
+    for result in findings:
         console.print()
         title = Text()
         title.append(status_word(result.status), style=_STYLES[result.status])
-        title.append(f" {result_label(result)} — examples:")
+        title.append(f" {result_label(result)}: {result.message}")
         console.print(title)
-        for line in _example_lines(result):
-            console.print(line)
+        if result.status in ("fail", "error"):
+            for line in _example_lines(result):
+                console.print(line)
 
     console.print()
     console.print(Text(headline(report), style=_STYLES.get(report.status, "") or "bold"))
