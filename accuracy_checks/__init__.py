@@ -32,15 +32,18 @@ __all__ = [
     "RunReport",
     "UsageError",
     "__version__",
+    "evaluation_frame",
     "load_config",
     "run_checks",
 ]
 
 if TYPE_CHECKING:
+    from accuracy_checks.api import evaluation_frame
     from accuracy_checks.config import load_config
     from accuracy_checks.engine import run_checks
 
-_LAZY = {"load_config": "accuracy_checks.config", "run_checks": "accuracy_checks.engine"}
+_LAZY = {"load_config": "accuracy_checks.config", "run_checks": "accuracy_checks.engine",
+         "evaluation_frame": "accuracy_checks.api"}
 
 
 def __getattr__(name: str) -> Any:

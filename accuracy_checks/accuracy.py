@@ -1,123 +1,506 @@
 """Accuracy results: every measure, per lag, per segment and for all series (segment ``"*"``).
 
-Measures are pooled over a segment's rows (METRICS.md) from grouped sufficient statistics; the
-``"*"`` figures merge the segments' statistics. A (lag, segment) with fewer than ``min_obs``
-rows that have both a forecast and an actual is ``skipped`` with the reason.
+For each configured lag, every requested measure is computed per segment and for all series
+together (``"*"``) from the evaluation rows of its window (:mod:`accuracy_checks.evaluation`),
+through the one registry (:mod:`accuracy_checks.measures.registry`), then judged against the
+thresholds. Core measures are pooled from grouped sufficient statistics; the other families
+reduce the rows per group or per series within a group (:class:`~accuracy_checks.measures.
+data.MeasureData`), all vectorised.
+
+Rules:
+
+- a (lag, segment) with no usable row is ``skipped`` (``no_data``); with fewer than
+  ``min_obs`` rows that have both a forecast and an actual it is ``skipped``
+  (``too_few_rows``); a measure the config cannot feed (no quantiles, no costs, no actuals
+  history) is ``skipped`` (``not_configured``);
+- a measure may turn the configured levels into the bounds that judge one value (the
+  tracking signal's √n-scaled limit, coverage's distance from the nominal level) and veto a
+  breach that chance explains (coverage's binomial test);
+- every breached (warn/fail) result lists its worst offenders as ``examples``: the series
+  contributing most to the segment's absolute error, or to its bias for bias-type measures
+  (:mod:`accuracy_checks.offenders`);
+- a plugin measure that raises gives its results the status ``error`` with the plugin's
+  message; everything else still runs.
 """
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+import math
+from collections.abc import Mapping, Sequence
+from dataclasses import dataclass, field
+from functools import partial
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from accuracy_checks import frames as F
-from accuracy_checks.measures import error_stats, get_measure, total_stats
-from accuracy_checks.outputs.wording import describe_value
-from accuracy_checks.results import ALL_SERIES, CheckResult
-from accuracy_checks.thresholds import ThresholdBook
+from accuracy_checks.baselines import (
+    ActualsIndex,
+    default_seasonal_period,
+    known_through,
+    naive_forecast,
+    seasonal_naive_forecast,
+)
+from accuracy_checks.config import Config
+from accuracy_checks.evaluation import IN_TRACKING, IN_WINDOW, SERIES
+from accuracy_checks.measures.data import (
+    SCALE_OK,
+    SCALE_TOO_FEW_ROWS,
+    SCALE_ZERO,
+    CostTable,
+    MeasureData,
+    MeasureSettings,
+    dense_codes,
+)
+from accuracy_checks.measures.registry import (
+    CORE_MEASURES,
+    Measure,
+    get_measure,
+    registered_measures,
+)
+from accuracy_checks.offenders import worst_offenders
+from accuracy_checks.outputs.wording import describe_value, format_number
+from accuracy_checks.results import ALL_SERIES, CheckResult, Status
+from accuracy_checks.thresholds import ThresholdBook, breaks
 
 CHECK = "accuracy"
+
+_NEEDS_TEXT = {
+    "history": "the actuals history (to scale errors or build the naive baselines)",
+    "quantiles": "quantile forecasts (forecast.quantiles)",
+    "intervals": "a central interval: two quantile levels τ and 1 − τ in forecast.quantiles "
+                 "(e.g. 0.1 and 0.9)",
+    "costs": "unit costs (the costs section of the config)",
+}
+#: columns of a measure's frame that are not details
+_NOT_DETAILS = frozenset({"value", "reason", "group", "variant", "n_obs", "unit"})
 
 
 def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBook,
                      measures: Sequence[str], lags: Sequence[int], min_obs: int,
-                     window: Sequence[pd.Timestamp]) -> list[CheckResult]:
-    """Judge every measure for every (lag, segment) of the evaluation frame."""
+                     window: Sequence[pd.Timestamp],
+                     settings: MeasureSettings | None = None,
+                     history: ActualsIndex | None = None,
+                     tracking: Sequence[pd.Timestamp] | None = None,
+                     frequency: str | None = None,
+                     offenders: int = 10) -> list[CheckResult]:
+    """Judge every measure for every (lag, segment) of the evaluation frame.
+
+    ``frame`` is :func:`~accuracy_checks.evaluation.evaluation_frame`'s frame (rows without
+    the ``__in_window``/``__in_tracking`` flags count in both windows); ``history`` the
+    actuals index it was joined with (needed by MASE, MSIS and FVA), ``frequency`` the period
+    grid (needed with ``history``), ``tracking`` the tracking window's periods, ``offenders``
+    the number of worst-offender series listed for each breached result.
+    """
+    settings = settings or MeasureSettings()
     span = _span(window)
+    defs = [get_measure(m) for m in measures]
     if len(frame) == 0:
         reason = (
             "no actuals yet" if not window
             else f"no earlier forecast targets the window {span}"
         )
-        return [_no_data(ALL_SERIES, lag, m, book, reason) for lag in lags for m in measures]
-    stats = _stats_with_all(frame, keys)
-    values = {m: get_measure(m).from_stats(stats) for m in measures}
+        return [_no_data(ALL_SERIES, lag, m.id, book, reason) for lag in lags for m in defs]
+    job = _Job(frame, keys, settings, history, frequency)
     out: list[CheckResult] = []
-    for i, (lag, segment) in enumerate(stats.index):
-        n = int(stats["n"].iat[i])
-        n_series = int(stats["n_series"].iat[i])
-        base_details = {
-            "window": span,
-            "n_dropped": int(stats["n_dropped"].iat[i]),
-            "n_negative_actuals": int(stats["n_negative_y"].iat[i]),
-        }
-        for m in measures:
-            measure = get_measure(m)
-            row = values[m].iloc[i]
-            extra = {k: _plain(v) for k, v in row.items() if k not in ("value", "reason")}
-            details = {**base_details, **extra}
-            common = dict(segment=str(segment), lag=int(lag), measure=m, unit=measure.unit,
-                          n_obs=n, n_series=n_series, details=details)
-            if n < min_obs:
-                level = book.level(m, str(segment))
-                out.append(CheckResult(
-                    CHECK, "skipped", reason="too_few_rows",
-                    warn=level.warn if level else None, fail=level.fail if level else None,
-                    message=(f"{measure.label} not judged: only {n} forecast(s) with an actual "
-                             f"at lag {lag} in {span} (min_obs is {min_obs})."),
-                    **common))  # type: ignore[arg-type]
+    for measure in defs:
+        missing = _unmet_needs(measure, settings, history)
+        windows = {"evaluation": window, "tracking": tracking if tracking else window}
+        measure_span = _span(windows[measure.window])
+        for grouping in job.groupings:
+            data = job.data(measure.window, grouping)
+            if missing:
+                out += _not_configured(measure, data, missing, book)
                 continue
-            value = float(row["value"])
-            defined = np.isfinite(value)
-            judged = book.judge(m, str(segment), value if defined else None)
-            result = CheckResult(
-                CHECK, judged.status, value=value if defined else None,
-                warn=judged.warn, fail=judged.fail,
-                reason=None if defined else (row["reason"] or "no_data"),
-                **common)  # type: ignore[arg-type]
-            out.append(_with_message(result, measure.label, span))
+            try:
+                values = _checked(measure, measure.evaluate(data), data)
+            except Exception as exc:
+                if measure.origin == "built-in":
+                    raise
+                out += _plugin_error(measure, data, exc)
+                continue
+            out += _judged(measure, values, data, job, book, min_obs, measure_span, offenders,
+                           keys)
     # every segment seen gets a result at every lag, even where that lag has no rows
-    segments = sorted(set(stats.index.get_level_values(F.SEGMENT)), key=str)
-    have = set(stats.index)
+    segments = job.segment_names + ([ALL_SERIES] if "all" in job.groupings else [])
+    have = {(int(lag), str(seg)) for grouping in job.groupings for lag, seg in
+            job.groups_of(grouping)[[F.LAG, F.SEGMENT]].itertuples(index=False)}
     for lag in lags:
         for segment in segments:
             if (lag, segment) not in have:
-                out += [_no_data(str(segment), lag, m, book,
+                out += [_no_data(segment, lag, m.id, book,
                                  f"no earlier forecast at lag {lag} targets {span}")
-                        for m in measures]
+                        for m in defs]
     return out
+
+
+# --------------------------------------------------------------------------- preparation
+
+
+class _Job:
+    """The shared preparation of one frame: group and series codes, scales, baselines."""
+
+    def __init__(self, frame: pd.DataFrame, keys: list[str], settings: MeasureSettings,
+                 history: ActualsIndex | None, frequency: str | None) -> None:
+        frame = frame.reset_index(drop=True)
+        lag_codes, lag_values = pd.factorize(frame[F.LAG], sort=True)
+        seg_codes, seg_values = pd.factorize(frame[F.SEGMENT], sort=True)
+        keep = (lag_codes >= 0) & (seg_codes >= 0)
+        if not keep.all():  # rows with a missing lag or segment belong to no group
+            frame = frame.loc[keep].reset_index(drop=True)
+            lag_codes, seg_codes = lag_codes[keep], seg_codes[keep]
+        self.frame = frame
+        self.keys = keys
+        self.settings = settings
+        self.history = history
+        self.frequency = frequency
+        n_seg = max(len(seg_values), 1)
+        fine = lag_codes.astype(np.int64) * n_seg + seg_codes
+        fine_codes, fine_values = dense_codes(fine, max(len(lag_values), 1) * n_seg)
+        lag_list = np.asarray(lag_values).astype(np.int64)
+        seg_list = np.asarray([str(s) for s in seg_values], dtype=object)
+        self._codes: dict[str, np.ndarray] = {"segment": fine_codes}
+        self._groups: dict[str, pd.DataFrame] = {
+            "segment": pd.DataFrame({F.LAG: lag_list[fine_values // n_seg],
+                                     F.SEGMENT: seg_list[fine_values % n_seg]}),
+        }
+        self.segment_names = sorted({str(s) for s in seg_list}, key=str)
+        self.groupings = ["segment"]
+        if set(self.segment_names) != {ALL_SERIES}:
+            self._codes["all"] = lag_codes.astype(np.int64)
+            self._groups["all"] = pd.DataFrame({
+                F.LAG: lag_list, F.SEGMENT: np.full(len(lag_list), ALL_SERIES, dtype=object)})
+            self.groupings.append("all")
+        self.series, self.n_series, self._n_known = self._series_codes()
+        self._masks = {
+            "evaluation": self._flag(IN_WINDOW),
+            "tracking": self._flag(IN_TRACKING) if IN_TRACKING in frame.columns
+            else self._flag(IN_WINDOW),
+        }
+        self._data: dict[tuple[str, str], MeasureData] = {}
+        self._rows: dict[str, pd.DataFrame] = {}
+        self._baselines: dict[tuple[str, str], np.ndarray] = {}
+        self._scale: tuple[np.ndarray, np.ndarray] | None = None
+        self._facts: dict[int, tuple[np.ndarray, ...]] = {}
+
+    def _flag(self, column: str) -> np.ndarray:
+        if column not in self.frame.columns:
+            return np.ones(len(self.frame), dtype=bool)
+        return self.frame[column].to_numpy(dtype=bool)
+
+    def _series_codes(self) -> tuple[np.ndarray, int, int]:
+        """Series code per row: the actuals index's code when known, else a code after them
+        (from the key columns), so every series has one."""
+        frame = self.frame
+        if SERIES in frame.columns and self.history is not None:
+            codes = frame[SERIES].to_numpy(dtype=np.int64)
+            known = self.history.n_series
+        else:
+            codes = np.full(len(frame), -1, dtype=np.int64)
+            known = 0
+        unknown = codes < 0
+        if unknown.any():
+            rest = frame.loc[unknown, self.keys]
+            local, _ = pd.factorize(
+                pd.MultiIndex.from_frame(rest.astype(object)) if len(self.keys) > 1
+                else rest[self.keys[0]]
+            )
+            codes[unknown] = known + local
+            return codes, known + int(local.max(initial=-1)) + 1, known
+        return codes, known, known
+
+    def facts(self, data: MeasureData) -> tuple[np.ndarray, ...]:
+        """Per group of ``data``: usable rows, dropped rows, negative actuals, series, lag and
+        segment (computed once per window and grouping)."""
+        key = id(data)
+        if key not in self._facts:
+            stats = data.stats
+            self._facts[key] = (
+                stats["n"].to_numpy(), stats["n_dropped"].to_numpy(),
+                stats["n_negative_y"].to_numpy(), data.series_per_group(data.units()),
+                data.groups[F.LAG].to_numpy(),
+                data.groups[F.SEGMENT].astype(str).to_numpy(dtype=object),
+            )
+        return self._facts[key]
+
+    def groups_of(self, grouping: str) -> pd.DataFrame:
+        return self._groups[grouping]
+
+    def rows(self, window: str) -> pd.DataFrame:
+        if window not in self._rows:
+            mask = self._masks[window]
+            self._rows[window] = (self.frame if mask.all()
+                                  else self.frame.loc[mask].reset_index(drop=True))
+        return self._rows[window]
+
+    def data(self, window: str, grouping: str) -> MeasureData:
+        key = (window, grouping)
+        if key not in self._data:
+            mask = self._masks[window]
+            every = mask.all()
+            scale, reason = self._scales() if self._scale_ready() else (None, None)
+            self._data[key] = MeasureData(
+                self.rows(window),
+                self._codes[grouping] if every else self._codes[grouping][mask],
+                self._groups[grouping],
+                self.series if every else self.series[mask],
+                self.n_series,
+                self.settings,
+                scale=scale,
+                scale_reason=reason,
+                baseline=partial(self._baseline, window) if self._history_ready() else None,
+            )
+        return self._data[key]
+
+    def _history_ready(self) -> bool:
+        return (self.history is not None and self.frequency is not None
+                and F.ISSUED in self.frame.columns and F.PERIOD in self.frame.columns)
+
+    def _scale_ready(self) -> bool:
+        return self._history_ready()
+
+    def _scales(self) -> tuple[np.ndarray, np.ndarray]:
+        """Per series code: MASE's scale from the actuals before the issue date of the
+        earliest cycle evaluated, and the reason code (one vectorised pass)."""
+        if self._scale is None:
+            assert self.history is not None and self.frequency is not None
+            rows = self.rows("evaluation")
+            y = rows[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
+            f = rows[F.FORECAST].to_numpy(dtype=np.float64, na_value=np.nan)
+            used = rows.loc[~(np.isnan(y) | np.isnan(f)), F.ISSUED]
+            scale = np.full(self.n_series, np.nan)
+            reason = np.full(self.n_series, SCALE_TOO_FEW_ROWS, dtype=np.int8)
+            if len(used):
+                earliest = pd.Series([used.min()])
+                before = int(known_through(earliest, self.frequency)[0]) + 1
+                known, pairs = self.history.scales(self.settings.seasonal_period, before)
+                scale[: known.size] = known
+                reason[: known.size] = np.where(
+                    pairs == 0, SCALE_TOO_FEW_ROWS, np.where(known > 0, SCALE_OK, SCALE_ZERO))
+            self._scale = (scale, reason)
+        return self._scale
+
+    def _baseline(self, window: str, kind: str) -> np.ndarray:
+        """The ``naive`` or ``seasonal_naive`` forecast of each row of ``window``."""
+        key = (window, kind)
+        if key not in self._baselines:
+            assert self.history is not None and self.frequency is not None
+            rows = self.rows(window)
+            mask = self._masks[window]
+            series = self.series if mask.all() else self.series[mask]
+            series = np.where(series < self._n_known, series, -1)
+            known = known_through(rows[F.ISSUED], self.frequency)
+            if kind == "naive":
+                values = naive_forecast(self.history, series, known)
+            elif kind == "seasonal_naive":
+                target = self.history.positions(rows[F.PERIOD])
+                values = seasonal_naive_forecast(self.history, series, target, known,
+                                                 self.settings.seasonal_period)
+            else:
+                raise ValueError(f"unknown baseline {kind!r}; use 'naive' or 'seasonal_naive'")
+            self._baselines[key] = values
+        return self._baselines[key]
+
+
+#: stands for "an actuals history will be there" when choosing the measures to report
+_FED_HISTORY: Any = object()
+
+
+def _unmet_needs(measure: Measure, settings: MeasureSettings,
+                 history: ActualsIndex | Any | None) -> list[str]:
+    have = {
+        "history": history is not None,
+        "quantiles": bool(settings.quantiles),
+        "intervals": bool(settings.intervals),
+        "costs": settings.costs is not None,
+    }
+    return [need for need in sorted(measure.needs) if not have.get(need, True)]
+
+
+def _checked(measure: Measure, values: Any, data: MeasureData) -> pd.DataFrame:
+    """The measure's frame with ``group`` and ``variant`` columns, or a ValueError saying
+    what is wrong with it."""
+    if not isinstance(values, pd.DataFrame):
+        raise ValueError(f"it returned a {type(values).__name__}, not a DataFrame")
+    if "value" not in values.columns:
+        raise ValueError(f"its frame has no 'value' column (columns: {list(values.columns)})")
+    if "group" not in values.columns:
+        if len(values) != data.n_groups:
+            raise ValueError(f"its frame has {len(values)} rows for {data.n_groups} groups")
+    else:
+        group = pd.to_numeric(values["group"], errors="coerce").to_numpy()
+        if not np.all((group >= 0) & (group < data.n_groups)):
+            raise ValueError(f"its 'group' column holds codes outside 0 … {data.n_groups - 1}")
+    return values
+
+
+# --------------------------------------------------------------------------- judging
+
+
+@dataclass
+class _Row:
+    """One figure of a measure for one (lag, segment[, variant]) before judging."""
+
+    group: int
+    lag: int
+    segment: str
+    variant: str | None
+    value: float | None
+    reason: str | None
+    n_obs: int
+    n_series: int
+    unit: str | None
+    details: dict[str, Any] = field(default_factory=dict)
+
+
+def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job,
+            book: ThresholdBook, min_obs: int, span: str, limit: int,
+            keys: list[str]) -> list[CheckResult]:
+    base_n, dropped, negative, series, lags, segments = job.facts(data)
+    extras = [c for c in values.columns if c not in _NOT_DETAILS]
+    columns = {c: values[c].to_numpy() for c in values.columns}
+    if "group" not in columns:  # one row per group, in group order
+        columns["group"] = np.arange(len(values))
+    records = [{c: a[i] for c, a in columns.items()} for i in range(len(values))]
+    out: list[CheckResult] = []
+    breached: dict[int, bool] = {}
+    pending: list[tuple[int, CheckResult]] = []
+    for rec in records:
+        g = int(rec["group"])
+        variant = rec.get("variant")
+        variant = str(variant) if isinstance(variant, str) and variant else None
+        value = _float(rec["value"])
+        n_obs = int(rec["n_obs"]) if "n_obs" in rec and _float(rec["n_obs"]) is not None \
+            else int(base_n[g])
+        details: dict[str, Any] = {"window": span, "n_dropped": int(dropped[g]),
+                                   "n_negative_actuals": int(negative[g])}
+        if variant is not None:
+            details["variant"] = variant
+        details.update({c: _plain(rec[c]) for c in extras})
+        reason = rec.get("reason")
+        row = _Row(g, int(lags[g]), str(segments[g]), variant,
+                   value, reason if isinstance(reason, str) else None,
+                   n_obs, int(series[g]), _unit(rec.get("unit"), measure), details)
+        result = _judge_row(measure, row, book, data.settings, min_obs, span)
+        if result.status in ("warn", "fail"):
+            breached[g] = measure.bias_type
+            pending.append((g, result))
+        else:
+            out.append(result)
+    if pending:
+        found = worst_offenders(data, keys, breached, limit)
+        for g, result in pending:
+            examples = found.get(g, [])
+            out.append(_with_offenders(result, examples, measure.bias_type))
+    return out
+
+
+def _judge_row(measure: Measure, row: _Row, book: ThresholdBook, settings: MeasureSettings,
+               min_obs: int, span: str) -> CheckResult:
+    level = book.level(measure.id, row.segment)
+    configured = (level.warn, level.fail) if level is not None else None
+    bounds = (measure.levels(configured, row.details, settings) if measure.levels is not None
+              else configured)
+    warn, fail = bounds if bounds is not None else (None, None)
+    label = measure.label + (f" ({row.variant})" if row.variant else "")
+    common: dict[str, Any] = dict(segment=row.segment, lag=row.lag, measure=measure.id,
+                                  unit=row.unit, n_obs=row.n_obs, n_series=row.n_series,
+                                  warn=warn, fail=fail, details=row.details)
+    if row.n_obs == 0:
+        return CheckResult(CHECK, "skipped", reason="no_data",
+                           message=f"{label} not measured: no forecast with an actual at lag "
+                                   f"{row.lag} in {span}.", **common)
+    if row.n_obs < min_obs:
+        return CheckResult(CHECK, "skipped", reason="too_few_rows",
+                           message=(f"{label} not judged: only {row.n_obs} forecast(s) with an "
+                                    f"actual at lag {row.lag} in {span} (min_obs is "
+                                    f"{min_obs})."), **common)
+    status: Status
+    note = ""
+    if row.value is None:
+        status = book.judge(measure.id, row.segment, None).status if bounds is not None \
+            else "skipped"
+    else:
+        direction = book.direction(measure.id)
+        if fail is not None and breaks(row.value, fail, direction):
+            status = "fail"
+        elif warn is not None and breaks(row.value, warn, direction):
+            status = "warn"
+        else:
+            status = "pass"
+        if status != "pass" and measure.breach_counts is not None and \
+                not measure.breach_counts(row.details, settings):
+            status = "pass"
+            note = " The gap may be chance (binomial test), so it is not held against it."
+    result = CheckResult(CHECK, status, value=row.value,
+                         reason=None if row.value is not None else (row.reason or "no_data"),
+                         **common)
+    return _with_message(result, label, span, measure.id, note)
+
+
+def _with_offenders(result: CheckResult, examples: list[dict[str, Any]],
+                    bias: bool) -> CheckResult:
+    if not examples:
+        return result
+    top = examples[0]
+    share = top.get("share_of_bias_pct" if bias else "share_of_abs_error_pct")
+    what = "bias" if bias else "absolute error"
+    who = _who(top)
+    text = (f"{result.message} Worst series: {who} "
+            f"({format_number(share) if share is not None else '?'} % of the {what}).")
+    return CheckResult(**{**result.__dict__, "examples": examples, "message": text})
+
+
+def _who(example: Mapping[str, Any]) -> str:
+    skip = {"lag", "segment", "n_obs", "error", "abs_error", "share_of_abs_error_pct",
+            "share_of_bias_pct"}
+    return ", ".join(f"{k}={v}" for k, v in example.items() if k not in skip)
+
+
+def _not_configured(measure: Measure, data: MeasureData, missing: list[str],
+                    book: ThresholdBook) -> list[CheckResult]:
+    need = "; ".join(_NEEDS_TEXT.get(n, n) for n in missing)
+    out = []
+    for g in range(data.n_groups):
+        lag, segment = int(data.groups[F.LAG].iat[g]), str(data.groups[F.SEGMENT].iat[g])
+        level = book.level(measure.id, segment)
+        out.append(CheckResult(
+            CHECK, "skipped", segment=segment, lag=lag, measure=measure.id,
+            unit=measure.unit or None, reason="not_configured", n_obs=0, n_series=0,
+            warn=level.warn if level else None, fail=level.fail if level else None,
+            message=f"{measure.label} not measured: it needs {need}."))
+    return out
+
+
+def _plugin_error(measure: Measure, data: MeasureData, exc: Exception) -> list[CheckResult]:
+    text = (f"{measure.label} could not be computed: the {measure.origin} raised "
+            f"{type(exc).__name__}: {exc}")
+    return [CheckResult(CHECK, "error", segment=str(data.groups[F.SEGMENT].iat[g]),
+                        lag=int(data.groups[F.LAG].iat[g]), measure=measure.id,
+                        unit=measure.unit or None, message=text,
+                        details={"origin": measure.origin, "error": type(exc).__name__})
+            for g in range(data.n_groups)]
 
 
 def _no_data(segment: str, lag: int, measure: str, book: ThresholdBook,
              reason: str) -> CheckResult:
     level = book.level(measure, segment)
     return CheckResult(CHECK, "skipped", segment=segment, lag=lag, measure=measure,
-                       unit=book.unit(measure), reason="no_data", n_obs=0, n_series=0,
+                       unit=book.unit(measure) or None, reason="no_data", n_obs=0, n_series=0,
                        warn=level.warn if level else None, fail=level.fail if level else None,
                        message=f"{get_measure(measure).label} not measured: {reason}.")
 
 
-def _stats_with_all(frame: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
-    """Statistics per (lag, segment), plus (lag, "*") when there is more than one segment."""
-    by = [F.LAG, F.SEGMENT]
-    stats = error_stats(frame, by)
-    series = _series_counts(frame, keys, by)
-    stats = stats.set_index(by) if not isinstance(stats.index, pd.MultiIndex) else stats
-    stats["n_series"] = series.reindex(stats.index, fill_value=0)
-    if set(frame[F.SEGMENT].unique()) != {ALL_SERIES}:
-        total = total_stats(stats.reset_index(), [F.LAG])
-        total = total.set_index(F.LAG) if F.LAG in total.columns else total
-        all_series = _series_counts(frame, keys, [F.LAG])
-        total["n_series"] = all_series.reindex(total.index, fill_value=0)
-        total.index = pd.MultiIndex.from_arrays(
-            [total.index, np.full(len(total), ALL_SERIES, dtype=object)], names=by
-        )
-        stats = pd.concat([stats, total[stats.columns]])
-    return stats.sort_index()
+# --------------------------------------------------------------------------- wording
 
 
-def _series_counts(frame: pd.DataFrame, keys: list[str], by: list[str]) -> pd.Series:
-    """Distinct series with at least one usable (forecast and actual present) row per group."""
-    usable = frame.loc[frame[F.ACTUAL].notna() & frame[F.FORECAST].notna(), [*by, *keys]]
-    return usable.drop_duplicates().groupby(by, observed=True, sort=True).size()
-
-
-def _with_message(result: CheckResult, label: str, span: str) -> CheckResult:
+def _with_message(result: CheckResult, label: str, span: str, measure: str,
+                  note: str) -> CheckResult:
     what = describe_value(result)
-    lead = f"{label} {what}" if not what.startswith(("under", "over", "no bias")) else (
-        f"{label}: {what}")
+    named = label.replace(" %", "") if result.value is not None else label  # "WAPE 23.4 %"
+    lead = f"{named} {what}" if not what.startswith(("under", "over", "no bias", "sustained")) \
+        else f"{named}: {what}"
     basis = (f"over {result.n_obs:,} forecasts of {result.n_series:,} series at lag "
              f"{result.lag} ({span})")
     if result.value is None:
@@ -132,13 +515,38 @@ def _with_message(result: CheckResult, label: str, span: str) -> CheckResult:
         text = f"{lead} {basis}, beyond the {result.status} level {_bound(level)}."
     else:
         text = f"{lead} {basis}."
-    return CheckResult(**{**result.__dict__, "message": text})
+    extra = _facts(measure, result)
+    return CheckResult(**{**result.__dict__, "message": text + extra + note})
+
+
+def _facts(measure: str, result: CheckResult) -> str:
+    """A sentence of the facts behind a value, per measure family."""
+    d = result.details
+    if measure == "tracking_signal" and d.get("window_periods"):
+        return f" Summed over {d['window_periods']} period(s)."
+    if measure in ("mase", "msis") and d.get("n_series_skipped"):
+        return (f" {d['n_series_skipped']} series skipped (too little history for "
+                f"m = {d.get('seasonal_period')}, or a zero scale).")
+    if measure == "interval_coverage" and d.get("p_value") is not None:
+        return (f" Nominal {format_number(d['nominal_pct'])} %; binomial p = "
+                f"{float(d['p_value']):.2g}.")
+    if measure.startswith("fva_") and d.get("wape_baseline") is not None:
+        return (f" Baseline WAPE {format_number(d['wape_baseline'])} % vs forecast "
+                f"{format_number(d['wape_forecast'])} %.")
+    if measure == "error_cost" and d.get("under_cost") is not None:
+        unit = result.unit or "money"
+        text = (f" Under-forecasting cost {format_number(d['under_cost'])} {unit}, "
+                f"over-forecasting {format_number(d['over_cost'])} {unit}")
+        if d.get("tau_star") is not None:
+            text += f"; cost-optimal quantile τ* = {format_number(d['tau_star'])}"
+        return text + "."
+    return ""
 
 
 def _bound(bound: object) -> str:
     if isinstance(bound, tuple):
-        return f"[{bound[0]:g}, {bound[1]:g}]"
-    return f"{bound:g}" if isinstance(bound, float | int) else str(bound)
+        return f"[{format_number(bound[0])}, {format_number(bound[1])}]"
+    return format_number(float(bound)) if isinstance(bound, float | int) else str(bound)
 
 
 def _span(window: Sequence[pd.Timestamp]) -> str:
@@ -150,9 +558,95 @@ def _span(window: Sequence[pd.Timestamp]) -> str:
     return f"periods {first:%Y-%m-%d} to {last:%Y-%m-%d}"
 
 
+def _unit(given: object, measure: Measure) -> str | None:
+    """The result's unit: the measure frame's own (a currency), else the measure's; ``""`` (a
+    unitless ratio) is reported as no unit."""
+    text = given if isinstance(given, str) and given else measure.unit
+    return text or None
+
+
+def _float(value: object) -> float | None:
+    if value is None:
+        return None
+    try:
+        number = float(value)  # type: ignore[arg-type]
+    except (TypeError, ValueError):
+        return None
+    return number if math.isfinite(number) else None
+
+
 def _plain(value: object) -> object:
     if isinstance(value, np.generic):
         value = value.item()
-    if isinstance(value, float) and not np.isfinite(value):
+    if isinstance(value, float) and not math.isfinite(value):
         return None
     return value
+
+
+# --------------------------------------------------------------------------- from the config
+
+
+def measure_settings(config: Config) -> MeasureSettings:
+    """The measure settings of a config (``evaluation`` and ``costs`` sections)."""
+    ev = config.evaluation
+    costs = None
+    if config.costs is not None:
+        c = config.costs
+        costs = CostTable(
+            currency=c.currency,
+            default=(c.default.under, c.default.over) if c.default is not None else None,
+            segments={name: (u.under, u.over) for name, u in c.segments.items()},
+        )
+    return MeasureSettings(
+        seasonal_period=ev.seasonal_period or default_seasonal_period(config.frequency),
+        tracking_window=ev.tracking_window,
+        tracking_limit=ev.tracking_limit,
+        trigg_alpha=ev.trigg_alpha,
+        quantiles=tuple(config.forecast.quantiles),
+        coverage_test_level=ev.coverage_test_level,
+        costs=costs,
+    )
+
+
+def measures_to_report(config: Config) -> list[str]:
+    """The core measures, every measure a threshold names, and those of
+    ``evaluation.measures`` (``all``: every registered measure the config can feed)."""
+    registry = registered_measures()
+    named = set(config.thresholds.default)
+    for levels in config.thresholds.segments.values():
+        named |= set(levels)
+    asked = set(config.evaluation.measures)
+    settings = measure_settings(config)
+    if "all" in asked:
+        fed = {m.id for m in registry.values()
+               if not _unmet_needs(m, settings, _FED_HISTORY)}
+        asked |= fed
+    extra = [m for m in registry if (m in named or m in asked) and m not in CORE_MEASURES]
+    return [*CORE_MEASURES, *extra]
+
+
+def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *,
+                 book: ThresholdBook) -> list[CheckResult]:
+    """The accuracy results of a run: evaluation frame → measures → judged results, plus a
+    warning for each rejected measure plugin."""
+    from accuracy_checks.evaluation import evaluation_frame
+    from accuracy_checks.plugins import rejected_plugins
+
+    keys = list(config.forecast.keys)
+    measures = measures_to_report(config)
+    tracking = any(get_measure(m).window == "tracking" for m in measures)
+    ev = evaluation_frame(earlier, actuals, keys=keys, frequency=config.frequency,
+                          lags=config.evaluation.lags, window=config.evaluation.window,
+                          tracking_window=config.evaluation.tracking_window if tracking else 0)
+    out = accuracy_results(ev.frame, keys=keys, book=book, measures=measures,
+                           lags=config.evaluation.lags, min_obs=config.evaluation.min_obs,
+                           window=ev.window, settings=measure_settings(config),
+                           history=ev.history, tracking=ev.tracking,
+                           frequency=config.frequency, offenders=config.evaluation.offenders)
+    if ev.cycles:
+        out = [CheckResult(**{**r.__dict__, "details": {**r.details, "cycles": ev.cycles}})
+               if r.segment == ALL_SERIES else r for r in out]
+    out += [CheckResult(f"{CHECK}.plugins", "warn", message=p.message,
+                        details={"entry_point": p.name, "value": p.value, "package": p.package})
+            for p in rejected_plugins()]
+    return out

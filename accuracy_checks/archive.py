@@ -1,10 +1,27 @@
 """The forecast archive: one Parquet snapshot of each checked forecast, by cycle and attempt.
 
 Layout: ``<archive>/cycle=<YYYY-MM-DD>/attempt-<NNNN>.parquet`` holding the canonical
-columns (keys, ``period``, ``issued``, ``forecast``, quantile columns, ``segment``). A snapshot
-is written to ``<archive>/.incoming/`` first and then hard-linked to its final name, which
-fails if the name is taken: an interrupted run leaves no half snapshot under a final name, and
-two runs of the same cycle that start together still get distinct, consecutive attempt numbers.
+columns (keys, ``period``, ``issued``, ``forecast``, quantile columns, ``segment``).
+
+**Attempt numbers come from the audit store**, which is the source of truth: a snapshot has
+the number of the run recorded with it. The protocol (see :meth:`Store.record_run
+<accuracy_checks.store.Store.record_run>`):
+
+1. before the recording transaction, :meth:`Archive.stage` writes the snapshot in full to
+   ``<archive>/.incoming/<random>.parquet`` and fsyncs it (slow, outside any lock);
+2. inside the transaction, holding the store's write lock, the store takes the cycle's next
+   attempt N; :meth:`Archive.retire_unrecorded` moves any file of that cycle numbered N or
+   above (left by a run killed between step 3 and its commit: no record has that number) to
+   ``<archive>/.orphans/``; :meth:`StagedSnapshot.place` renames the staged file to
+   ``attempt-N`` (atomic, same folder tree) and fsyncs the folder;
+3. the run and its results are inserted and the transaction commits.
+
+A run killed at any point leaves either a full record with its snapshot, or no record (its
+transaction rolls back) and at most an unrecorded snapshot that the next run of the cycle
+moves aside; never half a file under a final name. Runs recorded without a snapshot (dry
+runs, other engines) still take an attempt number, so the archive may skip numbers that the
+store holds; it never holds a number the store does not. Staged files of runs killed long ago
+are swept from ``.incoming``; ``.orphans`` is kept for inspection and safe to delete.
 """
 
 from __future__ import annotations
@@ -15,20 +32,24 @@ import time
 import uuid
 from dataclasses import dataclass
 from pathlib import Path
-
-import pandas as pd
+from typing import TYPE_CHECKING
 
 from accuracy_checks import frames as F
+
+if TYPE_CHECKING:  # pandas loads only when a snapshot is read or written
+    import pandas as pd
 
 _CYCLE_DIR = re.compile(r"^cycle=(\d{4}-\d{2}-\d{2}(?:T\d{2}-\d{2}-\d{2})?)$")
 _ATTEMPT_FILE = re.compile(r"^attempt-(\d{4,})\.parquet$")
 _INCOMING = ".incoming"
+_ORPHANS = ".orphans"
 _STALE_SECONDS = 3600
 
 
 def cycle_label(issued: pd.Timestamp) -> str:
     """The label of a cycle: its issue date (with the time only when it is not midnight).
 
+    >>> import pandas as pd
     >>> cycle_label(pd.Timestamp("2026-03-02")), cycle_label(pd.Timestamp("2026-03-02 06:30"))
     ('2026-03-02', '2026-03-02T06-30-00')
     """
@@ -38,6 +59,8 @@ def cycle_label(issued: pd.Timestamp) -> str:
 
 
 def label_to_timestamp(label: str) -> pd.Timestamp:
+    import pandas as pd
+
     date, _, time_part = label.partition("T")
     return pd.Timestamp(f"{date} {time_part.replace('-', ':')}".strip())
 
@@ -84,6 +107,8 @@ class Archive:
 
     def load(self, snapshots: list[Snapshot]) -> pd.DataFrame:
         """The snapshots' rows, with ``attempt`` and ``source`` = ``"archive"``."""
+        import pandas as pd
+
         parts = [
             pd.read_parquet(s.path).assign(
                 **{F.ATTEMPT: s.attempt, F.SOURCE: "archive"}
@@ -96,9 +121,8 @@ class Archive:
         frame[F.ATTEMPT] = frame[F.ATTEMPT].astype("Int64")
         return frame
 
-    def snapshot(self, frame: pd.DataFrame, issued: pd.Timestamp) -> Snapshot:
-        """Write ``frame`` as the next attempt of its cycle, atomically."""
-        label = cycle_label(issued)
+    def stage(self, frame: pd.DataFrame, issued: pd.Timestamp) -> StagedSnapshot:
+        """Write ``frame`` in full to the staging folder (step 1 of the protocol above)."""
         incoming = self.root / _INCOMING
         incoming.mkdir(parents=True, exist_ok=True)
         self._sweep(incoming)
@@ -107,27 +131,34 @@ class Archive:
             frame.to_parquet(tmp, index=False)
             with open(tmp, "rb") as fh:
                 os.fsync(fh.fileno())
-            cycle_dir = self.root / f"cycle={label}"
-            cycle_dir.mkdir(parents=True, exist_ok=True)
-            attempt = self._next_attempt(cycle_dir)
-            while True:
-                final = cycle_dir / f"attempt-{attempt:04d}.parquet"
-                try:
-                    os.link(tmp, final)
-                    break
-                except FileExistsError:
-                    attempt += 1
-            _fsync_dir(cycle_dir)
-            return Snapshot(label, attempt, final)
-        finally:
+        except BaseException:
             tmp.unlink(missing_ok=True)
+            raise
+        return StagedSnapshot(self.root, cycle_label(issued), tmp)
 
-    @staticmethod
-    def _next_attempt(cycle_dir: Path) -> int:
-        taken = [
-            int(m.group(1)) for f in cycle_dir.iterdir() if (m := _ATTEMPT_FILE.match(f.name))
-        ]
-        return max(taken, default=0) + 1
+    def retire_unrecorded(self, cycle: str, first: int) -> list[Path]:
+        """Move the cycle's snapshots numbered ``first`` or above to ``.orphans/`` (step 2).
+
+        Call only under the store's write lock with ``first`` = the attempt being allocated:
+        no recorded run has such a number, so these files were left by runs killed before
+        their record committed. Returns where they went.
+        """
+        cycle_dir = self.root / f"cycle={cycle}"
+        if not cycle_dir.is_dir():
+            return []
+        moved = []
+        for f in sorted(cycle_dir.iterdir()):
+            m = _ATTEMPT_FILE.match(f.name)
+            if not m or int(m.group(1)) < first:
+                continue
+            dest_dir = self.root / _ORPHANS / f"cycle={cycle}"
+            dest_dir.mkdir(parents=True, exist_ok=True)
+            dest = dest_dir / f"{f.stem}.{uuid.uuid4().hex[:8]}.parquet"
+            os.replace(f, dest)
+            moved.append(dest)
+        if moved:
+            _fsync_dir(cycle_dir)
+        return moved
 
     @staticmethod
     def _sweep(incoming: Path) -> None:
@@ -139,6 +170,28 @@ class Archive:
                     f.unlink()
             except OSError:
                 pass
+
+
+@dataclass(frozen=True)
+class StagedSnapshot:
+    """A snapshot written in full under ``<archive>/.incoming``, waiting for its attempt."""
+
+    root: Path
+    cycle: str
+    path: Path
+
+    def place(self, attempt: int) -> Path:
+        """Rename the staged file to ``cycle=<cycle>/attempt-<attempt>.parquet`` (atomic)."""
+        cycle_dir = self.root / f"cycle={self.cycle}"
+        cycle_dir.mkdir(parents=True, exist_ok=True)
+        final = cycle_dir / f"attempt-{attempt:04d}.parquet"
+        os.replace(self.path, final)
+        _fsync_dir(cycle_dir)
+        return final
+
+    def discard(self) -> None:
+        """Remove the staged file (the run was not recorded)."""
+        self.path.unlink(missing_ok=True)
 
 
 def _fsync_dir(path: Path) -> None:

@@ -39,6 +39,9 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("-v", "--verbose", action="store_true", help="list passing results too")
     run.add_argument("-q", "--quiet", action="store_true", help="no progress lines")
     run.add_argument("--no-color", action="store_true", help="plain text output")
+    run.add_argument("--label", metavar="TEXT",
+                     help="a label of the pipeline run kept in the audit record "
+                     "(e.g. the scheduler's run id)")
 
     val = sub.add_parser("validate", help="validate a config file and exit")
     val.add_argument("--config", required=True, type=Path)
@@ -50,6 +53,10 @@ def _parser() -> argparse.ArgumentParser:
     demo.add_argument("--out", type=Path, default=Path("accuracy-checks-demo"),
                       help="folder to write the demo into (default: ./accuracy-checks-demo)")
     demo.add_argument("--cycles", type=int, default=6, help="number of weekly cycles (default 6)")
+
+    from accuracy_checks.cli_audit import add_audit_commands
+
+    add_audit_commands(sub)  # history, breaches, waive, waivers, revoke, verify
     return p
 
 
@@ -74,6 +81,12 @@ def main(argv: list[str] | None = None) -> int:
             else:
                 print(text)
             return EXIT_PASS
+        from accuracy_checks.cli_audit import COMMANDS as AUDIT_COMMANDS
+
+        if args.command in AUDIT_COMMANDS:
+            from accuracy_checks.cli_audit import run_audit_command
+
+            return run_audit_command(args)
         if args.command == "demo":
             from accuracy_checks.demo import run_demo
 
@@ -108,7 +121,7 @@ def _run(args: argparse.Namespace) -> int:
             print(f"· {text}", file=sys.stderr, flush=True)
 
     report = run_checks(config, forecast_path=args.forecast, actuals_path=args.actuals,
-                        progress=progress, snapshot=not args.no_snapshot)
+                        progress=progress, snapshot=not args.no_snapshot, label=args.label)
     if args.json:
         write_json(report, args.json)
     if args.junit:

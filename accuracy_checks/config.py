@@ -44,11 +44,14 @@ RESERVED_COLUMNS = frozenset(
 
 
 def measure_directions() -> dict[str, tuple[Direction, str]]:
-    """Every measure id a threshold may name → (direction, unit)."""
-    from accuracy_checks.measures.registry import MEASURES
+    """Every measure id a threshold may name → (direction, unit).
+
+    Accuracy measures come from the registry, plugins (entry points) included.
+    """
+    from accuracy_checks.measures.registry import registered_measures
 
     out: dict[str, tuple[Direction, str]] = {
-        m.id: (m.direction, m.unit) for m in MEASURES.values()
+        m.id: (m.direction, m.unit) for m in registered_measures().values()
     }
     out.update(CHECK_MEASURES)
     return out
@@ -142,6 +145,23 @@ class Evaluation(_Strict):
     min_obs: Annotated[int, Field(ge=1)] = 20
     #: status of a thresholded measure whose value is undefined (zero actuals, too few rows)
     undefined_status: Literal["pass", "warn", "fail", "skipped"] = "warn"
+    #: measures reported besides the core ones and those a threshold names (``all``: every
+    #: registered measure whose inputs the config provides)
+    measures: list[str] = Field(default_factory=list)
+    #: seasonal period m of MASE, MSIS and the seasonal naive baseline (default: from the
+    #: frequency: 52 weekly, 12 monthly, 4 quarterly, 7 daily, 24 hourly, 1 otherwise)
+    seasonal_period: Annotated[int, Field(ge=1)] | None = None
+    #: trailing periods (with actuals) of the tracking signals
+    tracking_window: Annotated[int, Field(ge=1)] = 13
+    #: ``scaled``: tracking-signal levels are z-values, the limit is z·1.25·√n for a window of
+    #: n periods; ``constant``: levels bound |tracking signal| directly
+    tracking_limit: Literal["scaled", "constant"] = "scaled"
+    #: smoothing constant α of Trigg's tracking signal
+    trigg_alpha: Annotated[float, Field(gt=0, le=1)] = 0.1
+    #: a coverage breach counts only if the binomial test gives a p-value below this
+    coverage_test_level: Annotated[float, Field(gt=0, lt=1)] = 0.05
+    #: worst-offender series listed for each breached accuracy result
+    offenders: Annotated[int, Field(ge=0)] = 10
 
     @field_validator("lags")
     @classmethod
@@ -150,6 +170,35 @@ class Evaluation(_Strict):
         if bad:
             raise ValueError(f"lags start at 1 (the first period a cycle forecasts); got {bad}")
         return sorted(set(lags))
+
+    @field_validator("measures")
+    @classmethod
+    def _measures(cls, measures: list[str]) -> list[str]:
+        known = measure_directions()
+        for measure in measures:
+            if measure != "all" and measure not in known:
+                raise ValueError(
+                    f"unknown measure {measure!r}" + _did_you_mean(measure, known)
+                    + f"; measures: all, {', '.join(sorted(known))}"
+                )
+        return list(dict.fromkeys(measures))
+
+
+class UnitCosts(_Strict):
+    """Money per unit of error: ``under`` for each unit under-forecast (actual above the
+    forecast: lost sales), ``over`` for each unit over-forecast (stock left over). Both > 0."""
+
+    under: Annotated[float, Field(gt=0, allow_inf_nan=False)]
+    over: Annotated[float, Field(gt=0, allow_inf_nan=False)]
+
+
+class Costs(_Strict):
+    """Unit costs of forecast errors, per segment (``default`` for the others)."""
+
+    #: the label written after money values (``EUR``, ``USD`` …)
+    currency: str = "money"
+    default: UnitCosts | None = None
+    segments: dict[str, UnitCosts] = Field(default_factory=dict)
 
 
 class Thresholds(_Strict):
@@ -172,6 +221,8 @@ class Config(_Strict):
     coverage: Coverage = Field(default_factory=Coverage)
     evaluation: Evaluation = Field(default_factory=Evaluation)
     thresholds: Thresholds = Field(default_factory=Thresholds)
+    #: unit costs of under- and over-forecasting (measure ``error_cost``)
+    costs: Costs | None = None
 
     _source: Path | None = PrivateAttr(default=None)
     _text: str = PrivateAttr(default="")

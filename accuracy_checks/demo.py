@@ -5,10 +5,16 @@ Nothing here is real: no company, brand or person. Eight stores (``S01``–``S08
 is run once per weekly cycle on the actuals known before its issue date, and a few problems are
 planted in the forecasts so that the gate has something to find:
 
-- ``pet-care`` forecasts are 18 % too low from the second demo cycle on (an under-forecast bias
-  that shows up once those cycles are measured against actuals);
-- in one cycle a few series lack one week in the middle of the horizon (a gap);
-- in the final cycle every series of one store is absent (a missing store), so that cycle fails.
+- ``pet-care`` forecasts are 18 % too low from the fourth-last cycle on (the 3rd of 6):
+  an under-forecast bias that shows once those cycles are measured against actuals: a warning
+  when half the lag-1 window is biased, a failure when three quarters are;
+- in that same cycle a few series lack one week in the middle of the horizon (a gap: warning);
+- in the final cycle every series of one store is absent (a missing store: failure).
+
+With the defaults (6 cycles, seed 7) the verdicts read WARN, WARN, WARN, PASS, WARN, FAIL: the
+first two warn mildly (lag-4 bias of small segments measured on one or two weeks), the third
+shows the gap, the fifth the pet-care bias building up and the sixth fails on the missing store
+and the pet-care bias.
 
 :func:`generate_scenario` writes the files; :func:`run_demo` runs the gate on each cycle in
 order, the way a weekly job would, and narrates the verdicts.
@@ -55,11 +61,14 @@ if TYPE_CHECKING:  # the engine is only needed by run_demo
 __all__ = [
     "FIRST_DEMO_CYCLE",
     "HORIZON",
+    "SEGMENTS",
     "PlantedProblems",
     "Scenario",
     "SegmentSpec",
+    "describe_planted",
     "generate_scenario",
     "run_demo",
+    "top_findings",
 ]
 
 #: Issue date of the first demo cycle (a Monday in early spring, when garden centres get busy).
@@ -74,6 +83,8 @@ HISTORY_WEEKS = 104
 LEVEL_WEEKS = 8
 #: Length of a year on the weekly grid.
 SEASON_WEEKS = 52
+#: Most demo cycles: the first earlier cycle still needs SEASON_WEEKS + LEVEL_WEEKS + 1 weeks.
+MAX_CYCLES = HISTORY_WEEKS - EARLIER_CYCLES - (SEASON_WEEKS + LEVEL_WEEKS + 1) + 1
 
 N_STORES = 8
 #: Share of the catalogue each store carries.
@@ -384,10 +395,14 @@ def generate_scenario(out_dir: Path, *, cycles: int = 6, seed: int = 7) -> Scena
     ``data/forecasts/forecast_<date>.csv`` per demo cycle (store, product, week, units, p10,
     p90, issued_on). The same ``seed`` gives byte-identical files.
 
-    ``cycles`` must be at least 3 (a clean cycle, the gap, the failing final cycle).
+    ``cycles`` runs from 3 (a clean cycle, the gap, the failing final cycle) to
+    :data:`MAX_CYCLES` (40: the forecaster needs 61 weeks of actuals before the first cycle).
     """
-    if cycles < 3:
-        raise UsageError(f"the demo needs at least 3 cycles; got {cycles}")
+    if not 3 <= cycles <= MAX_CYCLES:
+        raise UsageError(
+            f"the demo runs 3 to {MAX_CYCLES} cycles (a clean cycle, the gap, the failing final "
+            f"cycle; the forecaster needs a year of actuals before the first); got {cycles}"
+        )
     out_dir = Path(out_dir)
     data = out_dir / "data"
     data.mkdir(parents=True, exist_ok=True)
@@ -573,7 +588,8 @@ def top_findings(report: RunReport, n: int = 3) -> list[str]:
         )
     )
     seen: set[tuple[str, str | None]] = set()
-    first, repeats = [], []
+    first: list[CheckResult] = []
+    repeats: list[CheckResult] = []
     for r in bad:
         kind = (r.check, r.measure)
         (repeats if kind in seen else first).append(r)

@@ -14,17 +14,18 @@ from datetime import UTC, datetime
 from pathlib import Path
 from typing import TypeVar
 
+import numpy as np
 import pandas as pd
 
 from accuracy_checks import frames as F
 from accuracy_checks import sources
-from accuracy_checks.accuracy import accuracy_results
+from accuracy_checks.accuracy import measures_to_report as accuracy_measures_to_report
+from accuracy_checks.accuracy import run_accuracy
 from accuracy_checks.archive import Archive, cycle_label
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.output import output_checks
+from accuracy_checks.codes import combined_codes
 from accuracy_checks.config import Config
-from accuracy_checks.evaluation import evaluation_frame
-from accuracy_checks.measures import CORE_MEASURES
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.thresholds import ThresholdBook
 
@@ -64,14 +65,17 @@ class _Stage:
 
 def load_inputs(config: Config, *, forecast_path: Path | None = None,
                 actuals_path: Path | None = None, progress: Progress = _quiet) -> Inputs:
-    """Read and validate every input (no writes). Raises InputError on unusable input."""
+    """Read and validate every input (no writes). Raises InputError on unusable input.
+
+    Key columns come back as categoricals sharing one set of categories across every frame,
+    so joins and group-bys run on integer codes.
+    """
     keys = list(config.forecast.keys)
     seg_cols = list(config.segments.columns)
     mapping = sources.read_mapping(config)
 
     t0 = time.perf_counter()
     forecast = sources.read_forecast(config, forecast_path, segment_columns=seg_cols)
-    forecast = sources.assign_segments(forecast, config, mapping, role="forecast")
     progress(f"read forecast: {len(forecast):,} rows in {time.perf_counter() - t0:.1f} s")
     issued = pd.Timestamp(forecast[F.ISSUED].max())
 
@@ -81,53 +85,81 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
 
     t0 = time.perf_counter()
     history = [
-        sources.assign_segments(
-            sources.read_forecast(config, p, role="history", key="history",
-                                  segment_columns=seg_cols, allow_empty=True),
-            config, mapping, role="history")
+        sources.read_forecast(config, p, role="history", key="history",
+                              segment_columns=seg_cols, allow_empty=True)
         for p in config.history_paths
     ]
-    history_frame = (
-        pd.concat(history, ignore_index=True) if history else pd.DataFrame()
-    )
-    if len(history_frame):
-        history_frame = history_frame.loc[history_frame[F.ISSUED] < issued]
-        history_frame = history_frame.drop_duplicates([*keys, F.PERIOD, F.ISSUED], keep="last")
-        history_frame = history_frame.assign(
-            **{F.ATTEMPT: pd.array([pd.NA] * len(history_frame), dtype="Int64"),
-               F.SOURCE: "history"})
-
+    history = [h.loc[h[F.ISSUED] < issued] for h in history]
     archive = Archive(config.archive)
     snaps = archive.latest_attempts(before=issued)
-    in_history = set(history_frame[F.ISSUED].unique()) if len(history_frame) else set()
+    in_history = {t for h in history for t in h[F.ISSUED].unique()}
     from_archive = [s for s in snaps if s.issued not in in_history]
-    archived = archive.load(from_archive)
-    if len(archived):
-        archived = _segments_of_archived(archived, config, mapping)
-    parts = [p for p in (history_frame, archived) if len(p)]
-    earlier = pd.concat(parts, ignore_index=True) if parts else pd.DataFrame()
-    if history or snaps:
-        progress(f"read earlier cycles: {len(earlier):,} rows "
-                 f"({len(history_frame):,} from history, {len(archived):,} from the archive) "
-                 f"in {time.perf_counter() - t0:.1f} s")
-
+    archived_parts = [archive.load([s]) for s in from_archive]
     previous, previous_label = None, None
     if snaps:
         last = snaps[-1]
-        previous = archive.load([last])
+        previous = (archived_parts[from_archive.index(last)] if last in from_archive
+                    else archive.load([last]))
         previous_label = f"{last.cycle} (attempt {last.attempt})"
 
-    known = sources.segments_of_series([forecast, *(p for p in parts)], keys)
-    actuals = sources.attach_segments(actuals, config, mapping, known)
+    frames = [forecast, actuals, *history, *archived_parts]
+    if mapping is not None:
+        frames.append(mapping)
+    if previous is not None:
+        frames.append(previous)
+    frames = sources.unify_categories(frames, [*keys, *seg_cols, F.SEGMENT])
+    forecast, actuals = frames[0], frames[1]
+    history = frames[2:2 + len(history)]
+    archived_parts = frames[2 + len(history):2 + len(history) + len(archived_parts)]
+    rest = frames[2 + len(history) + len(archived_parts):]
+    if mapping is not None:
+        mapping, rest = rest[0], rest[1:]
+    if previous is not None:
+        previous = rest[0]
+
+    forecast = sources.assign_segments(forecast, config, mapping, role="forecast")
+    history = [sources.assign_segments(h, config, mapping, role="history") for h in history]
+    history_frame = _concat(history)
+    if len(history_frame):
+        n_hist = len(history_frame)
+        repeated = sources.duplicated_rows(history_frame, [*keys, F.PERIOD, F.ISSUED], keep="last")
+        if repeated.any():
+            history_frame = history_frame.loc[~repeated]
+        if len(history_frame) < n_hist:
+            progress(f"history: {n_hist - len(history_frame):,} repeated rows dropped "
+                     "(the last of each (keys, period, issue date) kept)")
+        n = len(history_frame)
+        no_attempt = pd.arrays.IntegerArray(np.zeros(n, dtype=np.int64), np.ones(n, dtype=bool))
+        history_frame = history_frame.assign(**{F.ATTEMPT: no_attempt, F.SOURCE: "history"})
+    archived = _concat([_segments_of_archived(a, config, mapping) for a in archived_parts])
+    parts = [p for p in (history_frame, archived) if len(p)]
+    earlier = sources.unify_categories(parts, [F.SEGMENT]) if len(parts) > 1 else parts
+    earlier_frame = _concat(earlier)
+    if history or snaps:
+        progress(f"read earlier cycles: {len(earlier_frame):,} rows "
+                 f"({len(history_frame):,} from history, {len(archived):,} from the archive) "
+                 f"in {time.perf_counter() - t0:.1f} s")
+
+    actuals = sources.attach_segments(
+        actuals, config, mapping,
+        lambda: sources.segments_of_series([forecast, *parts], keys))
 
     info: dict[str, object] = {
         "forecast": {"path": str(forecast_path or config.forecast.path), "rows": len(forecast),
-                     "series": int(forecast[keys].drop_duplicates().shape[0])},
+                     "series": int(np.unique(combined_codes(forecast, keys)).size)},
         "actuals": {"path": str(actuals_path or config.actuals.path), "rows": len(actuals)},
-        "earlier": {"rows": len(earlier), "history_rows": len(history_frame),
+        "earlier": {"rows": len(earlier_frame), "history_rows": len(history_frame),
                     "archive_rows": len(archived)},
     }
-    return Inputs(forecast, actuals, earlier, mapping, previous, previous_label, issued, info)
+    return Inputs(forecast, actuals, earlier_frame, mapping, previous, previous_label, issued,
+                  info)
+
+
+def _concat(frames: list[pd.DataFrame]) -> pd.DataFrame:
+    frames = [f for f in frames if len(f)]
+    if not frames:
+        return pd.DataFrame()
+    return frames[0] if len(frames) == 1 else pd.concat(frames, ignore_index=True)
 
 
 def _segments_of_archived(archived: pd.DataFrame, config: Config,
@@ -147,35 +179,78 @@ def _segments_of_archived(archived: pd.DataFrame, config: Config,
 
 def run_checks(config: Config, *, forecast_path: Path | None = None,
                actuals_path: Path | None = None, progress: Progress | None = None,
-               snapshot: bool = True) -> RunReport:
-    """Run every check of ``config`` on the current forecast; snapshot it; return the report."""
+               snapshot: bool = True, label: str | None = None) -> RunReport:
+    """Run every check of ``config`` on the current forecast, record the run, return it.
+
+    Every input is read and validated first: an unusable input raises before anything is
+    written. Then the waivers active at the run's start turn the breaches they cover into
+    ``waived``; the forecast is staged for the archive (unless ``snapshot=False``, a dry
+    run); and the run is recorded in the audit store (``config.store``) in one transaction,
+    which allocates the run's attempt of its cycle and moves the staged snapshot to that
+    attempt's name (protocol in :mod:`accuracy_checks.archive`). ``label`` is an optional
+    pipeline run label kept with the record. Raises ``StoreError`` (a ``UsageError``) when the
+    store cannot be written: then nothing is recorded and nothing archived.
+    """
+    from accuracy_checks.store import apply_waivers, input_fingerprints, open_store
+    from accuracy_checks.store.database import validate_url
+    from accuracy_checks.store.urls import default_store_url, sqlite_file
+
     progress = progress or _quiet
     started = datetime.now(UTC)
     run_id = uuid.uuid4().hex
+    store_url = default_store_url(config)
+    validate_url(store_url)  # a bad store URL fails now, not after the checks
+    db_file = sqlite_file(store_url)
+    if db_file is None or db_file.exists():
+        # before reading the archive: move aside snapshots of runs killed before their record
+        # committed (crash debris, never a recorded snapshot)
+        with open_store(store_url) as store:
+            moved = store.retire_orphans(config.archive)
+        if moved:
+            progress(f"moved {len(moved)} unrecorded snapshot(s) left by interrupted runs "
+                     f"to {moved[0].parent.parent}")
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
                          progress=progress)
     results = evaluate(config, inputs, progress=progress)
 
-    snap = None
-    if snapshot:
+    with open_store(config) as store:
+        results = apply_waivers(results, store.active_waivers(on=started))
+        waived = sum(r.status == "waived" for r in results)
+        if waived:
+            progress(f"{waived} breach(es) waived by active waivers (see the results)")
+        staged = None
+        if snapshot:
+            t0 = time.perf_counter()
+            staged = Archive(config.archive).stage(inputs.forecast, inputs.issued)
+            progress(f"snapshot staged in {time.perf_counter() - t0:.1f} s")
+        evaluated = sorted({(r.get("cycle"), r.get("attempt"), r.get("source"))
+                            for r in _cycles_of(results)}, key=lambda t: str(t[0]))
+        report = RunReport(
+            run_id=run_id,
+            cycle=cycle_label(inputs.issued),
+            attempt=None,
+            results=results,
+            started_at=started.isoformat(timespec="seconds"),
+            finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
+            config_path=str(config.source) if config.source else None,
+            inputs=inputs.info,
+            evaluated_cycles=[{"cycle": c, "attempt": a, "source": s} for c, a, s in evaluated],
+            label=label,
+        )
         t0 = time.perf_counter()
-        snap = Archive(config.archive).snapshot(inputs.forecast, inputs.issued)
-        progress(f"snapshot written: {snap.path} in {time.perf_counter() - t0:.1f} s")
-
-    evaluated = sorted({(r.get("cycle"), r.get("attempt"), r.get("source"))
-                        for r in _cycles_of(results)}, key=lambda t: str(t[0]))
-    return RunReport(
-        run_id=run_id,
-        cycle=cycle_label(inputs.issued),
-        attempt=snap.attempt if snap else None,
-        results=results,
-        started_at=started.isoformat(timespec="seconds"),
-        finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
-        config_path=str(config.source) if config.source else None,
-        inputs=inputs.info,
-        evaluated_cycles=[{"cycle": c, "attempt": a, "source": s} for c, a, s in evaluated],
-        snapshot=str(snap.path) if snap else None,
-    )
+        try:
+            fingerprints = input_fingerprints(config, inputs.info, forecast_path=forecast_path,
+                                              actuals_path=actuals_path)
+        except BaseException:
+            if staged is not None:
+                staged.discard()
+            raise
+        store.record_run(report, config=config, fingerprints=fingerprints, snapshot=staged,
+                         progress=progress)
+        where = f"; snapshot {report.snapshot}" if report.snapshot else ""
+        progress(f"recorded as attempt {report.attempt} of cycle {report.cycle} in the audit "
+                 f"store {store.url} in {time.perf_counter() - t0:.1f} s{where}")
+    return report
 
 
 def _cycles_of(results: list[CheckResult]) -> list[dict[str, object]]:
@@ -202,32 +277,15 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
         known_series=inputs.mapping, previous=inputs.previous,
         previous_label=inputs.previous_label))
 
-    def accuracy() -> list[CheckResult]:
-        ev = evaluation_frame(inputs.earlier, inputs.actuals, keys=keys,
-                              frequency=config.frequency, lags=config.evaluation.lags,
-                              window=config.evaluation.window)
-        out = accuracy_results(ev.frame, keys=keys, book=book, measures=measures_to_report(config),
-                               lags=config.evaluation.lags, min_obs=config.evaluation.min_obs,
-                               window=ev.window)
-        if ev.cycles:
-            out = [CheckResult(**{**r.__dict__, "details": {**r.details, "cycles": ev.cycles}})
-                   if r.segment == ALL_SERIES else r for r in out]
-        return out
-
-    results += stage("accuracy", accuracy)
+    results += stage("accuracy", lambda: run_accuracy(config, inputs.earlier, inputs.actuals,
+                                                      book=book))
     results += unmatched_thresholds(config, inputs)
     return results
 
 
 def measures_to_report(config: Config) -> list[str]:
-    """The core measures, plus any other registry measure a threshold names."""
-    from accuracy_checks.measures import MEASURES
-
-    named = set(config.thresholds.default)
-    for levels in config.thresholds.segments.values():
-        named |= set(levels)
-    extra = [m for m in MEASURES if m in named and m not in CORE_MEASURES]
-    return [*CORE_MEASURES, *extra]
+    """The measures a run reports (see :func:`accuracy_checks.accuracy.measures_to_report`)."""
+    return accuracy_measures_to_report(config)
 
 
 def unmatched_thresholds(config: Config, inputs: Inputs) -> list[CheckResult]:

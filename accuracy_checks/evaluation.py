@@ -4,9 +4,16 @@ Lag (PRODUCT.md): where a target period sits in its cycle's horizon, counted on 
 grid. Lag 1 is the first period the cycle forecasts for any series, lag k the (k−1)-th grid
 period after it:  ``lag = position(period) − position(first period of the cycle) + 1``.
 
-Window: the ``window`` most recent periods that have at least one actual. Rows kept: those of
-a configured lag whose target period lies in the window. Rows whose actual has not arrived (or
-is NaN) stay in the frame with ``actual`` NaN; the measures count them as dropped.
+Window: the ``window`` most recent periods that have at least one actual. The tracking signals
+use a longer trailing window (``tracking_window`` periods, same rule), so the frame covers the
+longer of the two and flags each row: ``__in_window`` (the evaluation window) and
+``__in_tracking`` (the tracking window). Rows kept: those of a configured lag whose target
+period lies in either window. Rows whose actual has not arrived (or is NaN) stay in the frame
+with ``actual`` NaN; the measures count them as dropped.
+
+The join runs on integer codes: the actuals are indexed once by (series, grid position)
+(:class:`~accuracy_checks.baselines.ActualsIndex`), which also serves the baselines and the
+MASE scales; ``__series`` holds each row's series code in that index (−1: no actuals).
 """
 
 from __future__ import annotations
@@ -18,7 +25,13 @@ import pandas as pd
 
 from accuracy_checks import frames as F
 from accuracy_checks.archive import cycle_label
+from accuracy_checks.baselines import ActualsIndex
 from accuracy_checks.grid import grid_positions
+
+#: evaluation-frame columns of the engine's own (key columns may not start with ``__``)
+IN_WINDOW = "__in_window"
+IN_TRACKING = "__in_tracking"
+SERIES = "__series"
 
 
 @dataclass
@@ -26,37 +39,64 @@ class Evaluation:
     frame: pd.DataFrame
     window: list[pd.Timestamp]
     cycles: list[dict[str, object]] = field(default_factory=list)
+    #: the periods of the tracking window (empty when no tracking measure is wanted)
+    tracking: list[pd.Timestamp] = field(default_factory=list)
+    #: the actuals by (series, grid position); ``None`` when nothing is evaluated
+    history: ActualsIndex | None = None
 
 
 def window_periods(actuals: pd.DataFrame, window: int) -> list[pd.Timestamp]:
     """The ``window`` most recent periods that have at least one non-missing actual."""
     present = actuals.loc[actuals[F.ACTUAL].notna(), F.PERIOD]
     periods = np.sort(present.unique())
-    return [pd.Timestamp(p) for p in periods[-window:]]
+    return [pd.Timestamp(p) for p in periods[-window:]] if window > 0 else []
 
 
 def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list[str],
-                     frequency: str, lags: list[int], window: int) -> Evaluation:
-    """Join earlier forecasts (configured lags, target in the window) with actuals.
+                     frequency: str, lags: list[int], window: int,
+                     tracking_window: int = 0) -> Evaluation:
+    """Join earlier forecasts (configured lags, target in a window) with actuals.
 
     Returns the frame with key columns, ``period``, ``issued``, ``lag``, ``segment``,
-    ``forecast``, quantile columns, ``actual`` (NaN where not arrived), plus the window and
-    the cycles used (with their attempts and sources).
+    ``forecast``, quantile columns, ``actual`` (NaN where not arrived) and the flags
+    ``__in_window``/``__in_tracking`` and codes ``__series``; plus the window, the tracking
+    window, the cycles used (with their attempts and sources) and the actuals index.
     """
-    periods = window_periods(actuals, window)
+    periods = window_periods(actuals, max(window, tracking_window))
+    main = periods[-window:]
+    tracking = periods[-tracking_window:] if tracking_window > 0 else []
     if len(earlier) == 0 or not periods:
         cols = [*keys, F.PERIOD, F.ISSUED, F.LAG, F.SEGMENT, F.FORECAST, F.ACTUAL]
-        return Evaluation(pd.DataFrame(columns=cols), periods)
+        return Evaluation(pd.DataFrame(columns=cols), main, tracking=tracking)
     rows = earlier.loc[earlier[F.PERIOD].isin(periods)]
     rows = add_lags_for_subset(earlier, rows, frequency)
     rows = rows.loc[rows[F.LAG].isin(lags)]
     # a non-finite earlier forecast cannot be scored: count it as dropped, like a missing one
     rows = rows.assign(**{F.FORECAST: rows[F.FORECAST].where(np.isfinite(rows[F.FORECAST]))})
-    joined = rows.merge(
+    history = ActualsIndex(actuals, keys, frequency)
+    series = history.codes_of(rows)
+    position = history.positions(rows[F.PERIOD])
+    actual = history.values_at(series, position)
+    off_grid = position < history.p0 - (1 << 40)
+    if off_grid.any():  # an off-grid date matches only an actual of exactly that date
+        actual[off_grid] = _exact_join(rows.loc[off_grid], actuals, keys)
+    period = rows[F.PERIOD]
+    joined = rows.assign(**{
+        F.ACTUAL: actual,
+        SERIES: series,
+        IN_WINDOW: period.isin(main).to_numpy(),
+        IN_TRACKING: period.isin(tracking).to_numpy() if tracking else False,
+    }).reset_index(drop=True)
+    cycles = _cycles_used(joined.loc[joined[IN_WINDOW]])
+    return Evaluation(joined, main, cycles, tracking=tracking, history=history)
+
+
+def _exact_join(rows: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) -> np.ndarray:
+    """The actual of each row with the same keys and exactly the same period (NaN if none)."""
+    found = rows[[*keys, F.PERIOD]].merge(
         actuals[[*keys, F.PERIOD, F.ACTUAL]], on=[*keys, F.PERIOD], how="left", validate="m:1"
     )
-    cycles = _cycles_used(joined)
-    return Evaluation(joined.reset_index(drop=True), periods, cycles)
+    return found[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
 
 
 def add_lags_for_subset(earlier: pd.DataFrame, rows: pd.DataFrame,

@@ -120,6 +120,8 @@ class RunReport:
     evaluated_cycles: list[dict[str, Any]] = field(default_factory=list)
     #: where the checked forecast was snapshotted
     snapshot: str | None = None
+    #: an optional label of the pipeline run (a scheduler's run id, a CI build number)
+    label: str | None = None
 
     @property
     def status(self) -> Verdict:
@@ -145,5 +147,6 @@ class RunReport:
             "inputs": self.inputs,
             "evaluated_cycles": self.evaluated_cycles,
             "snapshot": self.snapshot,
+            "label": self.label,
             "results": [r.to_dict() for r in sort_for_display(self.results)],
         }

@@ -8,7 +8,7 @@ the column and, where it helps, the first offending rows.
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -16,6 +16,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks import frames as F
+from accuracy_checks.codes import combined_codes
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 
@@ -92,9 +93,11 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str) -> pd.DataFr
         )
     try:
         if is_parquet:
-            frame = pd.read_parquet(file, columns=wanted)
+            frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"])
         else:
-            text_cols = {c.name: str for c in columns if c.kind in ("key", "text", "date")}
+            # keys, dates and labels repeat a lot: read them dictionary-encoded (category) so
+            # that cleaning and parsing touch each distinct value once
+            text_cols = {c.name: "category" for c in columns if c.kind in ("key", "text", "date")}
             frame = _read_csv(file, usecols=wanted, dtype=text_cols)
     except (OSError, ValueError, UnicodeDecodeError, pd.errors.ParserError) as exc:
         raise InputError(f"The {role} file {file} cannot be read: {exc}") from None
@@ -111,8 +114,20 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str) -> pd.DataFr
         elif c.kind == "number":
             out[c.name] = _to_number(s, file, c, role, first_line)
         else:
-            out[c.name] = s.astype("string")
+            out[c.name] = _to_key(s, file, c, role, first_line, allow_missing=True)
     return pd.DataFrame(out)
+
+
+def _read_parquet(file: Path, wanted: list[str], dictionary: list[str]) -> pd.DataFrame:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    schema = pq.read_schema(file)
+    strings = [n for n in dictionary
+               if pa.types.is_string(schema.field(n).type)
+               or pa.types.is_large_string(schema.field(n).type)]
+    table = pq.read_table(file, columns=wanted, read_dictionary=strings)
+    return table.to_pandas()
 
 
 def _read_csv(file: Path, **kwargs: object) -> pd.DataFrame:
@@ -128,15 +143,29 @@ def _rows(mask: np.ndarray, values: pd.Series, first_line: int) -> str:
     return shown + more
 
 
-def _to_key(s: pd.Series, file: Path, c: Column, role: str, first_line: int) -> pd.Series:
-    out = s.astype("string").str.strip()
-    bad = out.isna().to_numpy()
-    if bad.any():
+def _to_key(s: pd.Series, file: Path, c: Column, role: str, first_line: int, *,
+            allow_missing: bool = False) -> pd.Series:
+    """Keys and labels as a categorical of stripped strings (each distinct value cleaned once)."""
+    if isinstance(s.dtype, pd.CategoricalDtype):
+        codes = s.cat.codes.to_numpy()
+        uniques = s.cat.categories
+    else:
+        codes, uniques = pd.factorize(s, use_na_sentinel=True)
+    labels = pd.Index(uniques).astype(str).str.strip()
+    if labels.has_duplicates or not labels.is_unique:
+        remap, labels = pd.factorize(labels)
+        codes = np.where(codes >= 0, remap[np.maximum(codes, 0)], -1)
+    empty = labels == ""
+    if empty.any():  # a blank label is a missing one
+        codes = np.where((codes >= 0) & empty[np.maximum(codes, 0)], -1, codes)
+    bad = codes < 0
+    if bad.any() and not allow_missing:
         raise InputError(
             f"The {role} file {file}, key column {c.name!r} (config key `{c.key}`), is empty in "
             f"{int(bad.sum())} rows ({_rows(bad, s, first_line)}). Every row needs its series keys."
         )
-    return out
+    cat = pd.Categorical.from_codes(codes.astype(np.int32), categories=pd.Index(labels, dtype=str))
+    return pd.Series(cat, index=s.index, name=s.name)
 
 
 def _to_number(s: pd.Series, file: Path, c: Column, role: str, first_line: int) -> pd.Series:
@@ -165,7 +194,10 @@ def _to_date(s: pd.Series, file: Path, c: Column, role: str, first_line: int) ->
         out = s
     else:
         # parse each distinct value once: millions of rows share a few hundred dates
-        codes, uniques = pd.factorize(s.astype("string"), use_na_sentinel=True)
+        if isinstance(s.dtype, pd.CategoricalDtype):
+            codes, uniques = s.cat.codes.to_numpy(), s.cat.categories.astype(str)
+        else:
+            codes, uniques = pd.factorize(s.astype("string"), use_na_sentinel=True)
         parsed = _parse_dates(pd.Series(uniques, dtype="string"), file, c, role)
         out = pd.Series(parsed.take(codes, allow_fill=True), index=s.index)
         bad = (codes >= 0) & out.isna().to_numpy()
@@ -255,7 +287,7 @@ def read_actuals(config: Config, path: Path | None = None) -> pd.DataFrame:
     if ac.keys and list(ac.keys) != list(config.forecast.keys):
         frame = frame.rename(columns=dict(zip(ac.keys, config.forecast.keys, strict=False)))
     keys = list(config.forecast.keys)
-    dup = frame.duplicated([*keys, F.PERIOD], keep=False).to_numpy()
+    dup = duplicated_rows(frame, [*keys, F.PERIOD])
     if dup.any():
         sample = frame.loc[dup, [*keys, F.PERIOD]].head(_SHOW)
         shown = "; ".join(
@@ -268,6 +300,15 @@ def read_actuals(config: Config, path: Path | None = None) -> pd.DataFrame:
             f"(e.g. {shown}). Each series needs one actual per period: aggregate them first."
         )
     return frame
+
+
+def duplicated_rows(frame: pd.DataFrame, columns: Sequence[str], keep: str | bool = False
+                    ) -> np.ndarray:
+    """``DataFrame.duplicated`` on integer row codes (fast on categorical keys)."""
+    if len(frame) == 0:
+        return np.zeros(0, dtype=bool)
+    codes = combined_codes(frame, list(columns))
+    return pd.Series(codes).duplicated(keep=keep).to_numpy()  # type: ignore[arg-type]
 
 
 def read_mapping(config: Config) -> pd.DataFrame | None:
@@ -317,12 +358,63 @@ def _columns_of(path: Path, role: str, key: str) -> list[str]:
         raise InputError(f"The {role} file {f} cannot be read: {exc}") from None
 
 
+def unify_categories(frames: Sequence[pd.DataFrame], columns: Sequence[str]
+                     ) -> list[pd.DataFrame]:
+    """Give each categorical key column the same (sorted) categories in every frame, so joins
+    and group-bys across frames work on integer codes."""
+    out = list(frames)
+    for col in columns:
+        having = [i for i, f in enumerate(out)
+                  if col in f.columns and isinstance(f[col].dtype, pd.CategoricalDtype)]
+        if not having:
+            continue
+        union = out[having[0]][col].cat.categories
+        for i in having[1:]:
+            union = union.union(out[i][col].cat.categories)
+        union = union.sort_values()
+        for i in having:
+            if not out[i][col].cat.categories.equals(union):
+                out[i] = out[i].assign(**{col: out[i][col].cat.set_categories(union)})
+    return out
+
+
+def _labels(columns: Sequence[pd.Series]) -> pd.Categorical:
+    """One categorical label per row: the columns' values joined by "/" (missing → unassigned);
+    built on the distinct combinations only."""
+    codes_list = []
+    names_list = []
+    for col in columns:
+        cat = col.astype("category") if not isinstance(col.dtype, pd.CategoricalDtype) else col
+        codes_list.append(cat.cat.codes.to_numpy().astype(np.int64))
+        names_list.append(np.append(cat.cat.categories.astype(str).to_numpy(), F.UNASSIGNED))
+    combo = np.zeros(len(columns[0]), dtype=np.int64)
+    for codes, names in zip(codes_list, names_list, strict=True):
+        combo = combo * len(names) + np.where(codes < 0, len(names) - 1, codes)
+    ids, uniques = pd.factorize(combo, sort=True)
+    parts = []
+    rest = np.asarray(uniques)
+    for names in reversed(names_list):
+        parts.append(names[rest % len(names)])
+        rest = rest // len(names)
+    labels = parts[-1].astype(object)
+    for part in reversed(parts[:-1]):
+        labels = labels + "/" + part.astype(object)
+    cats = pd.Index(labels.astype(str))
+    if cats.has_duplicates:  # distinct combinations that print alike ("a/b" + "c" vs "a" + "b/c")
+        remap, cats = pd.factorize(cats)
+        ids = remap[ids]
+    return pd.Categorical.from_codes(ids.astype(np.int32), categories=cats)
+
+
 def assign_segments(frame: pd.DataFrame, config: Config, mapping: pd.DataFrame | None,
                     *, role: str) -> pd.DataFrame:
-    """Add the ``segment`` column: segment columns joined by "/" (from the frame or mapping)."""
+    """Add the ``segment`` column: segment columns joined by "/" (from the frame or mapping).
+
+    Key columns of ``frame`` and ``mapping`` must share categories (:func:`unify_categories`).
+    """
     seg_cols = list(config.segments.columns)
     if not seg_cols:
-        return frame.assign(**{F.SEGMENT: pd.Series("*", index=frame.index, dtype="string")})
+        return frame.assign(**{F.SEGMENT: _constant(F_ALL, len(frame), frame.index)})
     from_map = [s for s in seg_cols if s not in frame.columns]
     if from_map:
         if mapping is None or any(s not in mapping.columns for s in from_map):
@@ -333,14 +425,43 @@ def assign_segments(frame: pd.DataFrame, config: Config, mapping: pd.DataFrame |
                 f"{role} file nor {where}. Add it to one of them, or fix the name."
             )
         keys = [k for k in mapping.columns if k in config.forecast.keys]
-        frame = frame.merge(mapping[keys + from_map], on=keys, how="left", validate="m:1")
-    parts = [frame[s].astype("string").fillna(F.UNASSIGNED) for s in seg_cols]
-    seg = parts[0]
-    for p in parts[1:]:
-        seg = seg + "/" + p
+        looked_up = _lookup(frame, mapping, keys, from_map)
+        frame = frame.assign(**looked_up)
+    seg = _labels([frame[s] for s in seg_cols])
     return frame.drop(columns=[s for s in seg_cols if s in frame.columns]).assign(
-        **{F.SEGMENT: seg.astype("string")}
+        **{F.SEGMENT: pd.Series(seg, index=frame.index)}
     )
+
+
+F_ALL = "*"
+
+
+def _constant(value: str, n: int, index: pd.Index) -> pd.Series:
+    cat = pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), categories=[value])
+    return pd.Series(cat, index=index)
+
+
+def _lookup(frame: pd.DataFrame, mapping: pd.DataFrame, keys: list[str],
+            columns: list[str]) -> dict[str, pd.Series]:
+    """``mapping``'s ``columns`` for each row of ``frame`` (missing where unmapped)."""
+    if (len(keys) == 1 and isinstance(frame[keys[0]].dtype, pd.CategoricalDtype)
+            and isinstance(mapping[keys[0]].dtype, pd.CategoricalDtype)
+            and frame[keys[0]].cat.categories.equals(mapping[keys[0]].cat.categories)):
+        # one key column with shared categories: a lookup by code, no hash join
+        k = keys[0]
+        row_of_code = np.full(len(frame[k].cat.categories) + 1, -1, dtype=np.int64)
+        row_of_code[mapping[k].cat.codes.to_numpy()] = np.arange(len(mapping))
+        rows = row_of_code[frame[k].cat.codes.to_numpy()]  # code -1 hits the last slot: -1
+        out = {}
+        for c in columns:
+            col = mapping[c].astype("category") if not isinstance(
+                mapping[c].dtype, pd.CategoricalDtype) else mapping[c]
+            codes = np.where(rows >= 0, col.cat.codes.to_numpy()[np.maximum(rows, 0)], -1)
+            out[c] = pd.Series(pd.Categorical.from_codes(codes, col.cat.categories),
+                               index=frame.index)
+        return out
+    joined = frame[keys].merge(mapping[keys + columns], on=keys, how="left", validate="m:1")
+    return {c: pd.Series(joined[c].to_numpy(), index=frame.index) for c in columns}
 
 
 def segments_of_series(frames: Sequence[pd.DataFrame], keys: list[str]) -> pd.DataFrame:
@@ -350,15 +471,18 @@ def segments_of_series(frames: Sequence[pd.DataFrame], keys: list[str]) -> pd.Da
 
 
 def attach_segments(actuals: pd.DataFrame, config: Config, mapping: pd.DataFrame | None,
-                    known: pd.DataFrame) -> pd.DataFrame:
+                    known: Callable[[], pd.DataFrame]) -> pd.DataFrame:
     """Segment of each actual's series: from the mapping if it has every segment column, else
-    from the forecasts that carry one; ``unassigned`` where unknown."""
+    from the forecasts that carry one (``known()``); ``unassigned`` where unknown."""
     seg_cols = list(config.segments.columns)
     if not seg_cols:
-        return actuals.assign(**{F.SEGMENT: pd.Series("*", index=actuals.index, dtype="string")})
+        return actuals.assign(**{F.SEGMENT: _constant(F_ALL, len(actuals), actuals.index)})
     if mapping is not None and all(s in mapping.columns for s in seg_cols):
         return assign_segments(actuals, config, mapping, role="actuals")
     keys = list(config.forecast.keys)
-    out = actuals.merge(known, on=keys, how="left", validate="m:1")
-    out[F.SEGMENT] = out[F.SEGMENT].astype("string").fillna(F.UNASSIGNED)
-    return out
+    table = known()
+    seg = _lookup(actuals, table, keys, [F.SEGMENT])[F.SEGMENT]
+    seg = seg.astype("category")
+    if F.UNASSIGNED not in seg.cat.categories:
+        seg = seg.cat.add_categories([F.UNASSIGNED])
+    return actuals.assign(**{F.SEGMENT: seg.fillna(F.UNASSIGNED)})

@@ -17,6 +17,7 @@ import pytest
 from accuracy_checks import demo
 from accuracy_checks.demo import Scenario, generate_scenario
 from accuracy_checks.errors import UsageError
+from accuracy_checks.results import RunReport
 
 FORECAST_COLUMNS = ["store", "product", "week", "units", "p10", "p90", "issued_on"]
 ACTUALS_COLUMNS = ["store", "product", "week", "units_sold"]
@@ -75,9 +76,12 @@ def test_generation_is_fast(tmp_path: Path, scenario: Scenario) -> None:
     assert time.perf_counter() - start < 2.0
 
 
-def test_too_few_cycles_is_a_usage_error(tmp_path: Path) -> None:
-    with pytest.raises(UsageError, match="at least 3 cycles"):
-        generate_scenario(tmp_path, cycles=2)
+def test_cycles_out_of_range_is_a_usage_error(tmp_path: Path) -> None:
+    assert demo.MAX_CYCLES == 40
+    for cycles in (2, demo.MAX_CYCLES + 1):
+        with pytest.raises(UsageError, match="3 to 40 cycles"):
+            generate_scenario(tmp_path, cycles=cycles)
+    assert not (tmp_path / "data").exists()  # refused before writing anything
 
 
 # --------------------------------------------------------------------------- schemas
@@ -322,6 +326,16 @@ def test_run_demo_tells_the_story(tmp_path: Path) -> None:
     failed = [r for r in final.results if r.status == "fail"]
     assert any(r.measure == "missing_series_pct" for r in failed)
     assert any(r.measure == "bias_pct" and r.segment == "pet-care" for r in failed)
+    # the pet-care bias builds up as the biased cycles fill the lag-1 window
+    def pet_bias(report: RunReport) -> tuple[str, float | None]:
+        (r,) = [r for r in report.results
+                if r.segment == "pet-care" and r.measure == "bias_pct" and r.lag == 1]
+        return r.status, r.value
+
+    trend = [pet_bias(r) for r in reports]
+    assert [status for status, _ in trend[-3:]] == ["pass", "warn", "fail"]
+    values = [value for _, value in trend[-3:] if value is not None]
+    assert len(values) == 3 and values == sorted(values)  # rising
     # the gap cycle warns about the incomplete series
     gap = reports[cycles.index(reference.planted.gap_cycle.isoformat())]
     assert any(r.measure == "incomplete_series" and r.status == "warn" for r in gap.results)
@@ -334,7 +348,7 @@ def test_run_demo_tells_the_story(tmp_path: Path) -> None:
 
 
 def test_top_findings_put_failures_and_distinct_kinds_first() -> None:
-    from accuracy_checks.results import CheckResult, RunReport
+    from accuracy_checks.results import CheckResult
 
     def result(status: str, check: str, segment: str, measure: str, msg: str,
                lag: int | None = None) -> CheckResult:

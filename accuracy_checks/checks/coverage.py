@@ -45,13 +45,12 @@ import pandas as pd
 
 from accuracy_checks.checks.output import (
     all_of,
-    combine_codes,
-    combined_codes,
     json_value,
     plural,
     row_examples,
     verb,
 )
+from accuracy_checks.codes import combine_codes, combined_codes
 from accuracy_checks.errors import InputError
 from accuracy_checks.frames import ACTUAL, PERIOD, SEGMENT, UNASSIGNED
 from accuracy_checks.grid import grid_dates, grid_positions

@@ -1,10 +1,14 @@
 """The registry of accuracy measures: id, label, unit, which way is better, and the formula.
 
-Every :class:`Measure` turns a statistics frame from
-:func:`~accuracy_checks.measures.stats.error_stats` (one row per group) into a frame with the
-same index and the columns ``value`` (float, NaN when undefined) and ``reason`` (``None`` or why
-the value is undefined), plus optional extra columns. All formulas are vectorised over the
-groups. Thresholds read ``direction`` and ``unit``; outputs read ``label`` and ``description``.
+One registry holds every measure: the core ones defined here (pooled from the sufficient
+statistics of :func:`~accuracy_checks.measures.stats.error_stats`), the other built-in
+families (:mod:`~accuracy_checks.measures.scaled`, ``signals``, ``value_added``,
+``probabilistic``, ``cost``), and measures that other packages add through the
+``accuracy_checks.measures`` entry-point group (:mod:`accuracy_checks.plugins`). Every
+:class:`Measure` yields, per group, the columns ``value`` (float, NaN when undefined) and
+``reason`` (``None`` or why the value is undefined), plus optional extra columns. All formulas
+are vectorised over the groups. Thresholds read ``direction`` and ``unit``; outputs read
+``label`` and ``description``.
 
 Rules (``METRICS.md``): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0`` →
 ``zero_denominator`` (Bias %, WAPE); any zero actual → ``zero_actual`` (MAPE, which then reports
@@ -24,46 +28,104 @@ Rules (``METRICS.md``): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0
 
 from __future__ import annotations
 
-from collections.abc import Callable
-from dataclasses import dataclass
-from typing import Literal
+import inspect
+import re
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
+from typing import TYPE_CHECKING, Any, Literal
 
 import numpy as np
 import pandas as pd
+
+if TYPE_CHECKING:
+    from accuracy_checks.measures.data import MeasureData, MeasureSettings
 
 __all__ = [
     "CORE_MEASURES",
     "MEASURES",
     "REASONS",
     "Direction",
+    "Levels",
     "Measure",
     "get_measure",
     "register_measure",
+    "registered_measures",
 ]
 
 #: ``lower``: lower is better; ``centered``: closer to 0 is better; ``higher``: higher is better.
 Direction = Literal["lower", "centered", "higher"]
 
 #: Reasons a measure value can be undefined.
-REASONS: tuple[str, ...] = ("zero_actual", "zero_denominator", "too_few_rows", "no_data")
+REASONS: tuple[str, ...] = (
+    "zero_actual",
+    "zero_denominator",
+    "too_few_rows",
+    "zero_scale",
+    "no_data",
+    "not_configured",
+)
+
+#: ``(warn, fail)`` levels; each ``None``, a number or a ``(low, high)`` pair.
+Levels = tuple[Any, Any]
+
+_ID = re.compile(r"^[a-z][a-z0-9_]*$")
 
 
 @dataclass(frozen=True)
 class Measure:
     """One accuracy measure.
 
-    ``from_stats(stats)`` maps a statistics frame to a frame with the same index and columns
-    ``value`` (float, NaN when undefined) and ``reason`` (object: ``None`` or one of
-    :data:`REASONS`), plus optional extra columns.
+    A measure computes its values in one of two ways:
+
+    ``from_stats(stats)``
+        from the pooled sufficient statistics of :func:`~accuracy_checks.measures.stats.
+        error_stats` (one row per group): the fast, mergeable path of the core measures;
+    ``compute(data)``
+        from a :class:`~accuracy_checks.measures.data.MeasureData`: the rows of the window
+        with their group codes, series codes, quantiles, baselines and scales.
+
+    Either returns a frame with the columns ``value`` (float, NaN when undefined) and
+    ``reason`` (``None`` or one of :data:`REASONS`), plus optional extra columns that land in
+    the result's ``details``; ``n_obs`` (rows used) replaces the group's row count. The frame
+    has one row per group (its index is the group number), or, for a measure with several
+    figures per group (one per quantile or interval), a ``group`` column and a ``variant``
+    column (``"q0.1"``, ``"80%"``) with one row per group and variant.
+
+    ``needs`` names what the config must provide (``"quantiles"``, ``"intervals"``,
+    ``"costs"``); ``window`` is ``"evaluation"`` (the ``evaluation.window`` periods) or
+    ``"tracking"`` (the ``evaluation.tracking_window`` periods). ``levels(configured, extras,
+    settings)`` turns the configured ``(warn, fail)`` (``None`` when the config sets none)
+    into the bounds that judge one value (the tracking signal's √n-scaled limit);
+    ``breach_counts(extras, settings)`` may veto a breach that chance explains (interval
+    coverage's binomial test). ``origin`` says where the measure comes from (``built-in`` or
+    the plugin's entry point).
     """
 
     id: str
     label: str
-    #: ``"%"`` (always in percent) or ``"units"`` (data units)
+    #: ``"%"`` (always in percent), ``"pp"`` (percentage points), ``"units"`` (data units),
+    #: ``"money"``, or ``""`` for a ratio without unit (MASE, tracking signal)
     unit: str
     direction: Direction
-    from_stats: Callable[[pd.DataFrame], pd.DataFrame]
-    description: str
+    from_stats: Callable[[pd.DataFrame], pd.DataFrame] | None = None
+    description: str = ""
+    compute: Callable[[MeasureData], pd.DataFrame] | None = None
+    needs: frozenset[str] = field(default_factory=frozenset)
+    window: Literal["evaluation", "tracking"] = "evaluation"
+    levels: Callable[[Levels | None, Mapping[str, Any], MeasureSettings], Levels | None] | None = (
+        None
+    )
+    breach_counts: Callable[[Mapping[str, Any], MeasureSettings], bool] | None = None
+    #: rank worst offenders by their share of the bias (else of the absolute error)
+    bias_type: bool = False
+    origin: str = "built-in"
+
+    def evaluate(self, data: MeasureData) -> pd.DataFrame:
+        """The measure's frame for ``data`` (see the class doc)."""
+        if self.compute is not None:
+            return self.compute(data)
+        assert self.from_stats is not None  # register_measure guarantees one of the two
+        return self.from_stats(data.stats)
 
 
 def _column(stats: pd.DataFrame, name: str) -> np.ndarray:
@@ -165,7 +227,7 @@ CORE_MEASURES: tuple[str, ...] = ("me", "bias_pct", "mae", "mape", "wape", "rmse
 
 
 def get_measure(measure_id: str) -> Measure:
-    """The measure registered under ``measure_id``.
+    """The measure registered under ``measure_id`` (plugins included).
 
     Raises
     ------
@@ -178,8 +240,71 @@ def get_measure(measure_id: str) -> Measure:
     try:
         return MEASURES[measure_id]
     except KeyError:
-        known = ", ".join(sorted(MEASURES))
-        raise KeyError(f"unknown measure {measure_id!r}; known measures: {known}") from None
+        pass
+    registered = registered_measures()
+    if measure_id in registered:
+        return registered[measure_id]
+    known = ", ".join(sorted(registered))
+    raise KeyError(f"unknown measure {measure_id!r}; known measures: {known}") from None
+
+
+def registered_measures() -> dict[str, Measure]:
+    """:data:`MEASURES` after loading the plugins of the ``accuracy_checks.measures``
+    entry-point group (once per process; see :mod:`accuracy_checks.plugins`)."""
+    from accuracy_checks.plugins import load_plugins
+
+    load_plugins()
+    return MEASURES
+
+
+def check_measure(measure: Measure) -> None:
+    """Raise ``ValueError`` if ``measure`` is not a usable definition (the message says why).
+
+    Checked: the id (lower-case letters, digits, ``_``), the direction, that exactly one of
+    ``from_stats``/``compute`` is given and that it takes one positional argument, and the
+    window.
+    """
+    if not isinstance(measure, Measure):
+        raise ValueError(
+            f"expected an accuracy_checks.measures.Measure, got {type(measure).__name__}"
+        )
+    if not isinstance(measure.id, str) or not _ID.match(measure.id):
+        raise ValueError(
+            f"measure id {measure.id!r} must be lower-case letters, digits and '_', starting "
+            "with a letter"
+        )
+    if measure.direction not in ("lower", "centered", "higher"):
+        raise ValueError(
+            f"measure {measure.id!r}: direction must be 'lower', 'centered' or 'higher', "
+            f"got {measure.direction!r}"
+        )
+    if measure.window not in ("evaluation", "tracking"):
+        raise ValueError(
+            f"measure {measure.id!r}: window must be 'evaluation' or 'tracking', "
+            f"got {measure.window!r}"
+        )
+    given = [n for n in ("from_stats", "compute") if getattr(measure, n) is not None]
+    if len(given) != 1:
+        raise ValueError(
+            f"measure {measure.id!r}: give exactly one of from_stats(stats) or compute(data); "
+            f"got {', '.join(given) or 'neither'}"
+        )
+    name = given[0]
+    function = getattr(measure, name)
+    if not callable(function):
+        raise ValueError(f"measure {measure.id!r}: {name} is not callable")
+    try:
+        signature = inspect.signature(function)
+    except (TypeError, ValueError):  # builtins without a signature: accept
+        return
+    try:
+        signature.bind(object())
+    except TypeError:
+        raise ValueError(
+            f"measure {measure.id!r}: {name} must take exactly one positional argument "
+            f"({'stats' if name == 'from_stats' else 'data'}); its signature is "
+            f"{name}{signature}"
+        ) from None
 
 
 def register_measure(measure: Measure, *, replace: bool = False) -> None:
@@ -188,18 +313,15 @@ def register_measure(measure: Measure, *, replace: bool = False) -> None:
     Raises
     ------
     ValueError
-        If a measure with the same id is registered and ``replace`` is false, or the measure's
-        direction or unit is not one of the allowed values.
+        If a measure with the same id is registered and ``replace`` is false, or the
+        definition is not usable (:func:`check_measure`).
     """
-    if measure.direction not in ("lower", "centered", "higher"):
-        raise ValueError(
-            f"measure {measure.id!r}: direction must be 'lower', 'centered' or 'higher', "
-            f"got {measure.direction!r}"
-        )
+    check_measure(measure)
     if measure.id in MEASURES and not replace:
+        other = MEASURES[measure.id]
         raise ValueError(
             f"a measure with id {measure.id!r} is already registered "
-            f"({MEASURES[measure.id].label}); pass replace=True to override it"
+            f"({other.label}, {other.origin}); pass replace=True to override it"
         )
     MEASURES[measure.id] = measure
 
@@ -211,6 +333,7 @@ for _measure in (
         unit="units",
         direction="centered",
         from_stats=_me,
+        bias_type=True,
         description="Σe/n with e = actual − forecast; positive = under-forecast. "
         "METRICS.md 1 (common practice).",
     ),
@@ -220,6 +343,7 @@ for _measure in (
         unit="%",
         direction="centered",
         from_stats=_bias_pct,
+        bias_type=True,
         description="100·Σe/Σ|actual| in percent, pooled (volume-weighted); positive = "
         "under-forecast. Undefined if Σ|actual| = 0. METRICS.md 2 (common practice).",
     ),

@@ -38,7 +38,7 @@ from collections.abc import Callable, Sequence
 import numpy as np
 import pandas as pd
 
-__all__ = ["STAT_COLUMNS", "error_stats", "merge_stats", "total_stats"]
+__all__ = ["STAT_COLUMNS", "error_stats", "merge_stats", "stats_from_codes", "total_stats"]
 
 #: Columns that :func:`error_stats` returns besides the group columns, in this order.
 STAT_COLUMNS: tuple[str, ...] = (
@@ -105,10 +105,26 @@ def error_stats(
     codes, keys = _group_codes(frame, by)
     y = frame[actual].to_numpy(dtype=np.float64, na_value=np.nan)
     f = frame[forecast].to_numpy(dtype=np.float64, na_value=np.nan)
+    out = stats_from_codes(codes, len(keys), y, f)
+    return pd.concat([keys.reset_index(drop=True), out], axis=1) if by else out
+
+
+def stats_from_codes(codes: np.ndarray, n_groups: int, y: FloatArray,
+                     f: FloatArray) -> pd.DataFrame:
+    """:data:`STAT_COLUMNS` per group from per-row group codes (``-1``: no group).
+
+    The engine of :func:`error_stats` for callers that already hold integer group codes
+    (``0 … n_groups − 1``); one row per group, in code order, with a ``RangeIndex``.
+
+    >>> stats_from_codes(np.array([0, 0, 1]), 2, np.array([3.0, 1.0, 2.0]),
+    ...                  np.array([1.0, 1.0, np.nan]))[["n", "n_dropped", "sum_e", "m2_e"]]
+       n  n_dropped  sum_e  m2_e
+    0  2          0    2.0   2.0
+    1  0          1    0.0   0.0
+    """
     if codes.size and codes.min() < 0:  # rows with a missing group key belong to no group
         inside = codes >= 0
         codes, y, f = codes[inside], y[inside], f[inside]
-    n_groups = len(keys)
 
     def gsum(weights: FloatArray) -> FloatArray:
         return np.bincount(codes, weights=weights, minlength=n_groups)
@@ -133,19 +149,19 @@ def error_stats(
         # Centred pass: each used row is a part with n_i = 1, mean_i = e, m2_i = 0.
         mean_e, m2_e = _centred(codes, n, valid.astype(np.float64), e, sum_e, None, gsum)
 
-    out = keys
-    out["n"] = n
-    out["n_dropped"] = n_rows - n
-    out["sum_e"] = sum_e
-    out["sum_abs_e"] = sum_abs_e
-    out["sum_sq_e"] = sum_sq_e
-    out["mean_e"] = mean_e
-    out["m2_e"] = m2_e
-    out["sum_abs_y"] = sum_abs_y
-    out["sum_ape"] = sum_ape
-    out["n_zero_y"] = n_zero_y
-    out["n_negative_y"] = n_negative_y
-    return out
+    return pd.DataFrame({
+        "n": n,
+        "n_dropped": n_rows - n,
+        "sum_e": sum_e,
+        "sum_abs_e": sum_abs_e,
+        "sum_sq_e": sum_sq_e,
+        "mean_e": mean_e,
+        "m2_e": m2_e,
+        "sum_abs_y": sum_abs_y,
+        "sum_ape": sum_ape,
+        "n_zero_y": n_zero_y,
+        "n_negative_y": n_negative_y,
+    })
 
 
 def merge_stats(parts: Sequence[pd.DataFrame], by: Sequence[str]) -> pd.DataFrame:

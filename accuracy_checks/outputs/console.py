@@ -6,9 +6,11 @@ Layout, failures first (:func:`~accuracy_checks.results.sort_for_display`):
    word, check, segment, lag, measure, value in words, thresholds — with ``verbose=True``
    the passing and skipped results are listed too;
 2. a line counting what is not listed (passes, and skips with their reasons);
-3. the findings of the non-accuracy checks that need attention, each as its sentence with the
-   first 3 examples (offending rows) under it (accuracy rows say all in the table);
-4. the one-line headline (verdict, counts, cycle).
+3. when an accuracy result needs attention, the compact lag-by-segment overview
+   (:mod:`~accuracy_checks.outputs.lag_table`);
+4. the findings of the non-accuracy checks that need attention, and the accuracy failures
+   with worst offenders, each as its sentence with the first 3 examples under it;
+5. the one-line headline (verdict, counts, cycle).
 
 The status is always a word (FAIL, WARN…), colour only adds to it. Text from the data
 (segment names, messages, examples) is never read as markup. Outside a real terminal the
@@ -26,6 +28,7 @@ from rich.console import Console
 from rich.table import Table
 from rich.text import Text
 
+from accuracy_checks.outputs.lag_table import lag_table, measure_name
 from accuracy_checks.outputs.wording import (
     count_summary,
     describe_value,
@@ -43,6 +46,8 @@ __all__ = ["render_console"]
 LOG_WIDTH = 140
 #: Examples shown under each failure.
 MAX_EXAMPLES = 3
+#: Segments of the lag-by-segment overview.
+MAX_OVERVIEW_ROWS = 20
 
 _ATTENTION = ("fail", "error", "warn", "waived")
 _STYLES: dict[str, str] = {
@@ -103,11 +108,31 @@ def _results_table(results: list[CheckResult], ascii_box: bool) -> Table:
             _cell(result.check),
             _cell(result.segment),
             _cell(result.lag),
-            _cell(result.measure),
+            _cell(measure_name(result) if result.measure else None),
             _cell(describe_value(result)),
             _cell(", ".join(threshold_parts(result)) or "none"),
         )
     return table
+
+
+def _lag_overview(results: list[CheckResult], ascii_box: bool) -> tuple[str, Table] | None:
+    """The title and table of the lag-by-segment overview, when an accuracy result needs
+    attention."""
+    if not any(r.check == "accuracy" and r.status in ("fail", "error", "warn") for r in results):
+        return None
+    overview = lag_table(results, max_rows=MAX_OVERVIEW_ROWS)
+    if overview is None:
+        return None
+    title = f"Accuracy by lag ({overview.headline}; worst status of any measure)"
+    if overview.hidden:
+        title += f", first {MAX_OVERVIEW_ROWS} segments"
+    table = Table(box=box.ASCII if ascii_box else box.SIMPLE_HEAVY, show_edge=not ascii_box,
+                  pad_edge=False, header_style="bold", expand=False)
+    for i, name in enumerate(overview.header):
+        table.add_column(name, overflow="fold", justify="left" if i == 0 else "right")
+    for row in overview.rows:
+        table.add_row(*(_cell(c) for c in row))
+    return title + ":", table
 
 
 def _example_lines(result: CheckResult) -> list[Text]:
@@ -159,7 +184,15 @@ def _print_report(console: Console, report: RunReport, *, verbose: bool) -> None
     elif rest:
         console.print(Text(f"{rest}."))
 
-    findings = [r for r in ordered if r.status in _ATTENTION and r.check != "accuracy"]
+    overview = _lag_overview(report.results, ascii_box)
+    if overview is not None:
+        console.print()
+        console.print(Text(overview[0]))
+        console.print(overview[1])
+
+    # accuracy results say all in the tables, except the worst offenders of a failure
+    findings = [r for r in ordered if r.status in _ATTENTION
+                and (r.check != "accuracy" or (r.status == "fail" and r.examples))]
     for result in findings:
         console.print()
         title = Text()

@@ -9,8 +9,10 @@ Sections, in order:
 3. "Accuracy by segment": rows = segments (``*`` first, then by name), columns = the
    accuracy measures present, for the first (smallest) lag; cells are plain numbers with
    their unit, a status word added when not passing;
-4. the counts of passes and skips (with the reasons of skips);
-5. the first 3 examples (offending rows) of each failure, error and warning, inside a
+4. "Accuracy by lag and segment": rows = segments, columns = lags, cells = the headline
+   measure with the worst status of any measure (:mod:`~accuracy_checks.outputs.lag_table`);
+5. the counts of passes and skips (with the reasons of skips);
+6. the first 3 examples (offending rows) of each failure, error and warning, inside a
    collapsible ``<details>`` block.
 
 Every text that comes from data or config (segment names, messages, examples, cycle) is
@@ -27,6 +29,7 @@ import os
 from collections.abc import Iterable, Mapping, Sequence
 
 from accuracy_checks.outputs.jsonfile import write_text_atomic
+from accuracy_checks.outputs.lag_table import lag_table, measure_name
 from accuracy_checks.outputs.wording import (
     count_summary,
     describe_value,
@@ -124,7 +127,7 @@ def _attention_section(results: list[CheckResult]) -> list[str]:
             escape_cell(r.check),
             escape_cell(r.segment),
             "" if r.lag is None else str(r.lag),
-            escape_cell(r.measure),
+            escape_cell(measure_name(r) if r.measure else None),
             escape_cell(describe_value(r)),
             escape_cell(", ".join(threshold_parts(r)) or "none"),
             escape_cell(r.message),
@@ -165,7 +168,7 @@ def _segment_section(results: list[CheckResult]) -> list[str]:
     cells: dict[tuple[str, str], CheckResult] = {}
     for r in sort_for_display(accuracy):  # the worst result wins a (segment, measure) cell
         if r.lag == first_lag:
-            cells.setdefault((str(r.segment), str(r.measure)), r)
+            cells.setdefault((str(r.segment), measure_name(r)), r)
     if not cells:
         return []
     measures = sorted({m for _, m in cells}, key=_measure_key)
@@ -180,6 +183,21 @@ def _segment_section(results: list[CheckResult]) -> list[str]:
     lines += _table(["segment", *measures], rows, ("---", *("--:" for _ in measures)))
     if len(segments) > MAX_SEGMENT_ROWS:
         lines += ["", f"… and {len(segments) - MAX_SEGMENT_ROWS} more segments."]
+    return lines
+
+
+def _lag_section(results: list[CheckResult]) -> list[str]:
+    """The compact lag-by-segment table (:mod:`~accuracy_checks.outputs.lag_table`)."""
+    overview = lag_table(results, max_rows=MAX_SEGMENT_ROWS)
+    if overview is None:
+        return []
+    rows = [[escape_cell(cell) for cell in row] for row in overview.rows]
+    title = (f"### Accuracy by lag and segment ({escape_cell(overview.headline)}; "
+             "worst status of any measure)")
+    lines = [title, ""]
+    lines += _table(overview.header, rows, ("---", *("--:" for _ in overview.header[1:])))
+    if overview.hidden:
+        lines += ["", f"… and {overview.hidden} more segments."]
     return lines
 
 
@@ -228,6 +246,9 @@ def render_markdown(report: RunReport) -> str:
     segment_lines = _segment_section(ordered)
     if segment_lines:
         lines += ["", *segment_lines]
+    lag_lines = _lag_section(ordered)
+    if lag_lines:
+        lines += ["", *lag_lines]
     rest = count_summary(ordered, ("pass", "skipped"))
     if rest:
         lines += ["", escape_cell(f"{rest[0].upper()}{rest[1:]}.")]

@@ -1,0 +1,198 @@
+"""Read-side queries of the audit store: run history and current breaches.
+
+Every query is built with SQLAlchemy Core and bound parameters: a segment named
+``x'); DROP TABLE runs;--`` is a value like any other.
+"""
+
+from __future__ import annotations
+
+import json
+from collections.abc import Sequence
+from datetime import UTC, date, datetime, time, timedelta
+from typing import Any
+
+from sqlalchemy import ColumnElement, Connection, and_, case, func, select
+
+from accuracy_checks.store.schema import results, runs
+
+#: result statuses that count as a breach in :func:`breaches` (a waived breach still is one)
+BREACH = ("warn", "fail", "waived")
+#: result statuses that judge a figure (skipped and error ones say nothing about it)
+JUDGED = ("pass", "warn", "fail", "waived")
+
+RUN_COLUMNS = (
+    "run_id", "cycle", "attempt", "status", "started_at", "finished_at", "recorded_at",
+    "label", "host", "os_user", "tool_version", "config_path", "config_hash", "counts",
+    "inputs", "evaluated_cycles", "snapshot",
+)
+RESULT_COLUMNS = (
+    "check_name", "status", "segment", "lag", "measure", "value", "unit", "warn", "fail",
+    "n_series", "n_obs", "reason", "message", "waiver_id",
+)
+
+
+def _utc_iso(value: Any) -> str | None:
+    if value is None:
+        return None
+    if isinstance(value, datetime):
+        value = value.replace(tzinfo=UTC) if value.tzinfo is None else value.astimezone(UTC)
+        return value.isoformat()
+    return str(value)
+
+
+def _json(value: str | None) -> Any:
+    return None if value is None else json.loads(value)
+
+
+def day_start(day: date) -> datetime:
+    """00:00 UTC of ``day``."""
+    return datetime.combine(day, time(0), tzinfo=UTC)
+
+
+def history(conn: Connection, *, cycle: str | None = None, segment: str | None = None,
+            measure: str | None = None, status: str | None = None,
+            since: date | None = None, until: date | None = None, label: str | None = None,
+            limit: int | None = None) -> list[dict[str, Any]]:
+    """Recorded runs, oldest first (with ``limit``: the newest ``limit`` runs).
+
+    ``since``/``until`` are UTC dates, both inclusive, on ``started_at``. ``segment``,
+    ``measure`` and ``status`` filter results: only runs with a matching result are listed,
+    and each carries its matching ``results``. Without them runs carry no results.
+    """
+    where: list[ColumnElement[bool]] = []
+    if cycle is not None:
+        where.append(runs.c.cycle == cycle)
+    if label is not None:
+        where.append(runs.c.label == label)
+    if since is not None:
+        where.append(runs.c.started_at >= day_start(since))
+    if until is not None:
+        where.append(runs.c.started_at < day_start(until + timedelta(days=1)))
+    result_where: list[ColumnElement[bool]] = []
+    if segment is not None:
+        result_where.append(results.c.segment == segment)
+    if measure is not None:
+        result_where.append(results.c.measure == measure)
+    if status is not None:
+        result_where.append(results.c.status == status)
+    if result_where:
+        where.append(runs.c.id.in_(select(results.c.run_pk).where(*result_where)))
+
+    q = select(runs).where(*where).order_by(runs.c.started_at.desc(), runs.c.id.desc())
+    if limit is not None:
+        q = q.limit(limit)
+    rows = list(conn.execute(q).mappings())[::-1]
+    out = [_run_dict(r) for r in rows]
+    if result_where and out:
+        pks = [r["id"] for r in rows]
+        by_pk: dict[int, list[dict[str, Any]]] = {pk: [] for pk in pks}
+        for chunk in _chunks(pks, 500):
+            q = (select(results.c.run_pk, *(results.c[c] for c in RESULT_COLUMNS))
+                 .where(results.c.run_pk.in_(chunk), *result_where)
+                 .order_by(results.c.run_pk, results.c.seq))
+            for r in conn.execute(q).mappings():
+                by_pk[r["run_pk"]].append(result_dict(r))
+        for run, pk in zip(out, pks, strict=True):
+            run["results"] = by_pk[pk]
+    return out
+
+
+def _chunks(items: Sequence[int], n: int) -> list[Sequence[int]]:
+    return [items[i:i + n] for i in range(0, len(items), n)]
+
+
+def _run_dict(row: Any) -> dict[str, Any]:
+    out: dict[str, Any] = {}
+    for c in RUN_COLUMNS:
+        value = row[c]
+        if c in ("started_at", "finished_at", "recorded_at"):
+            value = _utc_iso(value)
+        elif c in ("counts", "inputs", "evaluated_cycles"):
+            value = _json(value)
+        out[c] = value
+    out["user"] = out.pop("os_user")
+    return out
+
+
+def result_dict(row: Any) -> dict[str, Any]:
+    """A stored result as in the JSON contract (``check`` for ``check_name``)."""
+    out = {c: row[c] for c in RESULT_COLUMNS}
+    out["check"] = out.pop("check_name")
+    out["warn"] = _json(out["warn"])
+    out["fail"] = _json(out["fail"])
+    return out
+
+
+def breaches(conn: Connection, *, segment: str | None = None,
+             measure: str | None = None) -> list[dict[str, Any]]:
+    """Figures breached now: check × segment × measure × lag whose latest judged result is
+    ``warn``, ``fail`` or ``waived``.
+
+    Each cycle counts once, by its last recorded attempt that judged the figure. For each
+    figure: ``first_cycle`` of the current unbroken run of breached cycles, ``cycles`` (how
+    many in a row), ``last_cycle``/``last_attempt``, the last ``status``, ``value``, ``unit``,
+    ``warn``/``fail`` bounds and ``waiver_id`` of the last result. Skipped and error results
+    neither break nor extend a run. Computed in SQL (window functions), not in Python.
+    """
+    key = [results.c.check_name, results.c.segment, results.c.measure, results.c.lag]
+    where: list[ColumnElement[bool]] = [
+        results.c.measure.is_not(None), runs.c.cycle.is_not(None), results.c.status.in_(JUDGED)]
+    if segment is not None:
+        where.append(results.c.segment == segment)
+    if measure is not None:
+        where.append(results.c.measure == measure)
+    per_cycle = (
+        select(*key, results.c.status, results.c.value, results.c.unit, results.c.warn,
+               results.c.fail, results.c.waiver_id, runs.c.cycle, runs.c.attempt,
+               func.row_number().over(partition_by=[*key, runs.c.cycle],
+                                      order_by=[runs.c.attempt.desc(), runs.c.id.desc()])
+               .label("rn"))
+        .join(runs, runs.c.id == results.c.run_pk)
+        .where(*where)
+        .cte("per_cycle")
+    )
+    pkey = [per_cycle.c.check_name, per_cycle.c.segment, per_cycle.c.measure, per_cycle.c.lag]
+    ranked = (
+        select(per_cycle,
+               func.row_number().over(partition_by=pkey, order_by=per_cycle.c.cycle.desc())
+               .label("k"))
+        .where(per_cycle.c.rn == 1)
+        .cte("ranked")
+    )
+    rkey = [ranked.c.check_name, ranked.c.segment, ranked.c.measure, ranked.c.lag]
+    first_ok = func.min(case((~ranked.c.status.in_(BREACH), ranked.c.k), else_=None)) \
+        .over(partition_by=rkey)
+    n = func.count().over(partition_by=rkey)
+    streaked = select(ranked, first_ok.label("first_ok"), n.label("n")).cte("streaked")
+    in_streak = streaked.c.k < func.coalesce(streaked.c.first_ok, streaked.c.n + 1)
+    skey = [streaked.c.check_name, streaked.c.segment, streaked.c.measure, streaked.c.lag]
+    final = select(
+        streaked,
+        func.min(case((in_streak, streaked.c.cycle), else_=None)).over(partition_by=skey)
+        .label("first_cycle"),
+    ).cte("final")
+    q = (
+        select(final)
+        .where(and_(final.c.k == 1, final.c.status.in_(BREACH)))
+        .order_by(final.c.segment, final.c.measure, final.c.lag, final.c.check_name)
+    )
+    out = []
+    for r in conn.execute(q).mappings():
+        first_ok_k = r["first_ok"]
+        out.append({
+            "check": r["check_name"],
+            "segment": r["segment"],
+            "measure": r["measure"],
+            "lag": r["lag"],
+            "status": r["status"],
+            "first_cycle": r["first_cycle"],
+            "cycles": int(first_ok_k - 1) if first_ok_k is not None else int(r["n"]),
+            "last_cycle": r["cycle"],
+            "last_attempt": r["attempt"],
+            "value": r["value"],
+            "unit": r["unit"],
+            "warn": _json(r["warn"]),
+            "fail": _json(r["fail"]),
+            "waiver_id": r["waiver_id"],
+        })
+    return out

@@ -1,0 +1,299 @@
+"""Turning a :class:`~accuracy_checks.results.RunReport` into audit rows, and the digest chain.
+
+A run is recorded as one ``runs`` row and one ``results`` row per check result, inserted in
+one transaction with a single multi-row ``executemany`` for the results (tens of thousands of
+rows take a fraction of a second on SQLite).
+
+**Digest chain** (tamper evidence): each run row carries ``digest`` =
+SHA-256(previous run's digest ‖ canonical JSON of this run's row ‖ canonical JSON of its
+result rows), the canonical JSON being sorted keys, no whitespace, timestamps as ISO 8601 in
+UTC. Editing, inserting or deleting any recorded run or result breaks the chain from there on;
+:meth:`accuracy_checks.store.Store.verify` recomputes it.
+
+**Input fingerprints**: for each input file (forecast, actuals, history, mapping) its path,
+SHA-256, size in bytes and, where known, its row count; a folder is hashed as the SHA-256 of
+its files' relative names and SHA-256s, in name order.
+"""
+
+from __future__ import annotations
+
+import getpass
+import hashlib
+import json
+import math
+import os
+import socket
+from collections.abc import Sequence
+from datetime import UTC, datetime
+from pathlib import Path
+from typing import TYPE_CHECKING, Any
+
+from sqlalchemy import Connection
+
+from accuracy_checks.results import CheckResult, RunReport
+from accuracy_checks.store.urls import mask_secrets
+
+if TYPE_CHECKING:
+    from accuracy_checks.config import Config
+
+#: the run fields covered by the digest (every column but ``id`` and ``digest``)
+RUN_FIELDS = (
+    "run_id", "cycle", "attempt", "status", "started_at", "finished_at", "recorded_at",
+    "tool_version", "config_path", "config_text", "config_hash", "inputs", "evaluated_cycles",
+    "counts", "snapshot", "host", "os_user", "label",
+)
+#: the result fields covered by the digest (every column but ``id`` and ``run_pk``)
+RESULT_FIELDS = (
+    "seq", "check_name", "status", "segment", "lag", "measure", "value", "warn", "fail",
+    "n_series", "n_obs", "message", "reason", "examples", "unit", "details", "waiver_id",
+)
+
+
+def tool_version() -> str:
+    from accuracy_checks import __version__
+
+    return __version__
+
+
+def parse_time(value: str | datetime | None) -> datetime | None:
+    """An aware UTC datetime from an ISO string or datetime (naive means UTC).
+
+    >>> parse_time("2026-03-02T06:00:00+01:00").isoformat()
+    '2026-03-02T05:00:00+00:00'
+    """
+    if value is None or value == "":
+        return None
+    dt = value if isinstance(value, datetime) else datetime.fromisoformat(value)
+    return dt.replace(tzinfo=UTC) if dt.tzinfo is None else dt.astimezone(UTC)
+
+
+def iso(value: datetime | None) -> str | None:
+    """ISO 8601 in UTC with seconds (microseconds when present); ``None`` stays ``None``."""
+    value = parse_time(value)
+    return None if value is None else value.isoformat()
+
+
+def dumps(value: Any) -> str:
+    """Canonical JSON: sorted keys, no spaces, NaN/inf as null, other objects as strings.
+
+    >>> dumps({"b": float("nan"), "a": [1, 2.5]})
+    '{"a":[1,2.5],"b":null}'
+    """
+    try:  # the fast path: plain JSON values without NaN/inf
+        return _ENCODER.encode(value)
+    except ValueError:
+        return _ENCODER.encode(_finite(value))
+
+
+_ENCODER = json.JSONEncoder(sort_keys=True, separators=(",", ":"), allow_nan=False,
+                            ensure_ascii=False, default=str)
+
+
+def _finite(value: Any) -> Any:
+    if isinstance(value, float) and not math.isfinite(value):
+        return None
+    if isinstance(value, dict):
+        return {str(k): _finite(v) for k, v in value.items()}
+    if isinstance(value, list | tuple):
+        return [_finite(v) for v in value]
+    return value
+
+
+def os_user() -> str:
+    try:
+        return getpass.getuser()
+    except Exception:  # no passwd entry (some containers)
+        return f"uid {os.getuid()}" if hasattr(os, "getuid") else "unknown"
+
+
+def config_record(config: Config | None) -> tuple[str | None, str | None, str | None]:
+    """(path, text with passwords masked, SHA-256 of that text) of the config.
+
+    The hash covers the text as stored, so the record can be checked against itself; it is
+    the file's own SHA-256 whenever the file holds no password.
+    """
+    if config is None:
+        return None, None, None
+    raw = config.text or config.model_dump_json()
+    shown = mask_secrets(raw)
+    path = str(config.source) if config.source else None
+    return path, shown, hashlib.sha256(shown.encode("utf-8")).hexdigest()
+
+
+def run_row(report: RunReport, *, config: Config | None, fingerprints: dict[str, Any] | None,
+            recorded_at: datetime) -> dict[str, Any]:
+    """The ``runs`` row of ``report`` (``attempt``, ``snapshot`` and ``digest`` set later)."""
+    path, text, digest = config_record(config)
+    inputs = fingerprints if fingerprints is not None else report.inputs
+    return {
+        "run_id": report.run_id,
+        "cycle": report.cycle,
+        "attempt": None,
+        "status": report.status,
+        "started_at": parse_time(report.started_at) or recorded_at,
+        "finished_at": parse_time(report.finished_at),
+        "recorded_at": recorded_at,
+        "tool_version": tool_version(),
+        "config_path": path or report.config_path,
+        "config_text": text,
+        "config_hash": digest,
+        "inputs": dumps(_mask_paths(inputs)),
+        "evaluated_cycles": dumps(report.evaluated_cycles),
+        "counts": dumps(report.counts()),
+        "snapshot": None,
+        "host": socket.gethostname(),
+        "os_user": os_user(),
+        "label": getattr(report, "label", None),
+    }
+
+
+def _mask_paths(value: Any) -> Any:
+    # input "paths" may be URLs (object stores, databases): never keep a password from them
+    if isinstance(value, str):
+        return mask_secrets(value)
+    if isinstance(value, dict):
+        return {k: _mask_paths(v) for k, v in value.items()}
+    if isinstance(value, list):
+        return [_mask_paths(v) for v in value]
+    return value
+
+
+def _number(x: Any) -> str:
+    x = float(x)
+    return repr(x) if math.isfinite(x) else "null"
+
+
+def _bound(bound: Any) -> str | None:
+    """A threshold level as JSON text: ``25.0`` or ``[-5.0,8.0]``."""
+    if bound is None:
+        return None
+    if isinstance(bound, tuple | list):
+        return f"[{_number(bound[0])},{_number(bound[1])}]"
+    return _number(bound)
+
+
+def result_rows(results: Sequence[CheckResult]) -> list[tuple[Any, ...]]:
+    """One ``results`` row per check result, in report order (``seq`` from 0), as a tuple in
+    :data:`RESULT_FIELDS` order.
+
+    A loop over results (one per segment × lag × measure), not over data rows.
+    """
+    rows = []
+    bounds: dict[Any, str | None] = {}
+    for seq, r in enumerate(results):
+        value = r.value
+        if value is not None:
+            value = float(value)
+            if not math.isfinite(value):
+                value = None
+        details = r.details
+        waiver = details.get("waiver") if details else None
+        warn, fail = r.warn, r.fail
+        if warn not in bounds:
+            bounds[warn] = _bound(warn)
+        if fail not in bounds:
+            bounds[fail] = _bound(fail)
+        rows.append((
+            seq, r.check, r.status, r.segment, None if r.lag is None else int(r.lag),
+            r.measure, value, bounds[warn], bounds[fail],
+            None if r.n_series is None else int(r.n_series),
+            None if r.n_obs is None else int(r.n_obs),
+            r.message, r.reason, dumps(r.examples) if r.examples else None, r.unit,
+            dumps(details) if details else None,
+            int(waiver["id"]) if isinstance(waiver, dict) and "id" in waiver else None,
+        ))
+    return rows
+
+
+def chain_digest(previous: str | None, run: dict[str, Any],
+                 rows: Sequence[Sequence[Any]]) -> str:
+    """SHA-256 of: the previous digest, a newline, the run row as canonical JSON (its
+    :data:`RUN_FIELDS`, timestamps in ISO 8601 UTC), a newline, and the result rows as one
+    JSON array of arrays (fields in :data:`RESULT_FIELDS` order, floats as shortest repr)."""
+    head = dumps({k: _canon(run.get(k)) for k in RUN_FIELDS})
+    body = _ENCODER.encode([list(r) for r in rows])
+    payload = f"{previous or ''}\n{head}\n{body}"
+    return hashlib.sha256(payload.encode("utf-8")).hexdigest()
+
+
+def _canon(value: Any) -> Any:
+    if isinstance(value, datetime):
+        return iso(value)
+    return value
+
+
+# ------------------------------------------------------------------------ input fingerprints
+
+
+def file_fingerprint(path: Path) -> dict[str, Any]:
+    """``{"path", "sha256", "bytes"}`` of a file, or of a folder's files (see module doc)."""
+    path = Path(path)
+    if path.is_dir():
+        h = hashlib.sha256()
+        size = 0
+        for f in sorted(p for p in path.rglob("*") if p.is_file()):
+            digest, n = _sha256(f)
+            h.update(f"{f.relative_to(path).as_posix()}\0{digest}\n".encode())
+            size += n
+        return {"path": str(path), "sha256": h.hexdigest(), "bytes": size}
+    if path.is_file():
+        digest, n = _sha256(path)
+        return {"path": str(path), "sha256": digest, "bytes": n}
+    return {"path": str(path), "sha256": None, "bytes": None}
+
+
+def _sha256(path: Path) -> tuple[str, int]:
+    with open(path, "rb") as fh:
+        digest = hashlib.file_digest(fh, "sha256").hexdigest()
+        return digest, fh.tell()
+
+
+def input_fingerprints(config: Config, info: dict[str, Any], *,
+                       forecast_path: Path | None = None,
+                       actuals_path: Path | None = None) -> dict[str, Any]:
+    """Fingerprints of every input of a run, with the row counts from the run's ``info``."""
+    out: dict[str, Any] = {}
+    for role, path in (("forecast", forecast_path or config.forecast.path),
+                       ("actuals", actuals_path or config.actuals.path)):
+        entry = file_fingerprint(path)
+        seen = info.get(role)
+        if isinstance(seen, dict):
+            entry.update({k: v for k, v in seen.items() if k != "path"})
+        out[role] = entry
+    if config.history_paths:
+        out["history"] = [file_fingerprint(p) for p in config.history_paths]
+    if config.segments.mapping is not None:
+        out["mapping"] = file_fingerprint(config.segments.mapping)
+    earlier = info.get("earlier")
+    if isinstance(earlier, dict):
+        out["earlier"] = dict(earlier)
+    return out
+
+
+def insert_results(conn: Connection, run_pk: int, rows: Sequence[Sequence[Any]]) -> None:
+    """Insert result rows in bulk: ``COPY … FROM STDIN`` on PostgreSQL (psycopg 3), one
+    ``executemany`` through the driver elsewhere (no per-row work in SQLAlchemy). Values
+    travel as data (COPY rows or bound parameters), never as SQL text."""
+    if not rows:
+        return
+    from accuracy_checks.store.schema import results
+
+    names = ("run_pk", *RESULT_FIELDS)
+    quote = conn.dialect.identifier_preparer.quote
+    columns = ", ".join(quote(n) for n in names)
+    if conn.dialect.name == "postgresql" and conn.dialect.driver == "psycopg":
+        raw = conn.connection.driver_connection
+        with raw.cursor() as cur, cur.copy(  # type: ignore[union-attr]
+                f"COPY {quote(results.name)} ({columns}) FROM STDIN") as copy:
+            for r in rows:
+                copy.write_row((run_pk, *r))
+        return
+    style = conn.dialect.paramstyle
+    if style in ("qmark", "format", "pyformat"):
+        mark = "?" if style == "qmark" else "%s"
+        sql = (f"INSERT INTO {quote(results.name)} ({columns}) "
+               f"VALUES ({', '.join([mark] * len(names))})")
+        conn.exec_driver_sql(sql, [(run_pk, *r) for r in rows])
+    else:  # any other driver: SQLAlchemy's own executemany
+        conn.execute(results.insert(), [dict(zip(names, (run_pk, *r), strict=True))
+                                        for r in rows])
