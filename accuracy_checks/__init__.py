@@ -29,11 +29,14 @@ __all__ = [
     "ConfigError",
     "GateFailed",
     "InputError",
+    "Measure",
+    "MeasureData",
     "RunReport",
     "UsageError",
     "__version__",
     "evaluation_frame",
     "load_config",
+    "register_measure",
     "run_checks",
 ]
 
@@ -41,9 +44,12 @@ if TYPE_CHECKING:
     from accuracy_checks.api import evaluation_frame
     from accuracy_checks.config import load_config
     from accuracy_checks.engine import run_checks
+    from accuracy_checks.measures import Measure, MeasureData, register_measure
 
 _LAZY = {"load_config": "accuracy_checks.config", "run_checks": "accuracy_checks.engine",
-         "evaluation_frame": "accuracy_checks.api"}
+         "evaluation_frame": "accuracy_checks.api", "Measure": "accuracy_checks.measures",
+         "MeasureData": "accuracy_checks.measures",
+         "register_measure": "accuracy_checks.measures"}
 
 
 def __getattr__(name: str) -> Any:

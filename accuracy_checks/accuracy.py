@@ -625,6 +625,15 @@ def measures_to_report(config: Config) -> list[str]:
     return [*CORE_MEASURES, *extra]
 
 
+def evaluation_span(config: Config) -> int:
+    """How many of the most recent periods with actuals the evaluation reads: the window, or
+    the tracking window when a tracking measure is reported and it is longer."""
+    measures = measures_to_report(config)
+    tracking = any(get_measure(m).window == "tracking" for m in measures)
+    window = config.evaluation.window
+    return max(window, config.evaluation.tracking_window) if tracking else window
+
+
 def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *,
                  book: ThresholdBook) -> list[CheckResult]:
     """The accuracy results of a run: evaluation frame → measures → judged results, plus a

@@ -11,11 +11,12 @@ then integer arithmetic:
 - ``scales(m, before)``: per series, ``s = mean |y_t − y_{t−m}|`` over the periods before
   ``before`` where both actuals exist (METRICS.md 9).
 
-Storage is a dense ``series × periods`` matrix when the actuals fill most of it (a retailer's
-weekly history: no sort, one scatter), else the sorted ``(series, period)`` keys with binary
-search. Both give the same answers. Only actuals dated exactly on the grid are indexed; a
-row dated off the grid matches nothing (the join of :mod:`accuracy_checks.evaluation` then
-falls back to an exact-date join for those rows).
+Storage is a dense ``periods × series`` matrix when the actuals fill most of it (a retailer's
+weekly history: no sort, one scatter; time-major, so a period's actuals are contiguous), else
+the sorted ``(series, period)`` keys with binary search. Both give the same answers. Only
+actuals dated exactly on the grid are indexed; a row dated off the grid matches nothing (the
+join of :mod:`accuracy_checks.evaluation` then falls back to an exact-date join for those
+rows).
 
 What is "known at a cycle's issue date" ``d``: the actuals of periods dated before ``d``. On the
 grid these are the positions up to ``known_through(d) = ceil_position(d) − 1``.
@@ -152,9 +153,13 @@ class ActualsIndex:
             comb = comb * size + np.maximum(codes, 0)
         self._radix = radix
         cells = float(np.prod(np.array(radix, dtype=np.float64))) if radix else 1.0
-        period = actuals[F.PERIOD]
-        pos, on_grid = grid_positions(period, frequency)
-        valid &= np.asarray(on_grid, dtype=bool) & period.notna().to_numpy()
+        # grid positions of the distinct periods only (a history repeats each period per series)
+        period_codes, periods = pd.factorize(actuals[F.PERIOD])
+        upos, uon = grid_positions(pd.Series(periods), frequency)
+        upos = np.append(upos, 0)  # code −1 (a missing period) → position 0, off the grid
+        uon = np.append(np.asarray(uon, dtype=bool), False)
+        pos = upos[period_codes]
+        valid &= uon[period_codes]
         comb = comb[valid]
         pos = pos[valid]
         values = actuals[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)[valid]
@@ -182,9 +187,9 @@ class ActualsIndex:
             _DENSE_CELLS_PER_ROW * comb.size, _DENSE_MIN_CELLS
         )
         self._last: np.ndarray | None = None
-        if self._dense:
-            self._matrix = np.full((max(self.n_series, 1), self.span), np.nan)
-            self._matrix[series, col] = values
+        if self._dense:  # time-major: a period's actuals are contiguous
+            self._matrix = np.full((self.span, max(self.n_series, 1)), np.nan)
+            self._matrix[col, series] = values
         else:
             key = series * self.span + col
             order = np.argsort(key, kind="stable")
@@ -239,7 +244,7 @@ class ActualsIndex:
         ok, col = self._cells(series, pos)
         out = np.full(series.shape, np.nan)
         if self._dense:
-            out[ok] = self._matrix[series[ok], col[ok]]
+            out[ok] = self._matrix[col[ok], series[ok]]
             return out
         key = series[ok] * self.span + col[ok]
         at = np.searchsorted(self._keys, key)
@@ -259,9 +264,9 @@ class ActualsIndex:
         if self._dense:
             last = self._last_index()
             j = np.full(series.shape, -1, dtype=np.int64)
-            j[ok] = last[series[ok], col[ok]]
+            j[ok] = last[col[ok], series[ok]]
             got = j >= 0
-            out[got] = self._matrix[series[got], j[got]]
+            out[got] = self._matrix[j[got], series[got]]
             return out
         if self._vkeys.size == 0:
             return out
@@ -275,21 +280,22 @@ class ActualsIndex:
         return out
 
     def _last_index(self) -> np.ndarray:
-        """Per (series, column): the column of the last non-missing actual up to it, or −1."""
+        """Per (period, series): the period of the last non-missing actual up to it, or −1."""
         if self._last is None:
             dtype = np.int16 if self.span < (1 << 15) else np.int32
             last = np.empty(self._matrix.shape, dtype=dtype)
-            ramp = np.arange(self.span, dtype=dtype)
+            ramp = np.arange(self.span, dtype=dtype)[:, None]
             for start, stop in self._blocks():
-                block = np.where(np.isnan(self._matrix[start:stop]), dtype(-1), ramp)
-                last[start:stop] = np.maximum.accumulate(block, axis=1)
+                block = np.where(np.isnan(self._matrix[:, start:stop]), dtype(-1), ramp)
+                last[:, start:stop] = np.maximum.accumulate(block, axis=0)
             self._last = last
         return self._last
 
     def _blocks(self) -> list[tuple[int, int]]:
-        rows = max(self._matrix.shape[0], 1)
+        """Blocks of series (matrix columns) of about ``_BLOCK_CELLS`` cells."""
+        columns = max(self._matrix.shape[1], 1)
         step = max(1, _BLOCK_CELLS // max(self.span, 1))
-        return [(s, min(s + step, rows)) for s in range(0, rows, step)]
+        return [(s, min(s + step, columns)) for s in range(0, columns, step)]
 
     # ------------------------------------------------------------------ scales
 
@@ -308,11 +314,11 @@ class ActualsIndex:
         if self.n_series and stop_col > m:
             if self._dense:
                 for start, stop in self._blocks():
-                    block = self._matrix[start:stop, :stop_col]
-                    diff = np.abs(block[:, m:] - block[:, :-m])
+                    block = self._matrix[:stop_col, start:stop]
+                    diff = np.abs(block[m:] - block[:-m])
                     ok = ~np.isnan(diff)
-                    total[start:stop] = np.where(ok, diff, 0.0).sum(axis=1)
-                    pairs[start:stop] = ok.sum(axis=1)
+                    total[start:stop] = np.where(ok, diff, 0.0).sum(axis=0)
+                    pairs[start:stop] = ok.sum(axis=0)
             else:
                 col = self._vkeys % self.span
                 use = (col < stop_col) & (col >= m)

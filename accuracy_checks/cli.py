@@ -10,6 +10,7 @@ import argparse
 import json
 import os
 import sys
+from datetime import date
 from pathlib import Path
 
 from accuracy_checks.errors import UsageError
@@ -32,6 +33,8 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--json", type=Path, metavar="PATH", help="write the results as JSON")
     run.add_argument("--junit", type=Path, metavar="PATH", help="write JUnit XML for CI")
     run.add_argument("--markdown", type=Path, metavar="PATH", help="write a Markdown summary")
+    run.add_argument("--report", type=Path, metavar="PATH",
+                     help="write the HTML report of the audit trail (this run included)")
     run.add_argument("--fail-on", choices=("warn", "fail"), default="fail",
                      help="lowest verdict that exits 1 (default: fail)")
     run.add_argument("--no-snapshot", action="store_true",
@@ -42,6 +45,15 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--label", metavar="TEXT",
                      help="a label of the pipeline run kept in the audit record "
                      "(e.g. the scheduler's run id)")
+
+    rep = sub.add_parser("report", help="write the HTML report of the audit trail (charts)")
+    rep_where = rep.add_mutually_exclusive_group(required=True)
+    rep_where.add_argument("--config", type=Path, help="the YAML config (its `store:`)")
+    rep_where.add_argument("--store", metavar="URL", help="a store URL instead of a config")
+    rep.add_argument("--out", required=True, type=Path, metavar="PATH",
+                     help="the HTML file to write (one self-contained file)")
+    rep.add_argument("--since", type=_report_day, metavar="DATE",
+                     help="only cycles issued on or after this date (YYYY-MM-DD)")
 
     val = sub.add_parser("validate", help="validate a config file and exit")
     val.add_argument("--config", required=True, type=Path)
@@ -65,6 +77,8 @@ def main(argv: list[str] | None = None) -> int:
     try:
         if args.command == "run":
             return _run(args)
+        if args.command == "report":
+            return _report(args)
         if args.command == "validate":
             from accuracy_checks.config import load_config
 
@@ -128,9 +142,34 @@ def _run(args: argparse.Namespace) -> int:
         write_junit(report, args.junit)
     if args.markdown:
         write_markdown(report, args.markdown)
+    if args.report:
+        from accuracy_checks.report import write_report
+
+        rendered = write_report(config, args.report)
+        progress(f"report: {args.report} ({rendered.charts} charts, "
+                 f"{rendered.bytes / 1e6:.1f} MB)")
     render_console(report, color=color, verbose=args.verbose)
     if report.status == "fail" or (report.status == "warn" and args.fail_on == "warn"):
         return EXIT_FAIL
+    return EXIT_PASS
+
+
+def _report_day(text: str) -> date:
+    try:
+        return date.fromisoformat(text)
+    except ValueError:
+        raise argparse.ArgumentTypeError(f"{text!r} is not a date (YYYY-MM-DD)") from None
+
+
+def _report(args: argparse.Namespace) -> int:
+    """``accuracy-checks report``: the HTML report of a config's (or a URL's) audit store."""
+    from accuracy_checks.config import Config, load_config
+    from accuracy_checks.report import write_report
+
+    target: Config | str = load_config(args.config) if args.config is not None else args.store
+    rendered = write_report(target, args.out, since=args.since)
+    print(f"Wrote {args.out}: {rendered.cycles} cycle(s), {rendered.segments} segment(s) "
+          f"charted, {rendered.charts} charts, {rendered.bytes / 1e6:.1f} MB.")
     return EXIT_PASS
 
 

@@ -28,21 +28,48 @@ def combined_codes(
     >>> bool(c[0] == c[2]), bool(c[0] == c[1])
     (True, False)
     """
+    return combined_codes_and_space(frame, columns, mask)[0]
+
+
+def combined_codes_and_space(frame: pd.DataFrame, columns: Sequence[str],
+                             mask: np.ndarray | None = None) -> tuple[np.ndarray, int]:
+    """:func:`combined_codes` and the size of the code space (codes lie in ``[0, space)``)."""
     arrays = [frame[c].array if mask is None else frame[c].array[mask] for c in columns]
-    return combine_codes(arrays, len(frame) if mask is None else int(np.count_nonzero(mask)))
+    return _combine(arrays, len(frame) if mask is None else int(np.count_nonzero(mask)))
 
 
 def combine_codes(arrays: Sequence[Any], n_rows: int) -> np.ndarray:
     """Combine per-column arrays (same length ``n_rows``) into one int64 code per row."""
+    return _combine(arrays, n_rows)[0]
+
+
+def _column_codes(values: Any) -> tuple[np.ndarray, int]:
+    if isinstance(values, pd.Categorical):
+        # the categories are the codes already: no hashing (−1, missing, becomes its own code)
+        return values.codes.astype(np.int64) + 1, len(values.categories) + 1
+    codes, uniques = pd.factorize(values, use_na_sentinel=False)
+    return codes, max(len(uniques), 1)
+
+
+def duplicated_codes(codes: np.ndarray, space: int, keep: str | bool = False) -> np.ndarray:
+    """Which codes repeat (``keep`` as in ``pandas.Series.duplicated``); a counting pass when
+    the code space is small, a hash pass otherwise."""
+    if codes.size and space <= max(8 * codes.size, 1 << 20):
+        repeats = np.bincount(codes, minlength=space) > 1
+        if keep is False or not repeats.any():
+            return repeats[codes]
+    return pd.Series(codes).duplicated(keep=keep).to_numpy()  # type: ignore[arg-type]
+
+
+def _combine(arrays: Sequence[Any], n_rows: int) -> tuple[np.ndarray, int]:
     comb = np.zeros(n_rows, dtype=np.int64)
     space = 1
     for values in arrays:
-        codes, uniques = pd.factorize(values, use_na_sentinel=False)
-        size = max(len(uniques), 1)
+        codes, size = _column_codes(values)
         if space * size >= _CODE_SPACE_LIMIT:
             comb, seen = pd.factorize(comb)
             comb = comb.astype(np.int64, copy=False)
             space = max(len(seen), 1)
         comb = comb * size + codes
         space *= size
-    return comb
+    return comb, space

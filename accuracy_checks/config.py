@@ -206,6 +206,62 @@ class Thresholds(_Strict):
     segments: dict[str, dict[str, Level]] = Field(default_factory=dict)
 
 
+class Drift(_Strict):
+    """Checks across cycles, from the audit trail (:mod:`accuracy_checks.drift`).
+
+    ``drift.control_limit``: each accuracy figure (segment × measure × lag) against its own
+    trailing cycles: mean ± ``k`` standard deviations of its last ``cycles`` earlier values,
+    judged once ``min_history`` earlier cycles have a value; only a worsening counts.
+    ``drift.sustained_breach``: a threshold breached (warn or fail) in ``sustained_cycles``
+    consecutive cycles gets a result of ``sustained_status``.
+    """
+
+    #: both drift checks on or off
+    enabled: bool = True
+    #: the control-limit rule on or off (``enabled: false`` turns both off)
+    control_limit: bool = True
+    #: N: trailing cycles (with a value) the mean and standard deviation come from
+    cycles: Annotated[int, Field(ge=2)] = 13
+    #: the limits lie k standard deviations from the trailing mean
+    k: Annotated[float, Field(gt=0, allow_inf_nan=False)] = 3.0
+    #: fewer earlier cycles with a value: the figure is skipped (reason ``too_few_cycles``)
+    min_history: Annotated[int, Field(ge=2)] = 8
+    #: status of a value beyond its limits
+    status: Literal["warn", "fail"] = "warn"
+    #: measures watched (default: those a threshold names; ``all``: every reported measure)
+    measures: list[str] = Field(default_factory=list)
+    #: M: a threshold breached in M consecutive cycles escalates (0 turns the rule off)
+    sustained_cycles: Annotated[int, Field(ge=0)] = 3
+    #: the status a sustained breach escalates to
+    sustained_status: Literal["warn", "fail"] = "fail"
+
+    @field_validator("measures")
+    @classmethod
+    def _measures(cls, measures: list[str]) -> list[str]:
+        known = measure_directions()
+        for measure in measures:
+            if measure != "all" and measure not in known:
+                raise ValueError(
+                    f"unknown measure {measure!r}" + _did_you_mean(measure, known)
+                    + f"; measures: all, {', '.join(sorted(known))}"
+                )
+        return list(dict.fromkeys(measures))
+
+    @model_validator(mode="after")
+    def _counts(self) -> Drift:
+        if self.min_history > self.cycles:
+            raise ValueError(
+                f"drift.min_history ({self.min_history}) cannot exceed drift.cycles "
+                f"({self.cycles}): the limits come from at most `cycles` earlier cycles"
+            )
+        if self.sustained_cycles == 1:
+            raise ValueError(
+                "drift.sustained_cycles: 1 would escalate every breach at once; give 2 or "
+                "more consecutive cycles, or 0 to turn the rule off"
+            )
+        return self
+
+
 class Config(_Strict):
     """A validated config. Paths are absolute (resolved against the config file's folder)."""
 
@@ -223,6 +279,8 @@ class Config(_Strict):
     thresholds: Thresholds = Field(default_factory=Thresholds)
     #: unit costs of under- and over-forecasting (measure ``error_cost``)
     costs: Costs | None = None
+    #: drift and sustained-breach checks across cycles (from the audit trail)
+    drift: Drift = Field(default_factory=Drift)
 
     _source: Path | None = PrivateAttr(default=None)
     _text: str = PrivateAttr(default="")
@@ -287,6 +345,36 @@ class Config(_Strict):
                         + f"; measures: {', '.join(sorted(known))}"
                     )
                 _check_level(f"{where}.{measure}", level, known[measure][0])
+        return self
+
+    @model_validator(mode="after")
+    def _measure_inputs(self) -> Config:
+        """A measure that a threshold or ``evaluation.measures`` names must have its inputs
+        (unit costs, quantiles, a central interval); ``all`` only takes what is fed."""
+        from accuracy_checks.measures.data import central_intervals
+        from accuracy_checks.measures.registry import registered_measures
+
+        have = {
+            "costs": self.costs is not None,
+            "quantiles": bool(self.forecast.quantiles),
+            "intervals": bool(central_intervals(list(self.forecast.quantiles))),
+        }
+        what = {
+            "costs": "a `costs` section (unit costs of under- and over-forecasting)",
+            "quantiles": "quantile columns in `forecast.quantiles`",
+            "intervals": "two quantile levels τ and 1 − τ in `forecast.quantiles` "
+                         "(e.g. 0.1 and 0.9)",
+        }
+        named = [("evaluation.measures", m) for m in self.evaluation.measures]
+        named += [("thresholds.default", m) for m in self.thresholds.default]
+        named += [(f"thresholds.segments.{s}", m)
+                  for s, lv in self.thresholds.segments.items() for m in lv]
+        registry = registered_measures()
+        for where, measure in named:
+            needs = registry[measure].needs if measure in registry else frozenset()
+            for need in sorted(needs):
+                if not have.get(need, True):
+                    raise ValueError(f"{where} names {measure!r}, which needs {what[need]}")
         return self
 
 

@@ -19,13 +19,14 @@ import pandas as pd
 
 from accuracy_checks import frames as F
 from accuracy_checks import sources
+from accuracy_checks.accuracy import evaluation_span, run_accuracy
 from accuracy_checks.accuracy import measures_to_report as accuracy_measures_to_report
-from accuracy_checks.accuracy import run_accuracy
 from accuracy_checks.archive import Archive, cycle_label
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.codes import combined_codes
 from accuracy_checks.config import Config
+from accuracy_checks.evaluation import prune_earlier, window_periods
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.thresholds import ThresholdBook
 
@@ -84,23 +85,36 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
     progress(f"read actuals: {len(actuals):,} rows in {time.perf_counter() - t0:.1f} s")
 
     t0 = time.perf_counter()
-    history = [
-        sources.read_forecast(config, p, role="history", key="history",
-                              segment_columns=seg_cols, allow_empty=True)
-        for p in config.history_paths
-    ]
-    history = [h.loc[h[F.ISSUED] < issued] for h in history]
+    # earlier forecasts: only rows of a configured lag inside the evaluation span are ever
+    # used, so they are cut right at reading (Parquet: filtered while reading)
+    span = window_periods(actuals, evaluation_span(config))
+    lags = list(config.evaluation.lags)
+    history = []
+    history_cycles: set[pd.Timestamp] = set()
+    for p in config.history_paths:
+        starts = sources.cycle_starts(p, config)
+        part = sources.read_forecast(config, p, role="history", key="history",
+                                     segment_columns=seg_cols, allow_empty=True,
+                                     periods=span if starts is not None else None)
+        if starts is None:
+            starts = part.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
+        history_cycles |= {pd.Timestamp(t) for t in starts.index}
+        part = part.loc[part[F.ISSUED] < issued]
+        history.append(prune_earlier(part, periods=span, lags=lags,
+                                     frequency=config.frequency, starts=starts))
     archive = Archive(config.archive)
     snaps = archive.latest_attempts(before=issued)
-    in_history = {t for h in history for t in h[F.ISSUED].unique()}
-    from_archive = [s for s in snaps if s.issued not in in_history]
-    archived_parts = [archive.load([s]) for s in from_archive]
+    from_archive = [s for s in snaps if s.issued not in history_cycles]
     previous, previous_label = None, None
     if snaps:
         last = snaps[-1]
-        previous = (archived_parts[from_archive.index(last)] if last in from_archive
-                    else archive.load([last]))
+        previous = archive.load([last])
         previous_label = f"{last.cycle} (attempt {last.attempt})"
+    archived_parts = [
+        prune_earlier(previous if (previous is not None and s == snaps[-1]) else archive.load([s]),
+                      periods=span, lags=lags, frequency=config.frequency)
+        for s in from_archive
+    ]
 
     frames = [forecast, actuals, *history, *archived_parts]
     if mapping is not None:
@@ -130,7 +144,9 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
                      "(the last of each (keys, period, issue date) kept)")
         n = len(history_frame)
         no_attempt = pd.arrays.IntegerArray(np.zeros(n, dtype=np.int64), np.ones(n, dtype=bool))
-        history_frame = history_frame.assign(**{F.ATTEMPT: no_attempt, F.SOURCE: "history"})
+        history_frame = history_frame.assign(**{
+            F.ATTEMPT: no_attempt,
+            F.SOURCE: pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), ["history"])})
     archived = _concat([_segments_of_archived(a, config, mapping) for a in archived_parts])
     parts = [p for p in (history_frame, archived) if len(p)]
     earlier = sources.unify_categories(parts, [F.SEGMENT]) if len(parts) > 1 else parts
@@ -183,7 +199,9 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
     """Run every check of ``config`` on the current forecast, record the run, return it.
 
     Every input is read and validated first: an unusable input raises before anything is
-    written. Then the waivers active at the run's start turn the breaches they cover into
+    written. The drift checks (:mod:`accuracy_checks.drift`, unless ``drift.enabled`` is
+    false) judge the figures against the earlier cycles in the audit store; then the waivers
+    active at the run's start turn the breaches they cover (drift results included) into
     ``waived``; the forecast is staged for the archive (unless ``snapshot=False``, a dry
     run); and the run is recorded in the audit store (``config.store``) in one transaction,
     which allocates the run's attempt of its cycle and moves the staged snapshot to that
@@ -213,7 +231,16 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
                          progress=progress)
     results = evaluate(config, inputs, progress=progress)
 
+    cycle = cycle_label(inputs.issued)
     with open_store(config) as store:
+        if config.drift.enabled:
+            from accuracy_checks.drift import drift_checks
+
+            t0 = time.perf_counter()
+            found = drift_checks(config, results, store, cycle=cycle)
+            results = [*results, *found]
+            progress(f"drift checks against earlier cycles: {len(found)} result(s) in "
+                     f"{time.perf_counter() - t0:.1f} s")
         results = apply_waivers(results, store.active_waivers(on=started))
         waived = sum(r.status == "waived" for r in results)
         if waived:
@@ -227,7 +254,7 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
                             for r in _cycles_of(results)}, key=lambda t: str(t[0]))
         report = RunReport(
             run_id=run_id,
-            cycle=cycle_label(inputs.issued),
+            cycle=cycle,
             attempt=None,
             results=results,
             started_at=started.isoformat(timespec="seconds"),

@@ -29,6 +29,7 @@ from accuracy_checks.baselines import ActualsIndex
 from accuracy_checks.grid import grid_positions
 
 #: evaluation-frame columns of the engine's own (key columns may not start with ``__``)
+CYCLE_START = "__cycle_start"
 IN_WINDOW = "__in_window"
 IN_TRACKING = "__in_tracking"
 SERIES = "__series"
@@ -99,12 +100,35 @@ def _exact_join(rows: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) -> n
     return found[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
 
 
+def prune_earlier(earlier: pd.DataFrame, *, periods: list[pd.Timestamp], lags: list[int],
+                  frequency: str, starts: pd.Series | None = None) -> pd.DataFrame:
+    """Keep only the earlier-forecast rows the evaluation can use (a configured lag, a target
+    period in ``periods``), with ``__cycle_start`` (each cycle's first period, from
+    ``starts`` — issue date → first period — or from ``earlier`` itself) kept beside them so
+    lags stay right after the cut. Done right after reading: most earlier rows are never used.
+    """
+    if len(earlier) == 0:
+        return earlier
+    if starts is None:
+        starts = earlier.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
+    rows = earlier.loc[earlier[F.PERIOD].isin(periods)]
+    first = starts.reindex(pd.DatetimeIndex(rows[F.ISSUED])).to_numpy()
+    rows = rows.assign(**{CYCLE_START: first})
+    rows = add_lags_for_subset(earlier, rows, frequency)
+    return rows.loc[rows[F.LAG].isin(lags)].reset_index(drop=True)
+
+
 def add_lags_for_subset(earlier: pd.DataFrame, rows: pd.DataFrame,
                         frequency: str) -> pd.DataFrame:
-    """Lags of ``rows`` (a subset of ``earlier``) measured from each cycle's first period in
-    ``earlier`` as a whole (the subset may not hold a cycle's first period)."""
+    """Lags of ``rows`` (a subset of ``earlier``) measured from each cycle's first period:
+    ``rows.__cycle_start`` where present, else the first period in ``earlier`` as a whole
+    (the subset may not hold a cycle's first period)."""
     if len(rows) == 0:
         return rows.assign(**{F.LAG: pd.Series(dtype="int64")})
+    if CYCLE_START in rows.columns:
+        start_pos, _ = grid_positions(rows[CYCLE_START], frequency)
+        pos, _ = grid_positions(rows[F.PERIOD], frequency)
+        return rows.assign(**{F.LAG: pos - start_pos + 1})
     firsts = earlier.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
     first_pos, _ = grid_positions(pd.Series(firsts.to_numpy()), frequency)
     first_of = pd.Series(first_pos, index=firsts.index)

@@ -16,7 +16,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks import frames as F
-from accuracy_checks.codes import combined_codes
+from accuracy_checks.codes import combined_codes_and_space, duplicated_codes
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 
@@ -54,9 +54,15 @@ def list_files(path: Path, role: str, key: str) -> list[Path]:
 
 
 def read_columns(path: Path, columns: Sequence[Column], *, role: str, key: str,
-                 allow_empty: bool = False) -> pd.DataFrame:
-    """Read ``columns`` from a file or folder and convert them to their kinds."""
-    parts = [_read_file(f, columns, role=role) for f in list_files(path, role, key)]
+                 allow_empty: bool = False,
+                 row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
+    """Read ``columns`` from a file or folder and convert them to their kinds.
+
+    ``row_filter`` = (date column, dates): Parquet files whose column is a timestamp keep only
+    the rows on those dates, filtered while reading; other files are read whole.
+    """
+    parts = [_read_file(f, columns, role=role, row_filter=row_filter)
+             for f in list_files(path, role, key)]
     frame = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)
     if len(frame) == 0 and not allow_empty:
         raise InputError(
@@ -66,7 +72,8 @@ def read_columns(path: Path, columns: Sequence[Column], *, role: str, key: str,
     return frame.rename(columns={c.name: c.canonical for c in columns if c.canonical})
 
 
-def _read_file(file: Path, columns: Sequence[Column], *, role: str) -> pd.DataFrame:
+def _read_file(file: Path, columns: Sequence[Column], *, role: str,
+               row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
     wanted = list(dict.fromkeys(c.name for c in columns))
     is_parquet = file.suffix.lower() in _PARQUET
     try:
@@ -93,7 +100,8 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str) -> pd.DataFr
         )
     try:
         if is_parquet:
-            frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"])
+            frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"],
+                                  row_filter)
         else:
             # keys, dates and labels repeat a lot: read them dictionary-encoded (category) so
             # that cleaning and parsing touch each distinct value once
@@ -118,16 +126,53 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str) -> pd.DataFr
     return pd.DataFrame(out)
 
 
-def _read_parquet(file: Path, wanted: list[str], dictionary: list[str]) -> pd.DataFrame:
+def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],
+                  row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
     import pyarrow as pa
+    import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
     schema = pq.read_schema(file)
     strings = [n for n in dictionary
                if pa.types.is_string(schema.field(n).type)
                or pa.types.is_large_string(schema.field(n).type)]
-    table = pq.read_table(file, columns=wanted, read_dictionary=strings)
+    expression = None
+    if row_filter is not None and pa.types.is_timestamp(schema.field(row_filter[0]).type):
+        kind = schema.field(row_filter[0]).type
+        dates = pa.array([pd.Timestamp(d).to_datetime64() for d in row_filter[1]]).cast(kind)
+        expression = pc.field(row_filter[0]).isin(dates)
+    table = pq.read_table(file, columns=wanted, read_dictionary=strings, filters=expression)
     return table.to_pandas()
+
+
+def cycle_starts(path: Path, config: Config, *, role: str = "history",
+                 key: str = "history") -> pd.Series | None:
+    """The first period of every cycle in a Parquet file or folder, read from its two date
+    columns only (``None`` when a file is CSV or its dates are not timestamps)."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    issued, period = config.forecast.issued, config.forecast.period
+    parts = []
+    for f in list_files(path, role, key):
+        if f.suffix.lower() not in _PARQUET:
+            return None
+        try:
+            schema = pq.read_schema(f)
+            if not all(n in schema.names and pa.types.is_timestamp(schema.field(n).type)
+                       for n in (issued, period)):
+                return None
+            table = pq.read_table(f, columns=[issued, period])
+        except (OSError, ValueError):
+            return None  # the full read reports the problem with its proper message
+        parts.append(table.group_by(issued).aggregate([(period, "min")]).to_pandas())
+    if not parts:
+        return None
+    starts = pd.concat(parts, ignore_index=True)
+    starts = starts.rename(columns={issued: F.ISSUED, f"{period}_min": F.PERIOD})
+    out = starts.groupby(F.ISSUED)[F.PERIOD].min()
+    out.index = pd.DatetimeIndex(out.index).tz_localize(None).as_unit("ns")
+    return out.astype("datetime64[ns]") if len(out) else out
 
 
 def _read_csv(file: Path, **kwargs: object) -> pd.DataFrame:
@@ -263,7 +308,8 @@ def forecast_columns(config: Config) -> list[Column]:
 
 def read_forecast(config: Config, path: Path | None = None, *, role: str = "forecast",
                   key: str = "forecast.path", segment_columns: Sequence[str] = (),
-                  allow_empty: bool = False) -> pd.DataFrame:
+                  allow_empty: bool = False,
+                  periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
     """The forecast (or an earlier-cycles file with the same columns), canonical names."""
     path = path or config.forecast.path
     cols = forecast_columns(config)
@@ -271,7 +317,9 @@ def read_forecast(config: Config, path: Path | None = None, *, role: str = "fore
     present = _columns_of(path, role, key)
     cols += [Column(s, "text", "segments.columns") for s in segment_columns
              if s in present and s not in names]
-    return read_columns(path, cols, role=role, key=key, allow_empty=allow_empty)
+    row_filter = (config.forecast.period, periods) if periods is not None else None
+    return read_columns(path, cols, role=role, key=key, allow_empty=allow_empty,
+                        row_filter=row_filter)
 
 
 def read_actuals(config: Config, path: Path | None = None) -> pd.DataFrame:
@@ -307,8 +355,13 @@ def duplicated_rows(frame: pd.DataFrame, columns: Sequence[str], keep: str | boo
     """``DataFrame.duplicated`` on integer row codes (fast on categorical keys)."""
     if len(frame) == 0:
         return np.zeros(0, dtype=bool)
-    codes = combined_codes(frame, list(columns))
-    return pd.Series(codes).duplicated(keep=keep).to_numpy()  # type: ignore[arg-type]
+    *first, last = list(columns)
+    codes, space = combined_codes_and_space(frame, first)
+    if space > 8 * len(frame):  # sparse key combinations: number the series densely first
+        codes, uniques = pd.factorize(codes)
+        space = max(len(uniques), 1)
+    tail, size = combined_codes_and_space(frame, [last])
+    return duplicated_codes(codes.astype(np.int64) * size + tail, space * size, keep)
 
 
 def read_mapping(config: Config) -> pd.DataFrame | None:

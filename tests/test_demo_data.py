@@ -329,7 +329,8 @@ def test_run_demo_tells_the_story(tmp_path: Path) -> None:
     # the pet-care bias builds up as the biased cycles fill the lag-1 window
     def pet_bias(report: RunReport) -> tuple[str, float | None]:
         (r,) = [r for r in report.results
-                if r.segment == "pet-care" and r.measure == "bias_pct" and r.lag == 1]
+                if r.check == "accuracy" and r.segment == "pet-care"
+                and r.measure == "bias_pct" and r.lag == 1]
         return r.status, r.value
 
     trend = [pet_bias(r) for r in reports]

@@ -178,3 +178,26 @@ def test_archive_attempts_and_accuracy_from_archive(make_project: Callable[..., 
     # series count compares with the previous archived cycle
     count = find(report, "coverage.series_count")
     assert count.value == 0 and count.status == "pass"
+
+
+def test_parquet_history_filtered_at_read_gives_the_same_numbers(
+        make_project: Callable[..., Project]) -> None:
+    """Earlier forecasts in Parquet are cut to the evaluation span while reading (the cycle's
+    first period read separately): every figure must equal the whole-file CSV path."""
+    earlier = pd.concat([forecast_frame(d, bias=b) for d, b in zip(EARLIER, (0.9, 1.2),
+                                                                      strict=True)])
+    project = make_project(earlier=earlier)
+    config = load_config(project.config)
+    by_csv = run_checks(config, snapshot=False)
+    as_parquet = earlier.assign(week=pd.to_datetime(earlier["week"]),
+                                issued_on=pd.to_datetime(earlier["issued_on"]))
+    as_parquet.to_parquet(project.data / "earlier.parquet", index=False)
+    project.config.write_text(project.config.read_text().replace("earlier.csv", "earlier.parquet"))
+    by_parquet = run_checks(load_config(project.config), snapshot=False)
+
+    def figures(report: RunReport) -> dict[tuple[object, ...], object]:
+        return {(r.check, r.segment, r.lag, r.measure): (r.value, r.n_obs, r.status)
+                for r in report.results if r.check == "accuracy"}
+
+    assert figures(by_parquet) == figures(by_csv)
+    assert by_parquet.inputs["earlier"]["rows"] == 12  # lag 1 in the 2-week window only

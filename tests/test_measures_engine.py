@@ -158,22 +158,27 @@ def test_unknown_measure_in_evaluation_measures_is_a_config_error(
         load_config(project.config)
 
 
-def test_measures_the_config_cannot_feed_are_not_configured(
+def test_measures_the_config_cannot_feed_are_config_errors_or_left_out(
     make_project: Callable[..., Project]
 ) -> None:
-    text = config_text("  measures: [error_cost, interval_coverage]\n").replace(
-        "  quantiles: {0.1: p10, 0.9: p90}\n", "  quantiles: {0.9: p90}\n")
+    # named explicitly without their inputs: exit 2 with a message naming key and input
+    project = make_project(config_text=config_text("  measures: [error_cost]\n"))
+    with pytest.raises(ConfigError, match=r"evaluation\.measures names 'error_cost', which "
+                                          r"needs a `costs` section"):
+        load_config(project.config)
+    text = config_text().replace("  quantiles: {0.1: p10, 0.9: p90}\n",
+                                 "  quantiles: {0.9: p90}\n").replace(
+        "    wape: {warn: 25, fail: 40}\n",
+        "    wape: {warn: 25, fail: 40}\n    interval_coverage: {warn: 5}\n")
     project = make_project(config_text=text)
-    report = run_checks(load_config(project.config))
-    cost = find(report, "error_cost")
-    assert cost.status == "skipped" and cost.reason == "not_configured"
-    assert "unit costs" in cost.message
-    coverage = find(report, "interval_coverage")
-    assert coverage.reason == "not_configured" and "central interval" in coverage.message
+    with pytest.raises(ConfigError, match=r"thresholds\.default names 'interval_coverage', "
+                                          r"which needs two quantile levels"):
+        load_config(project.config)
     # "all" only reports what the config can feed
     project = make_project(config_text=config_text("  measures: [all]\n"))
     report = run_checks(load_config(project.config))
     assert not [r for r in report.results if r.measure == "error_cost"]
+    assert find(report, "mase").reason == "too_few_rows"  # m = 52 > 6 weeks of history
 
 
 def test_crossed_quantiles_fail_the_output_check_and_are_left_out_of_intervals(

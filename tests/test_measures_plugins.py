@@ -137,15 +137,15 @@ def test_plugin_measures_run_and_a_raising_plugin_is_an_error(
     project = make_project(config_text=text)
     report = run_checks(load_config(project.config))
     # the good plugin: every forecast is 3 % low, so every row is a stock-out
-    stockout = [r for r in report.results if r.measure == "stockout_rate"]
+    stockout = [r for r in report.results if r.check == "accuracy" and r.measure == "stockout_rate"]
     assert {r.segment for r in stockout} == {"*", "tools", "plants"}
     assert all(r.value == 100.0 and r.status == "fail" for r in stockout)
     # the raising plugin: its results are errors carrying the plugin's message
-    moon = [r for r in report.results if r.measure == "moon_ratio"]
+    moon = [r for r in report.results if r.check == "accuracy" and r.measure == "moon_ratio"]
     assert moon and all(r.status == "error" for r in moon)
     assert "raised ValueError: cannot divide by the moon" in moon[0].message
     assert "plugin moon_ratio = moon:RAISER (moon)" in moon[0].message
-    shape = [r for r in report.results if r.measure == "wrong_shape"]
+    shape = [r for r in report.results if r.check == "accuracy" and r.measure == "wrong_shape"]
     assert shape and all(r.status == "error" and "rows for" in r.message for r in shape)
     # the rest still ran, and the run's status reflects the errors
     assert [r for r in report.results if r.measure == "wape" and r.status == "pass"]

@@ -28,50 +28,56 @@ __all__ = ["error_cost_from_data"]
 
 def error_cost_from_data(data: MeasureData) -> pd.DataFrame:
     """Money lost to errors per group; ``not_configured`` if a usable row's segment has no
-    unit costs (and ``costs.default`` is not set)."""
+    unit costs (and ``costs.default`` is not set).
+
+    One pass over the rows: units under- and over-forecast summed per (group, segment) cell
+    with ``np.bincount``; the unit costs then apply per cell.
+    """
     costs = data.settings.costs
     codes, segments = pd.factorize(data.rows[F.SEGMENT], sort=False)
     table = [costs.of(str(s)) if costs is not None else None for s in segments]
-    under_of = np.array([np.nan if c is None else c[0] for c in table] + [np.nan])
-    over_of = np.array([np.nan if c is None else c[1] for c in table] + [np.nan])
-    c_under = under_of[codes]
-    c_over = over_of[codes]
-    e = data.error
-    has = data.usable & ~np.isnan(c_under)
-    under = np.where(has, np.maximum(e, 0.0), 0.0)
-    over = np.where(has, np.maximum(-e, 0.0), 0.0)
-    with np.errstate(invalid="ignore"):
-        under_cost = data.gsum(np.where(has, c_under * under, 0.0), has)
-        over_cost = data.gsum(np.where(has, c_over * over, 0.0), has)
-        tau = np.where(has, c_under / (c_under + c_over), 0.0)
-        pinball = np.where(has, (c_under * under + c_over * over) / (c_under + c_over), 0.0)
-    n = data.gsum(mask=has)
-    lacking = data.gsum(mask=data.usable & np.isnan(c_under))
+    under_of = np.array([np.nan if c is None else c[0] for c in table])
+    over_of = np.array([np.nan if c is None else c[1] for c in table])
+    width = max(len(segments), 1)
+    usable = data.usable & (codes >= 0)
+    cell = data.group[usable] * width + codes[usable]
+    e = data.error[usable]
+    shape = (data.n_groups, width)
+    size = data.n_groups * width
+    under = np.bincount(cell, weights=np.maximum(e, 0.0), minlength=size).reshape(shape)
+    over = np.bincount(cell, weights=np.maximum(-e, 0.0), minlength=size).reshape(shape)
+    rows = np.bincount(cell, minlength=size).reshape(shape)
+    priced = ~np.isnan(under_of)  # per segment
+    rows_priced = np.where(priced, rows, 0)
+    under_cost = np.where(priced, under * np.nan_to_num(under_of), 0.0).sum(axis=1)
+    over_cost = np.where(priced, over * np.nan_to_num(over_of), 0.0).sum(axis=1)
     total = under_cost + over_cost
+    n = rows_priced.sum(axis=1)
+    n_all = rows.sum(axis=1)
+    lacking = n_all - n
     per_forecast = np.full(data.n_groups, np.nan)
     np.divide(total, n, out=per_forecast, where=n > 0)
-    mean_tau = np.full(data.n_groups, np.nan)
-    np.divide(data.gsum(tau, has), n, out=mean_tau, where=n > 0)
-    # the segments present in each group, and whether they share one τ*
-    width = len(segments) + 1
-    present = np.bincount(data.group[has] * width + codes[has],
-                          minlength=data.n_groups * width).reshape(data.n_groups, width) > 0
+    # τ* and the pinball loss at τ*, when every priced row of the group shares one τ*
     with np.errstate(invalid="ignore"):
         tau_of = under_of / (under_of + over_of)
+        pinball_cells = np.where(priced, (under * np.nan_to_num(under_of)
+                                          + over * np.nan_to_num(over_of))
+                                 / np.where(priced, under_of + over_of, 1.0), 0.0)
+    present = rows_priced > 0
     low = np.where(present, tau_of, np.inf).min(axis=1)
     high = np.where(present, tau_of, -np.inf).max(axis=1)
     one_tau = (n > 0) & np.isclose(low, high, rtol=0.0, atol=1e-12)
     pinball_mean = np.full(data.n_groups, np.nan)
-    np.divide(data.gsum(pinball, has), n, out=pinball_mean, where=one_tau)
+    np.divide(pinball_cells.sum(axis=1), n, out=pinball_mean, where=one_tau)
     unit = costs.currency if costs is not None else "money"
     return result_frame(
-        data.n_groups, total,
-        [(data.gsum(mask=data.usable) == 0, "no_data"), (lacking > 0, "not_configured")],
-        n_obs=data.gsum(mask=data.usable).astype(np.int64), under_cost=under_cost,
-        over_cost=over_cost,
-        cost_per_forecast=per_forecast, under_units=data.gsum(under, has),
-        over_units=data.gsum(over, has), tau_star=np.where(one_tau, mean_tau, np.nan),
-        pinball_at_tau_star=pinball_mean, n_without_costs=lacking.astype(np.int64),
+        data.n_groups, total, [(n_all == 0, "no_data"), (lacking > 0, "not_configured")],
+        n_obs=n_all.astype(np.int64), under_cost=under_cost, over_cost=over_cost,
+        cost_per_forecast=per_forecast,
+        under_units=np.where(priced, under, 0.0).sum(axis=1),
+        over_units=np.where(priced, over, 0.0).sum(axis=1),
+        tau_star=np.where(one_tau, low, np.nan), pinball_at_tau_star=pinball_mean,
+        n_without_costs=lacking.astype(np.int64),
         unit=np.full(data.n_groups, unit, dtype=object),
     )
 

@@ -44,7 +44,7 @@ __all__ = [
 ]
 
 #: Measures whose ideal value is 0; a single-number threshold bounds ``|value|``.
-CENTRED_MEASURES: frozenset[str] = frozenset({"me", "bias_pct", "tracking_signal"})
+CENTRED_MEASURES: frozenset[str] = frozenset({"me", "bias_pct", "tracking_signal", "trigg"})
 #: Measures expressed in percent when a result does not state its unit.
 _PERCENT_MEASURES: frozenset[str] = frozenset(
     {"bias_pct", "mape", "wape", "smape", "interval_coverage", "mape_nonzero"}
@@ -212,10 +212,11 @@ def describe_value(result: CheckResult) -> str:
         side = "under-forecast" if value > 0 else "over-forecast"
         if magnitude == "0":
             side = "no bias"
-        if measure == "tracking_signal":
+        if measure in ("tracking_signal", "trigg"):
             signed = format_number(value)
             prefix = side if side == "no bias" else f"sustained {side}"
-            return f"{prefix} (tracking signal {signed})"
+            name = "tracking signal" if measure == "tracking_signal" else "Trigg's signal"
+            return f"{prefix} ({name} {signed})"
         if side == "no bias":
             return side
         if measure == "me":

@@ -1,0 +1,66 @@
+"""Prefect 3 integration: the gate as a task of your flow (extra ``prefect``).
+
+Install with ``pip install "accuracy-checks[prefect]"``; ``import accuracy_checks`` never
+imports Prefect. Use::
+
+    from prefect import flow
+    from prefect.futures import wait
+    from accuracy_checks.prefect import check_forecast, first_failure
+
+    @flow
+    def nightly() -> object:
+        check = check_forecast.submit("accuracy-checks.yaml", forecast_path="out/forecast.csv")
+        done = publish.submit("out/forecast.csv", wait_for=[check])  # never runs on a failed gate
+        wait([check, done])
+        return first_failure(check, done) or check.result()  # a failed gate fails the flow
+
+- :data:`check_forecast` (:mod:`.gate`) runs the configured checks (``run_checks``: the audit
+  record is written and waivers applied on every verdict) and returns the
+  :class:`~accuracy_checks.results.RunReport`. It publishes a table artifact of the results
+  that did not pass and a Markdown artifact of the summary. On ``fail`` it raises
+  :class:`~accuracy_checks.errors.GateFailed` (a short, picklable summary); on ``warn`` it logs
+  every warning through the run logger and ends ``Completed`` under the name
+  :data:`WARNED_STATE_NAME`; an unusable config or input ends it ``Failed`` with the CLI's
+  one-paragraph message and no traceback of ours. ``alert=`` takes your callable, which
+  receives the report.
+- :mod:`.fanout`: the accuracy measures of many segments computed on Prefect's Dask task
+  runner from mergeable statistics, equal to the single-process figures.
+
+Remember Prefect's rule: a flow that returns ``None`` ends ``Completed`` even when a task in it
+failed; return the failed state (:func:`first_failure`) or raise.
+"""
+
+from __future__ import annotations
+
+try:
+    import prefect  # noqa: F401
+except ImportError as exc:  # pragma: no cover - depends on the environment
+    raise ImportError(
+        'accuracy_checks.prefect needs Prefect 3: pip install "accuracy-checks[prefect]"'
+    ) from exc
+
+from accuracy_checks.prefect.gate import (
+    WARNED_STATE_NAME,
+    Alert,
+    check_forecast,
+    cli_message,
+    findings,
+    findings_table,
+    first_failure,
+    gate_failure,
+    run_gate,
+    usage_failure,
+)
+
+__all__ = [
+    "WARNED_STATE_NAME",
+    "Alert",
+    "check_forecast",
+    "cli_message",
+    "findings",
+    "findings_table",
+    "first_failure",
+    "gate_failure",
+    "run_gate",
+    "usage_failure",
+]

@@ -1,0 +1,174 @@
+"""What the HTML report shows, read from the audit store in a few queries.
+
+The report is a rendering of the audit trail: every figure, threshold, drift limit and waiver
+in it is what the runs recorded, never recomputed. Per cycle it uses the **last attempt**
+(the run with the highest attempt number of that cycle), like accuracy and the drift checks.
+``since`` keeps the cycles issued on or after a date.
+
+Reads (all with bound parameters): the runs (one row each), the figure results of the
+chosen runs (those with a measure: thresholds, values, statuses, waiver links; details only
+for control-limit results and results with a variant), every result of the latest run in full
+(messages, examples, details), and every waiver.
+"""
+
+from __future__ import annotations
+
+import json
+from dataclasses import dataclass, field
+from datetime import UTC, date, datetime
+from typing import TYPE_CHECKING, Any
+
+import pandas as pd
+
+from accuracy_checks.results import CheckResult
+
+if TYPE_CHECKING:
+    from accuracy_checks.store import Store, Waiver
+
+__all__ = ["FIGURE_COLUMNS", "ReportData", "load_report_data"]
+
+#: columns of :attr:`ReportData.figures`
+FIGURE_COLUMNS = ("cycle", "check", "segment", "measure", "lag", "variant", "status", "value",
+                  "unit", "warn", "fail", "waiver_id", "details")
+
+
+@dataclass
+class ReportData:
+    """Everything one report shows."""
+
+    #: the store's URL, password masked
+    store_url: str
+    generated_at: datetime
+    since: date | None
+    #: every recorded run in range, oldest first (as ``Store.history`` gives them)
+    runs: list[dict[str, Any]]
+    #: the cycles in range, oldest first, and the run (last attempt) that stands for each
+    cycles: list[str]
+    cycle_runs: dict[str, dict[str, Any]]
+    #: the latest recorded run (by start time) and its results in full
+    latest: dict[str, Any] | None
+    latest_results: list[CheckResult]
+    #: one row per figure result of each cycle's last attempt (:data:`FIGURE_COLUMNS`)
+    figures: pd.DataFrame
+    waivers: list[Waiver] = field(default_factory=list)
+
+    @property
+    def empty(self) -> bool:
+        return self.latest is None
+
+
+def load_report_data(store: Store, *, since: date | None = None,
+                     now: datetime | None = None) -> ReportData:
+    """Read what the report needs from ``store`` (see the module docstring)."""
+    from sqlalchemy import case, or_, select
+
+    from accuracy_checks.store.queries import result_dict
+    from accuracy_checks.store.schema import results, runs
+
+    generated = now or datetime.now(UTC)
+    every = store.history()
+    floor = since.isoformat() if since is not None else None
+    in_range = [r for r in every if floor is None or r["cycle"] is None or r["cycle"] >= floor]
+    by_cycle: dict[str, dict[str, Any]] = {}
+    for run in in_range:
+        c = run["cycle"]
+        if c is None:
+            continue
+        best = by_cycle.get(c)
+        if best is None or (run["attempt"] or 0) >= (best["attempt"] or 0):
+            by_cycle[c] = run
+    cycles = sorted(by_cycle)
+    latest = max(in_range, key=lambda r: (r["started_at"] or "", r["recorded_at"] or ""),
+                 default=None)
+    with store.db.read() as conn:
+        ids = dict(conn.execute(select(runs.c.run_id, runs.c.id).where(
+            runs.c.run_id.in_([r["run_id"] for r in by_cycle.values()]
+                              + ([latest["run_id"]] if latest else []))
+        )).all())
+        pk_cycle = {ids[r["run_id"]]: c for c, r in by_cycle.items() if r["run_id"] in ids}
+        keep_details = or_(results.c.check_name == "drift.control_limit",
+                           results.c.details.like('%"variant"%'))
+        rows = conn.execute(
+            select(results.c.run_pk, results.c.check_name, results.c.segment,
+                   results.c.measure, results.c.lag, results.c.status, results.c.value,
+                   results.c.unit, results.c.warn, results.c.fail, results.c.waiver_id,
+                   case((keep_details, results.c.details), else_=None))
+            .where(results.c.run_pk.in_(list(pk_cycle)), results.c.measure.is_not(None))
+        ).all() if pk_cycle else []
+        latest_rows: list[Any] = []
+        if latest is not None and latest["run_id"] in ids:
+            latest_rows = list(conn.execute(
+                select(results).where(results.c.run_pk == ids[latest["run_id"]])
+                .order_by(results.c.seq)).mappings())
+    figures = _figures(rows, pk_cycle)
+    latest_results = [_result(result_dict(r), r) for r in latest_rows]
+    waivers = store.waivers(include_inactive=True)
+    return ReportData(store_url=store.url, generated_at=generated, since=since, runs=in_range,
+                      cycles=cycles, cycle_runs=by_cycle, latest=latest,
+                      latest_results=latest_results, figures=figures, waivers=waivers)
+
+
+def _figures(rows: list[Any], pk_cycle: dict[int, str]) -> pd.DataFrame:
+    names = ["run_pk", "check", "segment", "measure", "lag", "status", "value", "unit",
+             "warn", "fail", "waiver_id", "details"]
+    cols = dict(zip(names, (list(c) for c in zip(*rows, strict=True)), strict=True)) if rows \
+        else {n: [] for n in names}
+    details = _parse_json(cols["details"], default={})
+    frame = pd.DataFrame({
+        "cycle": [pk_cycle.get(pk) for pk in cols["run_pk"]],
+        "check": pd.Series(cols["check"], dtype=object),
+        "segment": pd.Series(cols["segment"], dtype=object),
+        "measure": pd.Series(cols["measure"], dtype=object),
+        "lag": pd.array(cols["lag"], dtype="Int64"),
+        "variant": pd.Series([str(d.get("variant") or "") if isinstance(d, dict) else ""
+                              for d in details], dtype=object),
+        "status": pd.Series(cols["status"], dtype=object),
+        "value": pd.to_numeric(pd.Series(cols["value"], dtype=object),
+                               errors="coerce").astype("float64"),
+        "unit": pd.Series(cols["unit"], dtype=object),
+        "warn": pd.Series(_parse_json(cols["warn"], default=None), dtype=object),
+        "fail": pd.Series(_parse_json(cols["fail"], default=None), dtype=object),
+        "waiver_id": pd.array(cols["waiver_id"], dtype="Int64"),
+        "details": pd.Series(details, dtype=object),
+    })
+    frame["cycle"] = frame["cycle"].astype(object)
+    return frame.loc[:, list(FIGURE_COLUMNS)].sort_values(
+        ["cycle", "check", "measure"], kind="stable", ignore_index=True)
+
+
+def _parse_json(texts: list[str | None], *, default: Any) -> list[Any]:
+    """Each JSON text parsed once per distinct text (bounds and details repeat a lot)."""
+    cache: dict[str, Any] = {}
+    out = []
+    for t in texts:
+        if t is None:
+            out.append(default)
+            continue
+        hit = cache.get(t)
+        if hit is None:
+            hit = cache[t] = _bound(json.loads(t))
+        out.append(hit)
+    return out
+
+
+def _bound(value: Any) -> Any:
+    if isinstance(value, list) and len(value) == 2 and all(
+            isinstance(v, int | float) for v in value):
+        return (float(value[0]), float(value[1]))
+    return value
+
+
+def _result(doc: dict[str, Any], row: Any) -> CheckResult:
+    """A stored result back as a :class:`CheckResult` (with its examples and details)."""
+    examples = json.loads(row["examples"]) if row["examples"] else []
+    details = json.loads(row["details"]) if row["details"] else {}
+    if doc.get("waiver_id") is not None and "waiver" not in details:
+        details["waiver_id"] = doc["waiver_id"]
+    return CheckResult(
+        check=doc["check"], status=doc["status"], segment=doc["segment"], lag=doc["lag"],
+        measure=doc["measure"], value=doc["value"], warn=_bound(doc["warn"]),
+        fail=_bound(doc["fail"]), n_series=doc["n_series"], n_obs=doc["n_obs"],
+        message=doc["message"] or "", examples=examples if isinstance(examples, list) else [],
+        reason=doc["reason"], unit=doc["unit"], details=details if isinstance(details, dict)
+        else {},
+    )
