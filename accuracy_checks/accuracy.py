@@ -634,6 +634,17 @@ def evaluation_span(config: Config) -> int:
     return max(window, config.evaluation.tracking_window) if tracking else window
 
 
+def actuals_span(config: Config) -> int | None:
+    """How many of the most recent periods with actuals a run needs (the coverage window and
+    the evaluation span), or ``None`` when a reported measure needs the whole history (MASE's
+    scale, the value-added baselines) or comes from a plugin."""
+    for m in measures_to_report(config):
+        measure = get_measure(m)
+        if "history" in measure.needs or measure.origin != "built-in":
+            return None
+    return max(config.coverage.active_periods, evaluation_span(config))
+
+
 def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *,
                  book: ThresholdBook) -> list[CheckResult]:
     """The accuracy results of a run: evaluation frame → measures → judged results, plus a

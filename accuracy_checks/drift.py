@@ -49,7 +49,7 @@ n = 3, and the false-alarm rate at k = 3 grows from 1.27 % (n = 8) to 2.6 % (n =
 fewer makes the rule mostly noise.
 
 The rules are pure functions on arrays (:func:`control_limits`, :func:`breach_streaks`),
-vectorised over figures (a loop over cycles only); :func:`load_trail` reads the audit store
+fully vectorised (no loop over figures or cycles); :func:`load_trail` reads the audit store
 and :func:`drift_checks` ties them to a run (``engine.run_checks`` calls it before waivers are
 applied, so drift results can be waived and are recorded with the run).
 """
@@ -267,8 +267,9 @@ def load_trail(store: Store, *, before: str | None, cycles: int,
             .where(results.c.run_pk.in_(list(pk_cycle)), results.c.measure.is_not(None),
                    or_(false(), *wanted))
         ).all()
-    frame = pd.DataFrame(rows, columns=["run_pk", "check", "segment", "measure", "lag",
-                                        "status", "value", "details"])
+    frame = pd.DataFrame([tuple(r) for r in rows],
+                         columns=["run_pk", "check", "segment", "measure", "lag", "status",
+                                  "value", "details"])
     if frame.empty:
         return _empty_trail()
     frame["cycle"] = frame["run_pk"].map(pk_cycle)

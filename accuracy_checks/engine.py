@@ -19,7 +19,7 @@ import pandas as pd
 
 from accuracy_checks import frames as F
 from accuracy_checks import sources
-from accuracy_checks.accuracy import evaluation_span, run_accuracy
+from accuracy_checks.accuracy import actuals_span, evaluation_span, run_accuracy
 from accuracy_checks.accuracy import measures_to_report as accuracy_measures_to_report
 from accuracy_checks.archive import Archive, cycle_label
 from accuracy_checks.checks.coverage import coverage_checks
@@ -46,6 +46,13 @@ class Inputs:
     previous_label: str | None
     issued: pd.Timestamp
     info: dict[str, object]
+    #: series the actuals know from periods older than the ones read (``None``: all were read)
+    older_series: pd.DataFrame | None = None
+
+    @property
+    def known_series(self) -> list[pd.DataFrame]:
+        """Tables of series known besides the actuals read: the mapping, the older actuals."""
+        return [t for t in (self.mapping, self.older_series) if t is not None]
 
 
 def _quiet(_: str) -> None:
@@ -81,8 +88,20 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
     issued = pd.Timestamp(forecast[F.ISSUED].max())
 
     t0 = time.perf_counter()
-    actuals = sources.read_actuals(config, actuals_path)
-    progress(f"read actuals: {len(actuals):,} rows in {time.perf_counter() - t0:.1f} s")
+    # actuals: only the recent periods the checks use, unless a measure needs the whole
+    # history; the series the older rows know are kept for the unexpected-series check
+    needed = actuals_span(config)
+    periods = sources.actual_periods(config, actuals_path) if needed is not None else None
+    older: pd.DataFrame | None = None
+    if needed is not None and periods is not None and len(periods) > needed:
+        actuals = sources.read_actuals(config, actuals_path, periods=list(periods[-needed:]))
+        older = sources.actual_series(config, actuals_path)
+        progress(f"read actuals: {len(actuals):,} rows of the last {needed} periods "
+                 f"(older rows: {len(older):,} series known) in "
+                 f"{time.perf_counter() - t0:.1f} s")
+    else:
+        actuals = sources.read_actuals(config, actuals_path)
+        progress(f"read actuals: {len(actuals):,} rows in {time.perf_counter() - t0:.1f} s")
 
     t0 = time.perf_counter()
     # earlier forecasts: only rows of a configured lag inside the evaluation span are ever
@@ -121,6 +140,8 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
         frames.append(mapping)
     if previous is not None:
         frames.append(previous)
+    if older is not None:
+        frames.append(older)
     frames = sources.unify_categories(frames, [*keys, *seg_cols, F.SEGMENT])
     forecast, actuals = frames[0], frames[1]
     history = frames[2:2 + len(history)]
@@ -129,7 +150,9 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
     if mapping is not None:
         mapping, rest = rest[0], rest[1:]
     if previous is not None:
-        previous = rest[0]
+        previous, rest = rest[0], rest[1:]
+    if older is not None:
+        older = rest[0]
 
     forecast = sources.assign_segments(forecast, config, mapping, role="forecast")
     history = [sources.assign_segments(h, config, mapping, role="history") for h in history]
@@ -168,7 +191,7 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
                     "archive_rows": len(archived)},
     }
     return Inputs(forecast, actuals, earlier_frame, mapping, previous, previous_label, issued,
-                  info)
+                  info, older)
 
 
 def _concat(frames: list[pd.DataFrame]) -> pd.DataFrame:
@@ -301,7 +324,7 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
     results += stage("coverage checks", lambda: coverage_checks(
         inputs.forecast, inputs.actuals, keys=keys, frequency=config.frequency,
         horizon=config.horizon, active_periods=config.coverage.active_periods, book=book,
-        known_series=inputs.mapping, previous=inputs.previous,
+        known_series=inputs.known_series, previous=inputs.previous,
         previous_label=inputs.previous_label))
 
     results += stage("accuracy", lambda: run_accuracy(config, inputs.earlier, inputs.actuals,

@@ -322,7 +322,56 @@ def read_forecast(config: Config, path: Path | None = None, *, role: str = "fore
                         row_filter=row_filter)
 
 
-def read_actuals(config: Config, path: Path | None = None) -> pd.DataFrame:
+def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex | None:
+    """The sorted distinct periods that hold at least one actual, read from the period and
+    value columns of Parquet files only (``None`` when a file is CSV or its period column is
+    not a timestamp: such inputs are read whole)."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    ac = config.actuals
+    found = []
+    for f in list_files(path or ac.path, "actuals", "actuals.path"):
+        if f.suffix.lower() not in _PARQUET:
+            return None
+        try:
+            schema = pq.read_schema(f)
+            if ac.period not in schema.names or ac.value not in schema.names or not (
+                    pa.types.is_timestamp(schema.field(ac.period).type)):
+                return None
+            table = pq.read_table(f, columns=[ac.period, ac.value])
+        except (OSError, ValueError):
+            return None  # the full read reports the problem with its proper message
+        present = pc.filter(table[ac.period], pc.is_valid(table[ac.value]))
+        found.append(pc.unique(present).to_pandas())
+    periods = pd.DatetimeIndex(pd.concat(found, ignore_index=True).unique()).sort_values()
+    return periods.tz_localize(None).as_unit("ns") if periods.tz is not None else periods
+
+
+def actual_series(config: Config, path: Path | None = None) -> pd.DataFrame:
+    """The distinct series (key columns) over every row of Parquet actuals, grouped in Arrow:
+    the series the actuals know, without loading their rows."""
+    import pyarrow.parquet as pq
+
+    ac = config.actuals
+    src = list(config.actual_keys)
+    parts = []
+    for f in list_files(path or ac.path, "actuals", "actuals.path"):
+        table = pq.read_table(f, columns=src)
+        parts.append(table.group_by(src).aggregate([]).to_pandas())
+    table = pd.concat(parts, ignore_index=True)
+    table = table.rename(columns=dict(zip(src, config.forecast.keys, strict=False)))
+    column = Column("", "key", "actuals.keys")
+    out = {k: _to_key(table[k], Path(str(path or ac.path)), column, "actuals", 1,
+                      allow_missing=True) for k in config.forecast.keys}
+    return pd.DataFrame(out).drop_duplicates()
+
+
+def read_actuals(config: Config, path: Path | None = None,
+                 periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
+    """The actuals (all rows, or with ``periods`` only those periods: filtered while reading
+    Parquet, after reading CSV)."""
     ac = config.actuals
     path = path or ac.path
     cols = [Column(k, "key", "actuals.keys" if ac.keys else "forecast.keys")
@@ -331,7 +380,12 @@ def read_actuals(config: Config, path: Path | None = None) -> pd.DataFrame:
         Column(ac.period, "date", "actuals.period", F.PERIOD),
         Column(ac.value, "number", "actuals.value", F.ACTUAL),
     ]
-    frame = read_columns(path, cols, role="actuals", key="actuals.path")
+    frame = read_columns(path, cols, role="actuals", key="actuals.path",
+                         row_filter=(ac.period, periods) if periods is not None else None)
+    if periods is not None:
+        kept = frame[F.PERIOD].isin(periods).to_numpy()
+        if not kept.all():
+            frame = frame.loc[kept].reset_index(drop=True)
     if ac.keys and list(ac.keys) != list(config.forecast.keys):
         frame = frame.rename(columns=dict(zip(ac.keys, config.forecast.keys, strict=False)))
     keys = list(config.forecast.keys)

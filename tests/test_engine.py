@@ -201,3 +201,33 @@ def test_parquet_history_filtered_at_read_gives_the_same_numbers(
 
     assert figures(by_parquet) == figures(by_csv)
     assert by_parquet.inputs["earlier"]["rows"] == 12  # lag 1 in the 2-week window only
+
+
+def test_parquet_actuals_read_recent_periods_only_same_verdict(
+        make_project: Callable[..., Project]) -> None:
+    """Parquet actuals are read for the recent periods the checks use; a series known only
+    from older actuals is still known (not 'unexpected'), and every figure equals the CSV
+    path, which reads everything."""
+    actuals = actuals_frame(CURRENT)
+    # an old series: actuals long ago only, forecast again now
+    old = actuals[(actuals["store"] == "S1") & (actuals["product"] == "P1")].head(2)
+    actuals = pd.concat([actuals, old.assign(store="S9")], ignore_index=True)
+    forecast = forecast_frame(CURRENT)
+    forecast = pd.concat([forecast, forecast.head(4).assign(store="S9")], ignore_index=True)
+    project = make_project(actuals=actuals, forecast=forecast)
+    by_csv = run_checks(load_config(project.config), snapshot=False)
+    actuals.assign(week=pd.to_datetime(actuals["week"])).to_parquet(
+        project.data / "actuals.parquet", index=False)
+    project.config.write_text(project.config.read_text().replace("actuals.csv", "actuals.parquet"))
+    progress: list[str] = []
+    by_parquet = run_checks(load_config(project.config), snapshot=False, progress=progress.append)
+    assert any("of the last 4 periods" in line for line in progress)
+    assert by_parquet.inputs["actuals"]["rows"] == 6 * 4  # not the 8 weeks + 2 old rows
+    unexpected = find(by_parquet, "coverage.unexpected_series")
+    assert unexpected.value == 0, unexpected.message
+
+    def figures(report: RunReport) -> dict[tuple[object, ...], object]:
+        return {(r.check, r.segment, r.lag, r.measure): (r.value, r.n_obs, r.status)
+                for r in report.results}
+
+    assert figures(by_parquet) == figures(by_csv)

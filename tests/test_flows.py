@@ -262,12 +262,13 @@ def test_the_readme_deployment_schedules_the_flow_every_night() -> None:
 def test_retries_never_repeat_a_verdict(make_project: Make) -> None:
     from prefect import flow
 
-    from accuracy_checks.prefect import check_forecast
+    from accuracy_checks.prefect import check_forecast, first_failure
 
     @flow
     def gate_with_retries(config: str) -> Any:
         check = check_forecast.with_options(retries=2, retry_delay_seconds=0).submit(config)
-        return check.wait() or check.state
+        check.wait()
+        return first_failure(check)
 
     project = project_with_bias(make_project, 0.85)
     state = gate_with_retries(str(project.config), return_state=True)

@@ -374,13 +374,16 @@ def _unexpected_series(
     segments: list[tuple[str, np.ndarray | None]],
     forecast: pd.DataFrame,
     keys: list[str],
-    known_series: pd.DataFrame | None,
+    known_series: pd.DataFrame | Sequence[pd.DataFrame] | None,
     book: ThresholdBook,
     max_examples: int,
 ) -> list[CheckResult]:
     known = series.in_actuals.copy()
-    if known_series is not None:
-        known |= _known_by_table(series, forecast, keys, known_series)
+    tables = ([] if known_series is None else [known_series]
+              if isinstance(known_series, pd.DataFrame) else list(known_series))
+    for table in tables:
+        known |= _known_by_table(series, forecast, keys, table)
+    known_series = tables[0] if tables else None
     unexpected = series.in_forecast & ~known
     rows = np.bincount(series.f_ids, minlength=series.n)
     source = "the actuals" + (" and the table of known series" if known_series is not None else "")
@@ -704,7 +707,7 @@ def coverage_checks(
     horizon: int,
     active_periods: int,
     book: ThresholdBook,
-    known_series: pd.DataFrame | None = None,
+    known_series: pd.DataFrame | Sequence[pd.DataFrame] | None = None,
     previous: pd.DataFrame | None = None,
     previous_label: str | None = None,
     max_examples: int = 10,
@@ -727,8 +730,9 @@ def coverage_checks(
         Thresholds; judges ``missing_series_pct`` (%), ``unexpected_series``,
         ``incomplete_series`` (counts) and ``series_count_change_pct`` (%).
     known_series
-        Optional table of key columns (some or all of ``keys``) listing series that are
-        expected without actuals (a product mapping, say).
+        Optional table (or tables) of key columns (some or all of ``keys``) listing series
+        that are expected without actuals in ``actuals`` (a product mapping, say, or the
+        series of older actuals the run did not load).
     previous, previous_label
         The previous cycle's forecast and its label: adds ``coverage.series_count``.
     max_examples

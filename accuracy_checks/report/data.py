@@ -100,7 +100,7 @@ def load_report_data(store: Store, *, since: date | None = None,
             latest_rows = list(conn.execute(
                 select(results).where(results.c.run_pk == ids[latest["run_id"]])
                 .order_by(results.c.seq)).mappings())
-    figures = _figures(rows, pk_cycle)
+    figures = _figures(list(rows), pk_cycle)
     latest_results = [_result(result_dict(r), r) for r in latest_rows]
     waivers = store.waivers(include_inactive=True)
     return ReportData(store_url=store.url, generated_at=generated, since=since, runs=in_range,

@@ -665,8 +665,8 @@ def _timeline_section(data: ReportData, ids: _Ids, counter: list[int]) -> str:
     cyc, st, wid = (wanted["cycle"].to_numpy(), wanted["status"].to_numpy(),
                     wanted["waiver_id"].to_numpy())
     waivers = {w.id: w for w in data.waivers}
-    rows = []
-    table_rows = []
+    rows: list[tuple[str, list[str | None], list[tuple[int, int, str]]]] = []
+    table_rows: list[list[str]] = []
     verdicts: list[str | None] = [None] * n
     for c, run in data.cycle_runs.items():
         if c in cyc_index:

@@ -517,8 +517,8 @@ def trend_chart(spec: TrendSpec, *, title: str, desc: str, uid: str, width: int 
              for v in [spec.lines[0].values[k] if spec.lines else None]
              if v is not None and math.isfinite(v)]
     if rings:
-        d = "".join(marker_path("circle", gx, gy, 7.5) for gx, gy in rings)
-        out.append(f'<path d="{d}" class="ring"/>')
+        ring_d = "".join(marker_path("circle", gx, gy, 7.5) for gx, gy in rings)
+        out.append(f'<path d="{ring_d}" class="ring"/>')
     out += [status_markers(s, pts, 4.6) for s, pts in status_pts.items()]
     out.append("</svg>")
     return "".join(out)
