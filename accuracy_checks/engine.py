@@ -135,24 +135,16 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
         for s in from_archive
     ]
 
-    frames = [forecast, actuals, *history, *archived_parts]
-    if mapping is not None:
-        frames.append(mapping)
-    if previous is not None:
-        frames.append(previous)
-    if older is not None:
-        frames.append(older)
-    frames = sources.unify_categories(frames, [*keys, *seg_cols, F.SEGMENT])
-    forecast, actuals = frames[0], frames[1]
-    history = frames[2:2 + len(history)]
-    archived_parts = frames[2 + len(history):2 + len(history) + len(archived_parts)]
-    rest = frames[2 + len(history) + len(archived_parts):]
-    if mapping is not None:
-        mapping, rest = rest[0], rest[1:]
-    if previous is not None:
-        previous, rest = rest[0], rest[1:]
-    if older is not None:
-        older = rest[0]
+    singles = {"forecast": forecast, "actuals": actuals, "mapping": mapping,
+               "previous": previous, "older": older}
+    present = {name: f for name, f in singles.items() if f is not None}
+    unified = sources.unify_categories([*present.values(), *history, *archived_parts],
+                                       [*keys, *seg_cols, F.SEGMENT])
+    got = dict(zip(present, unified, strict=False))
+    history = unified[len(present):len(present) + len(history)]
+    archived_parts = unified[len(present) + len(history):]
+    forecast, actuals = got["forecast"], got["actuals"]
+    mapping, previous, older = got.get("mapping"), got.get("previous"), got.get("older")
 
     forecast = sources.assign_segments(forecast, config, mapping, role="forecast")
     history = [sources.assign_segments(h, config, mapping, role="history") for h in history]
