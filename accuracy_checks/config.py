@@ -174,14 +174,7 @@ class Evaluation(_Strict):
     @field_validator("measures")
     @classmethod
     def _measures(cls, measures: list[str]) -> list[str]:
-        known = measure_directions()
-        for measure in measures:
-            if measure != "all" and measure not in known:
-                raise ValueError(
-                    f"unknown measure {measure!r}" + _did_you_mean(measure, known)
-                    + f"; measures: all, {', '.join(sorted(known))}"
-                )
-        return list(dict.fromkeys(measures))
+        return _measure_list(measures)
 
 
 class UnitCosts(_Strict):
@@ -238,14 +231,7 @@ class Drift(_Strict):
     @field_validator("measures")
     @classmethod
     def _measures(cls, measures: list[str]) -> list[str]:
-        known = measure_directions()
-        for measure in measures:
-            if measure != "all" and measure not in known:
-                raise ValueError(
-                    f"unknown measure {measure!r}" + _did_you_mean(measure, known)
-                    + f"; measures: all, {', '.join(sorted(known))}"
-                )
-        return list(dict.fromkeys(measures))
+        return _measure_list(measures)
 
     @model_validator(mode="after")
     def _counts(self) -> Drift:
@@ -426,6 +412,18 @@ def _show(bound: Bound) -> str:
     if isinstance(bound, tuple):
         return f"[{bound[0]:g}, {bound[1]:g}]"
     return f"{bound:g}"
+
+
+def _measure_list(measures: list[str]) -> list[str]:
+    """Measure ids (or ``all``) named in a list key, each known, without repeats."""
+    known = measure_directions()
+    for measure in measures:
+        if measure != "all" and measure not in known:
+            raise ValueError(
+                f"unknown measure {measure!r}" + _did_you_mean(measure, known)
+                + f"; measures: all, {', '.join(sorted(known))}"
+            )
+    return list(dict.fromkeys(measures))
 
 
 def _did_you_mean(word: str, candidates: typing.Iterable[str]) -> str:

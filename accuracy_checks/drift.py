@@ -455,14 +455,9 @@ def _ideal(result: CheckResult) -> float:
 
 
 def _label(measure: str | None) -> str:
-    if measure is None:
-        return "value"
-    try:
-        from accuracy_checks.measures.registry import get_measure
+    from accuracy_checks.measures.registry import measure_label
 
-        return get_measure(measure).label
-    except KeyError:
-        return measure
+    return measure_label(measure)
 
 
 def _name(r: CheckResult) -> str:

@@ -307,6 +307,14 @@ def check_measure(measure: Measure) -> None:
         ) from None
 
 
+def measure_label(measure_id: str | None) -> str:
+    """The readable label of a measure id (the id itself when unknown, ``value`` for none)."""
+    if measure_id is None:
+        return "value"
+    found = MEASURES.get(measure_id)
+    return found.label if found is not None else measure_id
+
+
 def register_measure(measure: Measure, *, replace: bool = False) -> None:
     """Add ``measure`` to :data:`MEASURES`.
 

@@ -202,14 +202,9 @@ def _figure(svg: str, caption: str, table: str, *, cls: str = "") -> str:
 
 
 def _measure_label(measure: str | None) -> str:
-    if measure is None:
-        return "value"
-    try:
-        from accuracy_checks.measures.registry import get_measure
+    from accuracy_checks.measures.registry import measure_label
 
-        return get_measure(measure).label
-    except KeyError:
-        return measure
+    return measure_label(measure)
 
 
 def _unit_note(label: str, unit: str | None) -> str:
