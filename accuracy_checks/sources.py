@@ -180,6 +180,11 @@ def _read_csv(file: Path, **kwargs: object) -> pd.DataFrame:
     return pd.read_csv(file, sep=sep, **kwargs)  # type: ignore[call-overload,no-any-return]
 
 
+def _count(n: int, one: str, many: str) -> str:
+    """``1 value that is`` / ``3 values that are``."""
+    return f"{n:,} {one if n == 1 else many}"
+
+
 def _rows(mask: np.ndarray, values: pd.Series, first_line: int) -> str:
     idx = np.flatnonzero(mask)[:_SHOW]
     label = "line" if first_line == 2 else "row"
@@ -227,7 +232,8 @@ def _to_number(s: pd.Series, file: Path, c: Column, role: str, first_line: int) 
     if bad.any():
         raise InputError(
             f"The {role} file {file}, column {c.name!r} (config key `{c.key}`), holds "
-            f"{int(bad.sum())} values that are not numbers ({_rows(bad, s, first_line)}). "
+            f"{_count(int(bad.sum()), 'value that is', 'values that are')} not a number "
+            f"({_rows(bad, s, first_line)}). "
             "Write plain numbers (a dot as decimal mark), or leave the cell empty for a "
             "missing value."
         )
@@ -249,7 +255,8 @@ def _to_date(s: pd.Series, file: Path, c: Column, role: str, first_line: int) ->
         if bad.any():
             raise InputError(
                 f"The {role} file {file}, column {c.name!r} (config key `{c.key}`), has "
-                f"{int(bad.sum())} values that are not dates ({_rows(bad, s, first_line)}). "
+                f"{_count(int(bad.sum()), 'value that is', 'values that are')} not a date "
+                f"({_rows(bad, s, first_line)}). "
                 "Write dates as YYYY-MM-DD (ISO 8601)."
             )
     if isinstance(out.dtype, pd.DatetimeTZDtype):
@@ -274,9 +281,9 @@ def _parse_dates(values: pd.Series, file: Path, c: Column, role: str) -> pd.Date
         except ValueError as exc:
             raise InputError(
                 f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), mixes "
-                f"time zones or formats that cannot be read together ({exc}). Write all dates "
-                "in one form, YYYY-MM-DD, without time-zone offsets."
-            ) from None
+                "time zones (different UTC offsets) or formats that cannot be read together. "
+                "Write all dates in one form, YYYY-MM-DD, without time-zone offsets."
+            ) from exc
         parsed = alt if parsed is None else parsed.fillna(alt)
     if isinstance(parsed.dtype, pd.DatetimeTZDtype):
         parsed = parsed.dt.tz_localize(None)

@@ -96,7 +96,7 @@ def test_non_numeric_values_name_the_lines(make_project: Callable[..., Project],
     forecast.loc[3, "units"] = "twelve"
     project = make_project(forecast=forecast)
     err = bad(project, capsys)
-    assert "'units'" in err and "not numbers" in err and "line 5: 'twelve'" in err
+    assert "'units'" in err and "1 value that is not a number" in err and "line 5: 'twelve'" in err
 
 
 def test_unparseable_dates(make_project: Callable[..., Project],
@@ -105,7 +105,7 @@ def test_unparseable_dates(make_project: Callable[..., Project],
     forecast.loc[0, "week"] = "next monday"
     project = make_project(forecast=forecast)
     err = bad(project, capsys)
-    assert "'week'" in err and "not dates" in err and "line 2: 'next monday'" in err
+    assert "'week'" in err and "1 value that is not a date" in err and "line 2: 'next monday'" in err
 
 
 def test_config_errors_exit_2(make_project: Callable[..., Project],
@@ -158,3 +158,13 @@ def test_python_dash_m_runs_the_same_cli(make_project: Callable[..., Project]) -
         capture_output=True, text=True, cwd=Path(__file__).parent.parent, check=False)
     assert proc.returncode == 0, proc.stderr
     assert "read forecast" in proc.stderr  # progress lines go to stderr
+
+
+def test_mixed_time_zones_are_named_without_library_noise(
+        make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str]) -> None:
+    forecast = forecast_frame(CURRENT)
+    forecast["week"] = forecast["week"] + "T00:00:00+01:00"
+    forecast.loc[3, "week"] = forecast.loc[3, "week"].replace("+01:00", "+02:00")
+    project = make_project(forecast=forecast)
+    err = bad(project, capsys)
+    assert "'week'" in err and "mixes time zones" in err and "utc=True" not in err
