@@ -22,6 +22,7 @@ from accuracy_checks import sources
 from accuracy_checks.accuracy import actuals_span, evaluation_span, run_accuracy
 from accuracy_checks.accuracy import measures_to_report as accuracy_measures_to_report
 from accuracy_checks.archive import Archive, cycle_label
+from accuracy_checks.check_plugins import run_check_plugins
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.codes import combined_codes
@@ -322,6 +323,7 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
     results += stage("accuracy", lambda: run_accuracy(config, inputs.earlier, inputs.actuals,
                                                       book=book))
     results += unmatched_thresholds(config, inputs)
+    results += run_check_plugins(inputs, config, book)
     return results
 
 
