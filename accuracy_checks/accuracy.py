@@ -194,7 +194,7 @@ class _Job:
         (from the key columns), so every series has one."""
         frame = self.frame
         if SERIES in frame.columns and self.history is not None:
-            codes = frame[SERIES].to_numpy(dtype=np.int64)
+            codes = frame[SERIES].to_numpy(dtype=np.int64, copy=True)
             known = self.history.n_series
         else:
             codes = np.full(len(frame), -1, dtype=np.int64)

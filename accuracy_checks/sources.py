@@ -447,8 +447,10 @@ def read_mapping(config: Config) -> pd.DataFrame | None:
             rows = table.loc[twice].sort_values(keys).head(2 * _SHOW)
             first = rows.iloc[0]
             series = ", ".join(f"{k}={first[k]}" for k in keys)
-            segs = rows.loc[(rows[keys] == first[keys]).all(axis=1), seg].astype(str)
-            both = " and ".join("/".join(r) for r in segs.to_numpy().tolist())
+            segs = rows.loc[(rows[keys] == first[keys]).all(axis=1), seg]
+            both = " and ".join(
+                "/".join("(empty)" if pd.isna(v) else str(v) for v in r)
+                for r in segs.to_numpy(dtype=object).tolist())
             n = table.loc[twice, keys].drop_duplicates().shape[0]
             raise InputError(
                 f"The mapping {path} puts {n} series in more than one segment (e.g. {series} "
