@@ -24,6 +24,9 @@ def _parser() -> argparse.ArgumentParser:
         description="Gate a forecast: coverage and output checks, accuracy of earlier cycles "
         "against actuals, per-segment thresholds.",
     )
+    from accuracy_checks import __version__
+
+    p.add_argument("--version", action="version", version=f"accuracy-checks {__version__}")
     sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
     run = sub.add_parser("run", help="check the current forecast and judge accuracy")

@@ -169,3 +169,10 @@ def test_mixed_time_zones_are_named_without_library_noise(
     project = make_project(forecast=forecast)
     err = bad(project, capsys)
     assert "'week'" in err and "mixes time zones" in err and "utc=True" not in err
+
+
+def test_version(capsys: pytest.CaptureFixture[str]) -> None:
+    with pytest.raises(SystemExit) as info:
+        main(["--version"])
+    assert info.value.code == 0
+    assert capsys.readouterr().out.strip() == "accuracy-checks 0.1.0"
