@@ -20,7 +20,6 @@ import pandas as pd
 from accuracy_checks import frames as F
 from accuracy_checks import sources
 from accuracy_checks.accuracy import actuals_span, evaluation_span, run_accuracy
-from accuracy_checks.accuracy import measures_to_report as accuracy_measures_to_report
 from accuracy_checks.archive import Archive, cycle_label
 from accuracy_checks.check_plugins import run_check_plugins
 from accuracy_checks.checks.coverage import coverage_checks
@@ -325,11 +324,6 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
     results += unmatched_thresholds(config, inputs)
     results += run_check_plugins(inputs, config, book)
     return results
-
-
-def measures_to_report(config: Config) -> list[str]:
-    """The measures a run reports (see :func:`accuracy_checks.accuracy.measures_to_report`)."""
-    return accuracy_measures_to_report(config)
 
 
 def unmatched_thresholds(config: Config, inputs: Inputs) -> list[CheckResult]:
