@@ -6,6 +6,7 @@ from __future__ import annotations
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 import pytest
@@ -119,3 +120,25 @@ def make_project(tmp_path: Path) -> Callable[..., Project]:
         return project
 
     return make
+
+
+@dataclass
+class FakeDist:
+    """Stands in for an installed distribution in entry-point tests."""
+
+    name: str
+
+
+@dataclass
+class FakeEntryPoint:
+    """Stands in for an ``importlib.metadata`` entry point (plugin tests)."""
+
+    name: str
+    value: str
+    target: Any
+    dist: FakeDist | None = None
+
+    def load(self) -> Any:
+        if isinstance(self.target, Exception):
+            raise self.target
+        return self.target

@@ -7,11 +7,10 @@ installed package would.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
 from typing import Any
 
 import pytest
-from conftest import Project
+from conftest import FakeDist, FakeEntryPoint, Project
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.check_plugins import GROUP, reset_check_plugins
@@ -40,24 +39,6 @@ def not_a_list(inputs: Any, config: Any, book: Any) -> dict[str, int]:
 
 def one_arg(inputs: Any) -> list[CheckResult]:
     return []
-
-
-@dataclass
-class FakeDist:
-    name: str
-
-
-@dataclass
-class FakeEntryPoint:
-    name: str
-    value: str
-    target: Any
-    dist: FakeDist | None = None
-
-    def load(self) -> Any:
-        if isinstance(self.target, Exception):
-            raise self.target
-        return self.target
 
 
 PLUGINS = [

@@ -7,13 +7,11 @@ installed package would.
 from __future__ import annotations
 
 from collections.abc import Callable, Iterator
-from dataclasses import dataclass
-from typing import Any
 
 import numpy as np
 import pandas as pd
 import pytest
-from conftest import CONFIG, Project
+from conftest import CONFIG, FakeDist, FakeEntryPoint, Project
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.errors import ConfigError
@@ -48,24 +46,6 @@ TWO_ARGS = Measure(id="two_args", label="Two args", unit="", direction="lower",
                    compute=lambda data, extra: data, description="wrong signature")  # type: ignore[arg-type,misc]
 CLASH = Measure(id="wape", label="My WAPE", unit="%", direction="lower",
                 compute=_stockout_rate, description="clashes with the built-in")
-
-
-@dataclass
-class FakeDist:
-    name: str
-
-
-@dataclass
-class FakeEntryPoint:
-    name: str
-    value: str
-    target: Any
-    dist: FakeDist | None = None
-
-    def load(self) -> Any:
-        if isinstance(self.target, Exception):
-            raise self.target
-        return self.target
 
 
 PLUGINS = [
