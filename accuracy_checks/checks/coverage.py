@@ -182,11 +182,12 @@ def _series_examples(
     ids: np.ndarray,
     wanted: np.ndarray,
     keys: list[str],
-    segment_name: np.ndarray,
+    series: _Series,
 ) -> list[dict[str, Any]]:
     """Key values of the series ``wanted`` (one dict each), with their segment."""
     examples = row_examples(frame, _first_rows(ids, wanted), keys)
-    for example, seg in zip(examples, segment_name, strict=True):
+    names = np.asarray(series.segment_names, dtype=object)[series.segment[wanted]]
+    for example, seg in zip(examples, names, strict=True):
         example[SEGMENT] = str(seg)
     return examples
 
@@ -304,7 +305,7 @@ def _missing_series(
                 series.a_ids,
                 shown,
                 keys,
-                np.asarray(series.segment_names, dtype=object)[series.segment[shown]],
+                series,
             )
             for example, vol in zip(examples, volume[shown], strict=True):
                 example["recent_actuals"] = json_value(vol)
@@ -412,7 +413,7 @@ def _unexpected_series(
                 series.f_ids,
                 shown,
                 keys,
-                np.asarray(series.segment_names, dtype=object)[series.segment[shown]],
+                series,
             )
             for example, n in zip(examples, rows[shown], strict=True):
                 example["rows"] = int(n)
@@ -596,7 +597,7 @@ def _horizon(
                 series.f_ids,
                 shown,
                 keys,
-                np.asarray(series.segment_names, dtype=object)[series.segment[shown]],
+                series,
             )
             texts = _horizon_details(steps, forecast, series, shown, horizon)
             for example, text in zip(examples, texts, strict=True):
