@@ -10,13 +10,17 @@ import json
 import os
 import re
 import xml.etree.ElementTree as ET
+from collections.abc import Callable
 from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
 import pytest
+import xmlschema
+from conftest import EARLIER, Project, forecast_frame
 
+from accuracy_checks.cli import main
 from accuracy_checks.outputs import (
     describe_threshold,
     describe_value,
@@ -49,6 +53,7 @@ CONTRACT_KEYS = {
     "examples",
 }
 EXTRA_KEYS = {"reason", "unit", "details"}
+JUNIT_XSD = Path(__file__).parent / "data" / "junit-10.xsd"
 
 
 def _report(results: list[CheckResult], cycle: str | None = "2026-03-02") -> RunReport:
@@ -299,7 +304,7 @@ def test_junit_structure_and_counts() -> None:
     assert root.tag == "testsuites"
     assert root.get("tests") == str(len(report.results))
     assert root.get("failures") == "4"  # 3 fail + 1 error
-    assert root.get("skipped") == "2"  # skipped + waived
+    assert root.get("skipped") is None  # the JUnit XSD has no `skipped` on <testsuites>
     assert root.get("time") == "7.500"
     suites = {s.get("name"): s for s in root.findall("testsuite")}
     assert list(suites) == ["accuracy", "coverage", "output"]
@@ -333,8 +338,9 @@ def test_junit_statuses_map_to_elements() -> None:
     warned = cases["bias_pct[segment=*, lag=1]"]
     assert warned.find("failure") is None and warned.find("skipped") is None
     assert "over-forecast by 6.21 %" in (warned.findtext("system-out") or "")
-    prop = warned.find("properties/property")
-    assert prop is not None and (prop.get("name"), prop.get("value")) == ("status", "warn")
+    assert (warned.findtext("system-out") or "").startswith("WARNING: ")
+    assert warned.find("properties") is None  # the JUnit XSD has no <properties> in <testcase>
+    assert [c.tag for c in warned] == ["system-out"]
 
     skipped = cases["mape[segment=pet-care, lag=1]"].find("skipped")
     assert skipped is not None and skipped.get("message") == "zero_actual"
@@ -376,6 +382,74 @@ def test_junit_nasty_names_round_trip(tmp_path: Path) -> None:
     assert f"segment: {NASTY}" in (failure.text or "")
     assert (failure.get("message") or "").endswith(NASTY)
     assert "<script>" not in path.read_text(encoding="utf-8")  # escaped in the raw file
+
+
+def _junit_schema() -> xmlschema.XMLSchema:
+    """The jenkins-junit XSD that pytest checks its own JUnit output against (vendored)."""
+    return xmlschema.XMLSchema(JUNIT_XSD)
+
+
+def _schema_errors(text: str) -> list[str]:
+    return [f"{e.path}: {e.reason}" for e in _junit_schema().iter_errors(text)]
+
+
+@pytest.mark.parametrize(
+    "results",
+    [
+        pytest.param([], id="empty"),
+        pytest.param([_acc("pass", "*", "wape", 12.0, warn=25, fail=40)], id="pass"),
+        pytest.param([_acc("warn", "*", "bias_pct", -6.2, warn=5, fail=10, message="w")],
+                     id="warn"),
+        pytest.param([_acc("fail", "tools", "wape", 52.3, warn=25, fail=40)], id="fail"),
+        pytest.param([_acc("skipped", "*", "mape", None, reason="zero_actual")], id="skipped"),
+        pytest.param([CheckResult("output.negative_values", "waived", value=2, fail=0,
+                                  message="returns until April")], id="waived"),
+        pytest.param([CheckResult("coverage.horizon", "error", message="no frame")], id="error"),
+        pytest.param(
+            [
+                _acc("fail", "bad\x01\x1b[31m\x7f", "wape", 52.3, message="ctl \x00\x08\x0c"),
+                _acc("warn", "Gärten — 園芸 🌱", "bias_pct", 6.0, message="ümlaut ñ € 🌱"),
+                _acc("fail", NASTY, "wape", 53.0, examples=[{"k": "a\x02b", "ü": "é"}]),
+                CheckResult("output.invalid\x03", "skipped", reason="r\x04", message="m\ud800"),
+            ],
+            id="control-and-non-ascii",
+        ),
+        pytest.param(_mixed_report().results, id="mixed"),
+    ],
+)
+def test_junit_is_valid_against_the_junit_xsd(results: list[CheckResult]) -> None:
+    text = to_junit_xml(_report(results))
+    assert _schema_errors(text) == []
+    ET.fromstring(text)  # and well-formed for a plain parser
+
+
+def test_junit_without_run_times_is_valid() -> None:
+    report = RunReport("r", None, None, [_acc("pass", "*", "wape", 1.0)], "", "not a time")
+    assert _schema_errors(to_junit_xml(report)) == []
+
+
+@pytest.mark.parametrize(
+    ("bias", "expected_code", "expected_tag"),
+    [(0.97, 0, None), (0.93, 0, "system-out"), (0.7, 1, "failure")],
+    ids=["pass", "warn", "fail"],
+)
+def test_cli_junit_is_valid_against_the_junit_xsd(
+    make_project: Callable[..., Project], bias: float, expected_code: int,
+    expected_tag: str | None,
+) -> None:
+    # bias 0.93: bias_pct 7 % is beyond warn 5 but not fail 10; 0.7 is beyond fail (conftest)
+    earlier = pd.concat([forecast_frame(d, bias=bias) for d in EARLIER], ignore_index=True)
+    project = make_project(earlier=earlier)
+    path = project.root / "out" / "r.xml"
+    code = main(["run", "--config", str(project.config), "-q", "--no-color", "--no-snapshot",
+                 "--junit", str(path)])
+    assert code == expected_code
+    text = path.read_text(encoding="utf-8")
+    assert _schema_errors(text) == []
+    tags = {child.tag for case in ET.fromstring(text).iter("testcase") for child in case}
+    assert "properties" not in tags
+    if expected_tag is not None:
+        assert expected_tag in tags
 
 
 # --------------------------------------------------------------------------- Markdown
