@@ -94,7 +94,15 @@ def main(argv: list[str] | None = None) -> int:
 
             text = json.dumps(json_schema(), indent=2)
             if args.out:
-                args.out.write_text(text + "\n", encoding="utf-8")
+                from accuracy_checks.outputs.jsonfile import write_text_atomic
+
+                try:
+                    write_text_atomic(args.out, text + "\n")
+                except OSError as exc:
+                    raise UsageError(
+                        f"Cannot write the schema to {args.out}: {exc.strerror or exc}. Give "
+                        "--out a file in a folder you can write, or leave it out to print."
+                    ) from None
             else:
                 print(text)
             return EXIT_PASS

@@ -601,8 +601,63 @@ def _unwrap(tp: Any) -> Any:
 
 
 def json_schema() -> dict[str, Any]:
-    """The config's JSON Schema (for editors: yaml-language-server, VS Code)."""
+    """The config's JSON Schema (for editors: yaml-language-server, VS Code).
+
+    Built at call time from :func:`measure_directions`, so plugin measures are included. It
+    rejects what :func:`parse_config` rejects for a name: an unknown key anywhere, an unknown
+    measure as a threshold key (``thresholds.default.<measure>``,
+    ``thresholds.segments.<segment>.<measure>``) or in ``evaluation.measures`` /
+    ``drift.measures`` (which also take ``all``); and it lists the valid measures for
+    completion (one property per measure, with its label, unit and direction).
+    """
     schema = Config.model_json_schema()
     schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
     schema["title"] = "accuracy-checks config"
+    _add_measure_names(schema)
     return schema
+
+
+def _measure_description(measure: str) -> str:
+    """One line for an editor's completion list: label, unit, which way is better."""
+    from accuracy_checks.measures.registry import registered_measures
+
+    direction, unit = measure_directions()[measure]
+    better = {
+        "lower": "lower is better",
+        "higher": "higher is better",
+        "centered": "levels bound its distance from its target",
+    }[direction]
+    registered = registered_measures().get(measure)
+    label = registered.label if registered is not None else "coverage check figure"
+    return f"{label} ({unit}; {better})" if unit else f"{label} ({better})"
+
+
+def _add_measure_names(schema: dict[str, Any]) -> None:
+    """Constrain the measure names of ``schema`` (from :meth:`Config.model_json_schema`) in
+    place: ``$defs/MeasureLevels`` (one property per measure, no other key) for the threshold
+    maps, ``$defs/MeasureName`` (an enum with ``all``) for the measure lists."""
+    known = sorted(measure_directions())
+    defs = schema["$defs"]
+    defs["MeasureLevels"] = {
+        "title": "Levels by measure",
+        "description": "warn and fail levels keyed by measure id",
+        "type": "object",
+        "properties": {
+            m: {"$ref": "#/$defs/Level", "description": _measure_description(m)} for m in known
+        },
+        "additionalProperties": False,
+    }
+    defs["MeasureName"] = {
+        "title": "Measure",
+        "description": "a measure id, or `all` for every measure whose inputs the config has",
+        "enum": ["all", *known],
+    }
+    thresholds = defs["Thresholds"]["properties"]
+    thresholds["default"] = {"$ref": "#/$defs/MeasureLevels"}
+    thresholds["segments"] = {
+        "title": "Levels by segment",
+        "type": "object",
+        "additionalProperties": {"$ref": "#/$defs/MeasureLevels"},
+    }
+    for model in ("Evaluation", "Drift"):
+        defs[model]["properties"]["measures"]["items"] = {"$ref": "#/$defs/MeasureName"}
