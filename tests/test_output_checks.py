@@ -7,12 +7,15 @@ source: these checks are rules of this project, see PRODUCT.md "Is the output wh
 from __future__ import annotations
 
 import json
+from collections.abc import Callable
+from pathlib import Path
 from typing import Any
 
 import numpy as np
 import pandas as pd
 import pandera.pandas as pa
 import pytest
+from conftest import CURRENT, Project, forecast_frame
 
 from accuracy_checks.checks.output import (
     DUPLICATE_ROWS,
@@ -24,6 +27,7 @@ from accuracy_checks.checks.output import (
     output_checks,
     output_schema,
 )
+from accuracy_checks.cli import main
 from accuracy_checks.errors import InputError
 from accuracy_checks.results import CheckResult
 
@@ -206,6 +210,70 @@ def test_quantile_crossing_across_a_missing_middle_quantile() -> None:
     results = run(f, quantile_columns=["q0.1", "q0.5", "q0.9"])
     assert results[QUANTILE_ORDER].n_obs == 1
     assert results[INVALID_VALUES].n_obs == 1
+
+
+def test_quantile_crossing_is_worded_with_the_files_own_columns() -> None:
+    f = frame().assign(**{"q0.5": lambda d: d["forecast"]})
+    qcols = ["q0.1", "q0.5", "q0.9"]
+    f.loc[1, "q0.1"] = f.loc[1, "q0.9"] + 1.0  # p10 above p50 and above p90
+    f.loc[4, "q0.5"] = f.loc[4, "q0.9"] + 1.0  # p50 above p90
+    r = run(f, quantile_columns=qcols, quantile_names=["p10", "p50", "p90"])[QUANTILE_ORDER]
+    assert r.status == "fail" and r.n_obs == 2
+    assert r.message == (
+        "2 rows have crossing quantiles, a lower level above a higher one (p10 > p50 in 1 row, "
+        "p10 > p90 in 1 row, p50 > p90 in 1 row); quantile forecasts must not decrease as the "
+        "level rises (p10, p50, p90)"
+    )
+    assert "q0." not in r.message
+    assert r.details == {"crossings": {"p10 > p50": 1, "p10 > p90": 1, "p50 > p90": 1}}
+    assert list(r.examples[0]) == ["store", "product", "period", "issued", "p10", "p50", "p90"]
+    assert r.examples[0]["p10"] > r.examples[0]["p90"]
+    clean = run(frame(), quantile_names=["p10", "p90"])[QUANTILE_ORDER]
+    assert clean.message == "Quantiles rise with their level (p10, p90) in every row."
+
+
+def test_quantile_crossing_lists_at_most_three_pairs() -> None:
+    f = frame()
+    qcols = [f"q0.{k}" for k in range(1, 6)]
+    f[qcols] = np.array([5.0, 4.0, 3.0, 2.0, 1.0])  # every one of the 10 pairs crosses
+    names = [f"p{k}0" for k in range(1, 6)]
+    r = run(f, quantile_columns=qcols, quantile_names=names)[QUANTILE_ORDER]
+    assert r.n_obs == len(f)
+    assert "(p10 > p20 in 9 rows, p10 > p30 in 9 rows, p10 > p40 in 9 rows, and 7 more pairs)" \
+        in r.message
+    assert len(r.details["crossings"]) == 10
+
+
+def test_a_file_quantile_name_that_clashes_with_an_identifying_field_keeps_its_label() -> None:
+    f = frame()
+    f.loc[0, "q0.1"] = 99.0
+    r = run(f, quantile_names=["period", "p90"])[QUANTILE_ORDER]
+    example = r.examples[0]
+    assert example["period"] == "2026-03-02" and example["q0.1"] == 99.0
+    assert "period > p90 in 1 row" in r.message
+
+
+def test_cli_names_the_files_quantile_columns(
+    make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str], tmp_path: Path
+) -> None:
+    # conftest's config maps quantiles {0.1: p10, 0.9: p90}; 3 rows get p10 above p90
+    forecast = forecast_frame(CURRENT)
+    forecast.loc[[0, 5, 9], ["p10", "p90"]] = forecast.loc[[0, 5, 9], ["p90", "p10"]].to_numpy()
+    project = make_project(forecast=forecast)
+    out = tmp_path / "r.json"
+    code = main(["run", "--config", str(project.config), "-q", "--no-color", "--no-snapshot",
+                 "--json", str(out)])
+    assert code == 1
+    console = capsys.readouterr().out
+    (order,) = [r for r in json.loads(out.read_text())["results"]
+                if r["check"] == QUANTILE_ORDER]
+    assert order["status"] == "fail" and order["value"] == 3
+    assert "(p10 > p90 in 3 rows)" in order["message"]
+    assert "q0.1" not in order["message"] and "q0.9" not in order["message"]
+    assert {"p10", "p90"} <= set(order["examples"][0])
+    assert not {"q0.1", "q0.9"} & set(order["examples"][0])
+    assert order["examples"][0]["p10"] > order["examples"][0]["p90"]
+    assert "p10 > p90" in console and "q0.1" not in console
 
 
 def test_two_issue_dates_listed_with_row_counts() -> None:

@@ -347,6 +347,7 @@ def output_checks(
     quantile_columns: list[str],
     allow_negative: bool | Collection[str] = False,
     max_examples: int = 10,
+    quantile_names: Sequence[str] | None = None,
 ) -> list[CheckResult]:
     """Run the five output checks on the canonical forecast frame; one result each, always.
 
@@ -364,6 +365,10 @@ def output_checks(
         them in those segments only; ``False`` allows them nowhere.
     max_examples
         At most this many offending rows (issue dates for ``output.issue_dates``) per result.
+    quantile_names
+        The forecast file's own names of ``quantile_columns``, in the same order
+        (``config.forecast.quantiles``' values: ``["p10", "p90"]``); ``output.quantile_order``
+        words its message and examples with them (default: ``quantile_columns``).
 
     Returns
     -------
@@ -427,7 +432,14 @@ def output_checks(
         )
     else:
         results.append(
-            _crossing(forecast, mask_of(QUANTILE_ORDER), keys, quantile_columns, max_examples)
+            _crossing(
+                forecast,
+                mask_of(QUANTILE_ORDER),
+                keys,
+                quantile_columns,
+                max_examples,
+                _file_names(quantile_columns, quantile_names),
+            )
         )
     results.append(_issue_dates(forecast, mask_of(ISSUE_DATES), keys, max_examples))
     return results
@@ -588,25 +600,70 @@ def _negative(
     )
 
 
+def _file_names(quantile_columns: list[str], names: Sequence[str] | None) -> dict[str, str]:
+    """Canonical quantile column → the file's own column name (itself when not given)."""
+    if names is None:
+        return {c: c for c in quantile_columns}
+    names = [str(n) for n in names]
+    if len(names) != len(quantile_columns):
+        raise ValueError(
+            f"quantile_names {names} do not match quantile_columns {quantile_columns}"
+        )
+    return dict(zip(quantile_columns, names, strict=True))
+
+
+def _crossing_pairs(
+    frame: pd.DataFrame, mask: np.ndarray, quantile_columns: list[str]
+) -> list[tuple[str, str, int]]:
+    """(lower-level column, higher-level column, rows where the lower is above the higher) for
+    every pair of quantile columns that crosses in an offending row, in column order."""
+    if not mask.any():
+        return []
+    subset = frame.loc[mask, quantile_columns]
+    values = [_as_float(subset, c) for c in quantile_columns]
+    pairs = []
+    for i, low in enumerate(quantile_columns):
+        for j in range(i + 1, len(quantile_columns)):
+            n = int(np.count_nonzero(values[i] > values[j]))  # NaN compares False
+            if n:
+                pairs.append((low, quantile_columns[j], n))
+    return pairs
+
+
 def _crossing(
     frame: pd.DataFrame,
     mask: np.ndarray,
     keys: list[str],
     quantile_columns: list[str],
     max_examples: int,
+    names: dict[str, str],
 ) -> CheckResult:
+    """``output.quantile_order``, worded with the file's own quantile column names."""
     ident = [*keys, PERIOD, ISSUED]
     n_bad = int(np.count_nonzero(mask))
+    pairs = [
+        (f"{names[low]} > {names[high]}", n)
+        for low, high, n in _crossing_pairs(frame, mask, quantile_columns)
+    ]
+    shown = ", ".join(f"{pair} in {plural(n, 'row')}" for pair, n in pairs[:3])
+    more = f", and {plural(len(pairs) - 3, 'more pair')}" if len(pairs) > 3 else ""
+    examples = row_examples(frame, _first(mask, max_examples), [*ident, *quantile_columns])
+    # each example names the file's quantile columns (a name that clashes with an
+    # identifying field keeps the canonical label rather than overwrite that field)
+    labels = {c: (names[c] if names[c] not in ident else c) for c in quantile_columns}
+    examples = [{labels.get(k, k): v for k, v in example.items()} for example in examples]
+    ordered = ", ".join(names[c] for c in quantile_columns)
     return _result(
         QUANTILE_ORDER,
         frame,
         keys,
         mask,
-        f"{plural(n_bad, 'row')} {verb(n_bad, 'has', 'have')} crossing quantiles (a lower level "
-        f"above a higher one, e.g. {quantile_columns[0]} > {quantile_columns[-1]}); quantile "
-        "forecasts must not decrease as the level rises",
-        f"Quantiles rise with their level ({', '.join(quantile_columns)}) in every row.",
-        row_examples(frame, _first(mask, max_examples), [*ident, *quantile_columns]),
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'has', 'have')} crossing quantiles, a lower level "
+        f"above a higher one ({shown}{more}); quantile forecasts must not decrease as the level "
+        f"rises ({ordered})",
+        f"Quantiles rise with their level ({ordered}) in every row.",
+        examples,
+        {"crossings": dict(pairs)} if pairs else None,
     )
 
 
