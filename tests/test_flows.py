@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import json
 import os
+import subprocess
+import sys
 from collections.abc import Callable, Iterator
 from pathlib import Path
 from typing import Any
@@ -42,6 +44,7 @@ from flows.nightly_forecast import main as nightly_main
 from flows.nightly_forecast import run_nightly
 
 Make = Callable[..., Project]
+REPO = Path(__file__).resolve().parent.parent
 
 
 @pytest.fixture(scope="session", autouse=True)
@@ -158,6 +161,30 @@ def test_failed_gate_fails_the_flow_and_never_publishes(make_project: Make,
     assert {"accuracy-gate-findings", "accuracy-gate-summary"} <= set(found)
 
 
+def test_a_failed_gate_is_a_verdict_in_the_logs_not_a_traceback(make_project: Make,
+                                                                tmp_path: Path) -> None:
+    # The gate task returns a Failed state instead of raising GateFailed: Prefect then logs
+    # the verdict, no traceback (and no "NoneType: None" under its "Task run failed" line).
+    project = project_with_bias(make_project, 0.85)
+    code, state = run_nightly(project.config, tmp_path / "published")
+    assert code == 1 and state.is_failed()
+    error = state.result(raise_on_failure=False)
+    assert isinstance(error, GateFailed)
+    assert state.message == str(error)
+    assert state.message.startswith("Forecast gate failed: FAIL — 3 failed")
+    assert "under-forecast by 15 %" in state.message
+    with get_client(sync_client=True) as client:
+        (gate,) = [r for r in client.read_task_runs(
+            flow_run_filter=FlowRunFilter(id=FlowRunFilterId(any_=[flow_run_id(state)])))
+            if r.name.startswith("accuracy-gate")]
+    assert gate.state is not None and gate.state.is_failed()
+    assert gate.state.message == state.message  # the task's own state says the verdict
+    found = logs(state)
+    assert any(level >= 40 and text.startswith("FAIL — 3 failed") for level, text in found)
+    dumps = [text for _, text in found if "Traceback" in text or "NoneType: None" in text]
+    assert dumps == []
+
+
 def test_unusable_config_fails_the_first_step_with_the_clis_message(
         make_project: Make, tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
     project = make_project(extra="  segmnts: {}\n")
@@ -193,14 +220,27 @@ def test_unusable_input_fails_the_check_task_with_the_clis_message(
     assert not any("Traceback" in text for text in errors)  # Prefect's own lines only
 
 
-def test_demo_nights_publish_one_cycle_and_stop_the_other(
-        tmp_path: Path, capsys: pytest.CaptureFixture[str]) -> None:
+def test_demo_nights_publish_one_cycle_and_stop_the_other(tmp_path: Path) -> None:
+    # the README's first quick-start command, as a user runs it (against this session's
+    # server instead of a temporary one): the stopped night reads as the gate's verdict in
+    # the script's whole output, Prefect's console log included, never as a crash
+    from prefect.settings import get_current_settings
+
     out = tmp_path / "demo-run"
-    assert nightly_main(["--demo", str(out)]) == 0
-    text = capsys.readouterr().out
+    env = {**os.environ, "PREFECT_API_URL": str(get_current_settings().api.url),
+           "PREFECT_SERVER_ANALYTICS_ENABLED": "false", "PYTHONIOENCODING": "utf-8"}
+    done = subprocess.run([sys.executable, str(REPO / "flows" / "nightly_forecast.py"),
+                           "--demo", str(out)], capture_output=True, text=True, env=env,
+                          timeout=300, check=False, encoding="utf-8")
+    assert done.returncode == 0, done.stderr[-3000:]
+    text, both = done.stdout, done.stdout + done.stderr
+    assert "Traceback" not in both and "NoneType: None" not in both
+    assert "Task run failed with state: Failed(message='Forecast gate failed: FAIL" in both
     assert "Night 1" in text and "Night 2" in text
     assert "Published: published/forecast_2025-04-07.csv" in text
     assert "pet-care: Bias: under-forecast" in text and "Published: nothing" in text
+    night2 = text[text.index("Night 2"):]
+    assert "  Gate: FAIL — 1 failed" in night2
     assert [p.name for p in (out / "published").iterdir()] == ["forecast_2025-04-07.csv"]
     assert len(list((out / ".accuracy_checks" / "staging").iterdir())) == 2
     runs = audit(out / "nightly-latest.yaml")

@@ -17,9 +17,10 @@ imports Prefect. Use::
 - :data:`check_forecast` (:mod:`.gate`) runs the configured checks (``run_checks``: the audit
   record is written and waivers applied on every verdict) and returns the
   :class:`~accuracy_checks.results.RunReport`. It publishes a table artifact of the results
-  that did not pass and a Markdown artifact of the summary. On ``fail`` it raises
-  :class:`~accuracy_checks.errors.GateFailed` (a short, picklable summary); on ``warn`` it logs
-  every warning through the run logger and ends ``Completed`` under the name
+  that did not pass and a Markdown artifact of the summary. On ``fail`` it ends ``Failed``
+  with the verdict as the state's message and no traceback in the log (``future.result()``
+  raises :class:`~accuracy_checks.errors.GateFailed`, a short, picklable summary); on ``warn``
+  it logs every warning through the run logger and ends ``Completed`` under the name
   :data:`WARNED_STATE_NAME`; an unusable config or input ends it ``Failed`` with the CLI's
   one-paragraph message and no traceback of ours. ``alert=`` takes your callable, which
   receives the report.
@@ -47,6 +48,7 @@ from accuracy_checks.prefect.gate import (
     findings,
     findings_table,
     first_failure,
+    gate_failed_state,
     gate_failure,
     run_gate,
     usage_failure,
@@ -60,6 +62,7 @@ __all__ = [
     "findings",
     "findings_table",
     "first_failure",
+    "gate_failed_state",
     "gate_failure",
     "run_gate",
     "usage_failure",

@@ -6,10 +6,14 @@ Contract of :data:`check_forecast` (one task run = one gate run, recorded in the
 - **warn**: logs every ``warn`` result through the run logger, then returns
   ``Completed(name=WARNED_STATE_NAME, data=report)``: the task (and its flow) complete, and
   the UI shows that the gate had warnings. With ``fail_on="warn"`` a warning fails instead.
-- **fail**: raises :class:`~accuracy_checks.errors.GateFailed`, whose message is the verdict
-  line and the first findings and whose ``summary`` holds the run id, cycle, attempt, counts
-  and findings (plain values: it survives pickling across processes). Downstream tasks that
-  ``wait_for`` it never run. The audit record was written before the raise.
+- **fail**: returns ``Failed(message=…, data=GateFailed)`` (:func:`gate_failed_state`): the
+  message is the verdict line and the first findings; the
+  :class:`~accuracy_checks.errors.GateFailed` holds them too, with a ``summary`` of the run
+  id, cycle, attempt, counts and findings (plain values: it survives pickling across
+  processes), and ``future.result()`` raises it. The state is returned, not raised, so the
+  run's log shows the verdict and no Python traceback. Downstream tasks that ``wait_for`` it
+  never run; the flow must return the failed state (:func:`first_failure`) or raise, or it
+  ends ``Completed``. The audit record was written before.
 - **unusable config or input**: logs the CLI's one-paragraph message
   (``accuracy-checks: error: …``) and returns ``Failed(message=<that line>, data=<the
   UsageError>)``: no traceback of ours in the log, nothing recorded (as the CLI's exit 2),
@@ -66,6 +70,7 @@ __all__ = [
     "findings",
     "findings_table",
     "first_failure",
+    "gate_failed_state",
     "gate_failure",
     "retry_only_glitches",
     "run_gate",
@@ -83,6 +88,30 @@ MAX_FINDINGS = 3
 
 Alert = Callable[[RunReport], object]
 _KEY = re.compile(r"^[a-z0-9](?:[a-z0-9-]*[a-z0-9])?$")
+
+
+class _NoEmptyExcInfo(logging.Filter):
+    """Drops the empty ``exc_info`` of Prefect's "Task run failed with state: …" record.
+
+    Prefect logs that line with ``exc_info=True`` also when a task *returns* a ``Failed``
+    state, where no exception is being handled; Python then prints ``NoneType: None`` under
+    it, which reads like a crash. A record with a real exception is left as it is.
+    """
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        info = record.exc_info
+        if isinstance(info, tuple) and info[0] is None:
+            record.exc_info = None
+        return True
+
+
+def _install_log_filter() -> None:
+    logger = logging.getLogger("prefect.task_runs")
+    if not any(isinstance(f, _NoEmptyExcInfo) for f in logger.filters):
+        logger.addFilter(_NoEmptyExcInfo())
+
+
+_install_log_filter()
 
 
 def cli_message(exc: UsageError) -> str:
@@ -141,6 +170,15 @@ def gate_failure(report: RunReport, *, fail_on: str = "fail") -> GateFailed:
     return GateFailed(text, status=report.status, headline=headline(report),
                       run_id=report.run_id, cycle=report.cycle, attempt=report.attempt,
                       counts=report.counts(), findings=found, fail_on=fail_on)
+
+
+def gate_failed_state(report: RunReport, *, fail_on: str = "fail") -> State:
+    """The ``Failed`` state of a failed (or, with ``fail_on="warn"``, warned) run: the
+    :func:`gate_failure` message as the state's message and the :class:`GateFailed` as its
+    data (``state.result()`` and ``future.result()`` raise it). Returned, not raised, so that
+    Prefect logs the verdict and no traceback."""
+    exc = gate_failure(report, fail_on=fail_on)
+    return Failed(message=str(exc), data=exc)
 
 
 def findings_table(report: RunReport, *, limit: int = MAX_TABLE_ROWS) -> list[dict[str, Any]]:
@@ -307,7 +345,7 @@ def check_forecast(
         _call_alerts(alerts, report, logger)
 
     if report.status == "fail" or (report.status == "warn" and fail_on == "warn"):
-        raise gate_failure(report, fail_on=fail_on) from None
+        return gate_failed_state(report, fail_on=fail_on)
     if report.status == "warn":
         found = findings(report)
         return Completed(name=WARNED_STATE_NAME, data=report,
