@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import difflib
 import json
+import re
 import typing
 from pathlib import Path
 from typing import Annotated, Any, Literal
@@ -36,6 +37,9 @@ CHECK_MEASURES: dict[str, tuple[Direction, str]] = {
     "incomplete_series": ("lower", "count"),
     "series_count_change_pct": ("centered", "%"),
 }
+
+#: The longest horizon a config may give (periods).
+MAX_HORIZON = 1000
 
 #: Column names the tool uses for its own canonical frames; key columns may not use them.
 RESERVED_COLUMNS = frozenset(
@@ -94,6 +98,10 @@ class ForecastSource(_Strict):
     #: negative forecasts are an output-check failure unless allowed here
     #: (``true`` for every segment, or a list of segment names)
     allow_negative: bool | list[str] = False
+    #: the one format of a date column written as text, by column (``period``/``issued``
+    #: column names → a strftime pattern such as ``"%d/%m/%Y"``); default ISO 8601
+    #: (YYYY-MM-DD). History files use these too.
+    date_formats: dict[str, str] = Field(default_factory=dict)
 
     @field_validator("keys")
     @classmethod
@@ -118,6 +126,12 @@ class ForecastSource(_Strict):
             raise ValueError("two quantile levels name the same column")
         return dict(sorted(quantiles.items()))
 
+    @model_validator(mode="after")
+    def _date_formats(self) -> ForecastSource:
+        _check_date_formats("forecast", self.date_formats, {"period": self.period,
+                                                            "issued": self.issued})
+        return self
+
 
 class ActualsSource(_Strict):
     """Where the actuals are; ``keys`` default to the forecast's keys."""
@@ -126,6 +140,52 @@ class ActualsSource(_Strict):
     period: str
     value: str
     keys: list[str] | None = None
+    #: the one format of the period column when written as text (``{column: "%d/%m/%Y"}``);
+    #: default ISO 8601 (YYYY-MM-DD)
+    date_formats: dict[str, str] = Field(default_factory=dict)
+
+    @model_validator(mode="after")
+    def _date_formats(self) -> ActualsSource:
+        _check_date_formats("actuals", self.date_formats, {"period": self.period})
+        return self
+
+
+#: strftime directives that place a date on the calendar (at least one is needed)
+_DATE_DIRECTIVES = frozenset("dmYyBbjUWGVuaAe")
+#: every directive a date format may use
+_DIRECTIVES = _DATE_DIRECTIVES | frozenset("HIMSpfzZ%T")
+
+
+def _check_date_formats(section: str, formats: dict[str, str], columns: dict[str, str]) -> None:
+    """Each key is one of the section's date columns; each format a strftime pattern with at
+    least a day, month or year directive that reads back what it writes."""
+    from datetime import datetime
+
+    for column, fmt in formats.items():
+        if column not in columns.values():
+            named = ", ".join(f"{column!r} (`{section}.{key}`)" for key, column in
+                              columns.items())
+            raise ValueError(
+                f"`{section}.date_formats` names column {column!r}, which is not a date column "
+                f"of the {section}; its date columns are {named}"
+            )
+        directives = re.findall(r"%(.)", fmt.replace("%%", ""))
+        unknown = sorted(set(directives) - _DIRECTIVES)
+        if unknown or not set(directives) & _DATE_DIRECTIVES:
+            raise ValueError(
+                f"`{section}.date_formats.{column}`: {fmt!r} is not a date format; give a "
+                "strftime pattern with day, month and year, e.g. \"%d/%m/%Y\" or \"%Y%m%d\""
+                + (f" (unknown directive(s) {', '.join('%' + d for d in unknown)})"
+                   if unknown else "")
+            )
+        sample = datetime(2001, 12, 31, 13, 45, 30)
+        try:
+            datetime.strptime(sample.strftime(fmt), fmt)
+        except ValueError as exc:
+            raise ValueError(
+                f"`{section}.date_formats.{column}`: {fmt!r} cannot read back the dates it "
+                f"writes ({exc}); give a strftime pattern such as \"%d/%m/%Y\""
+            ) from None
 
 
 class Segments(_Strict):
@@ -258,6 +318,8 @@ class Config(_Strict):
     archive: Path = Path(".accuracy_checks/archive")
     store: str | None = None
     frequency: str
+    #: periods a cycle forecasts, 1 to MAX_HORIZON (1000): a longer horizon would run past
+    #: the calendar the tool computes on (year 2262) at daily and finer frequencies
     horizon: int
     segments: Segments = Field(default_factory=Segments)
     coverage: Coverage = Field(default_factory=Coverage)
@@ -296,6 +358,10 @@ class Config(_Strict):
     def _horizon(cls, horizon: int) -> int:
         if horizon < 1:
             raise ValueError(f"horizon must be at least 1 period; got {horizon}")
+        if horizon > MAX_HORIZON:
+            raise ValueError(
+                f"horizon must be at most {MAX_HORIZON} periods; got {horizon}"
+            )
         return horizon
 
     @field_validator("frequency")
@@ -313,6 +379,13 @@ class Config(_Strict):
 
     @model_validator(mode="after")
     def _cross_field(self) -> Config:
+        if self.actuals.keys is not None and len(self.actuals.keys) != len(self.forecast.keys):
+            raise ValueError(
+                f"actuals.keys {self.actuals.keys} has {len(self.actuals.keys)} column(s) but "
+                f"forecast.keys {self.forecast.keys} has {len(self.forecast.keys)}; actuals.keys "
+                "names the actuals' columns for the forecast's keys, one for one and in the "
+                "same order (leave it out when the names are the same)"
+            )
         beyond = [lag for lag in self.evaluation.lags if lag > self.horizon]
         if beyond:
             raise ValueError(

@@ -9,8 +9,11 @@ from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+from pandas.errors import OutOfBoundsDatetime, OutOfBoundsTimedelta
 from pandas.tseries.frequencies import to_offset
 from pandas.tseries.offsets import BaseOffset, Tick, Week
+
+from accuracy_checks.errors import InputError
 
 _ORIGIN = pd.Timestamp("2000-01-03")  # a Monday; only its being fixed matters
 
@@ -46,9 +49,12 @@ def grid_positions(dates: pd.Series | pd.DatetimeIndex,
         pos = -((-delta) // step)  # ceil: an off-grid date maps to the next grid point
         return pos.astype(np.int64), (delta % step == 0)
     codes, uniques = pd.factorize(values, sort=True)
-    first = offset.rollback(uniques[0])
-    last = offset.rollforward(uniques[-1])
-    grid = pd.date_range(first, last, freq=offset).as_unit("ns")
+    try:
+        first = pd.Timestamp(offset.rollback(uniques[0])).as_unit("ns")
+        last = pd.Timestamp(offset.rollforward(uniques[-1])).as_unit("ns")
+        grid = pd.date_range(first, last, freq=offset).as_unit("ns")
+    except (OutOfBoundsDatetime, OutOfBoundsTimedelta, OverflowError):
+        raise _past_the_calendar(uniques[0], uniques[-1], frequency) from None
     idx = grid.searchsorted(uniques)
     on_grid = grid[np.minimum(idx, len(grid) - 1)] == uniques
     # shift to the fixed origin so positions compare across calls
@@ -62,5 +68,27 @@ def grid_positions(dates: pd.Series | pd.DatetimeIndex,
 
 
 def grid_dates(start: pd.Timestamp, periods: int, frequency: str) -> pd.DatetimeIndex:
-    """``periods`` consecutive grid dates from ``start`` (rolled forward onto the grid)."""
-    return pd.date_range(to_offset(frequency).rollforward(start), periods=periods, freq=frequency)
+    """``periods`` consecutive grid dates from ``start`` (rolled forward onto the grid).
+
+    Raises :class:`InputError` when they would run past the calendar (year 2262).
+    """
+    try:
+        # nanosecond timestamps: the calendar every frame uses ends in 2262
+        first = to_offset(frequency).rollforward(pd.Timestamp(start).as_unit("ns"))
+        return pd.date_range(pd.Timestamp(first).as_unit("ns"), periods=periods,
+                             freq=frequency).as_unit("ns")
+    except (OutOfBoundsDatetime, OutOfBoundsTimedelta, OverflowError):
+        raise _past_the_calendar(start, None, frequency, periods) from None
+
+
+def _past_the_calendar(first: pd.Timestamp, last: pd.Timestamp | None, frequency: str,
+                       periods: int | None = None) -> InputError:
+    span = (f"{periods} periods of `frequency` {frequency!r} from {first:%Y-%m-%d}"
+            if periods is not None else
+            f"the grid of `frequency` {frequency!r} around the dates {first:%Y-%m-%d} to "
+            f"{pd.Timestamp(last):%Y-%m-%d}")
+    return InputError(
+        f"The dates run past the calendar the tool computes on ({span} reach beyond "
+        f"{pd.Timestamp.max:%Y-%m-%d}). Check the dates in the forecast and actuals, and the "
+        "config's `horizon` and `frequency`."
+    )

@@ -4,10 +4,41 @@ CSV and Parquet, a file or a folder of files. Every problem a user can fix (miss
 empty file, missing column, text in a number column, unparseable dates, a mapping that puts a
 series in two segments) raises :class:`~accuracy_checks.errors.InputError` naming the file,
 the column and, where it helps, the first offending rows.
+
+Reading rules
+-------------
+**Identifiers are text.** Key columns (``forecast.keys``, ``actuals.keys``, the mapping's key
+columns) and segment columns are read as the text written, stripped of surrounding blanks:
+``007`` and ``7`` are two series, ``TRUE`` or ``NA`` is a name like any other, and only an
+empty cell is missing. A Parquet key or segment column may also hold integers, matched by one
+rule: an integer is written as its plain decimal text (``7`` → ``"7"``), so a Parquet integer
+7 matches the CSV text ``7`` but not ``007``. A Parquet float column is accepted only when
+every value is a whole number of at most 2**53 (then written as that integer: ``7.0`` →
+``"7"``); true/false, date, time, decimal and binary columns are refused (exit 2): write such
+identifiers as text.
+
+**Reserved segment names.** ``*`` names the results over all series and ``unassigned`` the
+actuals whose segment is unknown; a segment column holding either is refused.
+
+**One date column, one format.** A date column written as text is parsed with exactly one
+format: ISO 8601 (``YYYY-MM-DD``, optionally with a time and a UTC offset) unless the config
+gives the column's format (``forecast.date_formats`` / ``actuals.date_formats``, a strftime
+pattern such as ``%d/%m/%Y``; history files use the forecast's). A value that does not parse
+with it is refused, naming the first lines: a guessed format per value would put some dates
+on the wrong day. A column carries one UTC offset or none; the offset is dropped keeping the
+wall-clock date (mixed offsets are refused). Parquet timestamp and date columns are taken as
+they are. Dates must lie between 1677-09-22 and 2262-04-11, the calendar the tool computes on.
+
+**Headers.** A column the tool reads that is named twice in a header is refused (a reader
+would silently use one of them).
+
+Speed: key, segment and date columns are parsed per distinct value (factorized first, or read
+dictionary-encoded), never per row in Python.
 """
 
 from __future__ import annotations
 
+from collections import Counter
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
@@ -23,6 +54,16 @@ from accuracy_checks.errors import InputError
 _PARQUET = {".parquet", ".pq"}
 _CSV = {".csv", ".txt", ".tsv"}
 _SHOW = 5  # offending values shown in a message
+#: segment names the tool gives a meaning of its own (all series; actuals of unknown segment)
+F_ALL = "*"
+RESERVED_SEGMENTS = (F_ALL, F.UNASSIGNED)
+#: cells read as missing in number and date columns (pandas' defaults); key and segment
+#: columns are text as written, only an empty cell is missing there
+_NA_TEXT = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
+            "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null"]
+#: the calendar the tool computes on (nanosecond timestamps)
+_FIRST_DAY, _LAST_DAY = pd.Timestamp("1677-09-22"), pd.Timestamp("2262-04-11")
+_ISO = "YYYY-MM-DD (ISO 8601)"
 
 
 @dataclass(frozen=True)
@@ -33,6 +74,7 @@ class Column:
     kind: str  # "key" | "date" | "number" | "text"
     key: str  # config key path, for messages
     canonical: str | None = None  # rename to this
+    fmt: str | None = None  # dates: the strftime format (None: ISO 8601)
 
 
 def list_files(path: Path, role: str, key: str) -> list[Path]:
@@ -76,20 +118,7 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
                row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
     wanted = list(dict.fromkeys(c.name for c in columns))
     is_parquet = file.suffix.lower() in _PARQUET
-    try:
-        if is_parquet:
-            import pyarrow.parquet as pq
-
-            present = pq.read_schema(file).names
-        else:
-            present = list(_read_csv(file, nrows=0).columns)
-    except pd.errors.EmptyDataError:
-        raise InputError(
-            f"The {role} file {file} is empty (not even a header line)."
-        ) from None
-    except (OSError, ValueError, UnicodeDecodeError) as exc:
-        kind = "Parquet" if is_parquet else "CSV"
-        raise InputError(f"The {role} file {file} cannot be read as {kind}: {exc}") from None
+    present = _header(file, role)
     missing = [c for c in columns if c.name not in present]
     if missing:
         c = missing[0]
@@ -98,15 +127,21 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
             f"Its columns are: {', '.join(map(str, present)) or '(none)'}. "
             "Fix the column name in the config or in the file."
         )
+    counts = Counter(present)
+    twice = [c for c in columns if counts[c.name] > 1]
+    if twice:
+        c = twice[0]
+        raise InputError(
+            f"The {role} file {file} has {counts[c.name]} columns named {c.name!r} (config key "
+            f"`{c.key}`) in its header; which one holds the data cannot be told. Rename or "
+            "drop the extra column(s)."
+        )
     try:
         if is_parquet:
             frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"],
                                   row_filter)
         else:
-            # keys, dates and labels repeat a lot: read them dictionary-encoded (category) so
-            # that cleaning and parsing touch each distinct value once
-            text_cols = {c.name: "category" for c in columns if c.kind in ("key", "text", "date")}
-            frame = _read_csv(file, usecols=wanted, dtype=text_cols)
+            frame = _read_csv_columns(file, columns)
     except (OSError, ValueError, UnicodeDecodeError, pd.errors.ParserError) as exc:
         raise InputError(f"The {role} file {file} cannot be read: {exc}") from None
     first_line = 1 if is_parquet else 2  # CSV: line 1 is the header
@@ -122,8 +157,63 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
         elif c.kind == "number":
             out[c.name] = _to_number(s, file, c, role, first_line)
         else:
-            out[c.name] = _to_key(s, file, c, role, first_line, allow_missing=True)
+            out[c.name] = _to_key(s, file, c, role, first_line, allow_missing=True,
+                                  reserved=RESERVED_SEGMENTS)
     return pd.DataFrame(out)
+
+
+def _header(file: Path, role: str) -> list[str]:
+    """The column names of a file as written, repeats included (a CSV reader renames a
+    repeated name to ``name.1``; reading the header line as data keeps it)."""
+    is_parquet = file.suffix.lower() in _PARQUET
+    try:
+        if is_parquet:
+            import pyarrow.parquet as pq
+
+            return list(pq.read_schema(file).names)
+        # the header line parsed by the same reader (separator, quoting, BOM, compression)
+        # as data, so repeated names stay as written
+        first = _read_csv(file, header=None, nrows=1, dtype=str, keep_default_na=False)
+    except pd.errors.EmptyDataError:
+        raise InputError(
+            f"The {role} file {file} is empty (not even a header line)."
+        ) from None
+    except (OSError, ValueError, UnicodeDecodeError) as exc:
+        kind = "Parquet" if is_parquet else "CSV"
+        raise InputError(f"The {role} file {file} cannot be read as {kind}: {exc}") from None
+    if len(first) == 0:
+        return []
+    return [str(v) for v in first.iloc[0].tolist()]
+
+
+def _read_csv_columns(file: Path, columns: Sequence[Column]) -> pd.DataFrame:
+    """The configured columns of a CSV file: keys and segments as text (only an empty cell is
+    missing), dates as text, numbers as numbers (pandas' missing-value words)."""
+    dtype: dict[str, str] = {}
+    na: dict[str, list[str]] = {}
+    for c in columns:
+        if c.kind in ("key", "text"):
+            # plain text, never inferred numbers; factorized in _to_key (faster than reading
+            # as category when there are many distinct values)
+            dtype[c.name], na[c.name] = "str", [""]
+        elif c.kind == "date":
+            # few distinct dates: read dictionary-encoded so each is parsed once
+            dtype[c.name], na[c.name] = "category", _NA_TEXT
+        else:
+            na[c.name] = _NA_TEXT
+    wanted = list(dict.fromkeys(c.name for c in columns))
+    frame = _read_csv(file, usecols=wanted, dtype=dtype, keep_default_na=False, na_values=na)
+    # a category column whose values all look like numbers (or true/false) comes back with
+    # converted categories ("07" → 7): read those columns again as text
+    converted = [n for n, kind in dtype.items() if kind == "category"
+                 and len(frame[n].cat.categories)
+                 and pd.api.types.infer_dtype(frame[n].cat.categories) != "string"]
+    if converted:
+        text = _read_csv(file, usecols=converted, dtype=dict.fromkeys(converted, "str"),
+                         keep_default_na=False, na_values={n: na[n] for n in converted})
+        for n in converted:
+            frame[n] = text[n].to_numpy()
+    return frame
 
 
 def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],
@@ -185,23 +275,78 @@ def _count(n: int, one: str, many: str) -> str:
     return f"{n:,} {one if n == 1 else many}"
 
 
+def _plain(value: object) -> str:
+    """A cell as a message shows it: text quoted, numbers and dates plain, missing as
+    ``(empty)`` (never a library's repr such as ``np.int64(7)`` or ``nan``)."""
+    if isinstance(value, np.generic):
+        value = value.item()
+    if value is None or value is pd.NaT or value is pd.NA or (
+            isinstance(value, float) and np.isnan(value)):
+        return "(empty)"
+    if isinstance(value, str):
+        return repr(value)
+    if isinstance(value, pd.Timestamp):
+        return value.isoformat()
+    return str(value)
+
+
 def _rows(mask: np.ndarray, values: pd.Series, first_line: int) -> str:
     idx = np.flatnonzero(mask)[:_SHOW]
     label = "line" if first_line == 2 else "row"
-    shown = ", ".join(f"{label} {i + first_line}: {values.iloc[i]!r}" for i in idx)
+    shown = ", ".join(f"{label} {i + first_line}: {_plain(values.iloc[i])}" for i in idx)
     more = f" and {int(mask.sum()) - len(idx)} more" if mask.sum() > len(idx) else ""
     return shown + more
 
 
+def _key_text(uniques: pd.Index, codes: np.ndarray, s: pd.Series, file: Path, c: Column,
+              role: str, first_line: int) -> pd.Index:
+    """The distinct values of a key or segment column as text, by the module's rule (text as
+    written; integers as plain decimal text; whole floats as integers; nothing else)."""
+    what = ("key column" if c.kind == "key" else "segment column")
+
+    def refuse(bad_uniques: np.ndarray, kind: str, fix: str) -> InputError:
+        bad = (codes >= 0) & bad_uniques[np.maximum(codes, 0)]
+        return InputError(
+            f"The {role} file {file}, {what} {c.name!r} (config key `{c.key}`), holds {kind} "
+            f"({_rows(bad, s, first_line)}). Series keys and segments are identifiers, read "
+            f"as text: {fix}"
+        )
+
+    values = uniques.to_numpy()
+    kind = uniques.dtype.kind
+    if kind == "b" or (kind == "O" and pd.api.types.infer_dtype(values) == "boolean"):
+        raise refuse(np.ones(len(uniques), dtype=bool), "true/false values",
+                     "write the column as text.")
+    if kind in "iu":
+        return uniques.astype(str)
+    if kind == "f":
+        fraction = (np.mod(values, 1) != 0) | ~np.isfinite(values) | (np.abs(values) > 2**53)
+        if fraction.any():
+            raise refuse(fraction, "numbers that are not whole",
+                         "a number column can be a key only when every value is a whole "
+                         "number (then read as that integer); write the column as text.")
+        return pd.Index(values.astype(np.int64)).astype(str)
+    if kind == "O":
+        inferred = pd.api.types.infer_dtype(values, skipna=True)
+        if inferred not in ("string", "empty", "integer", "mixed-integer"):
+            raise refuse(np.ones(len(uniques), dtype=bool), f"{inferred} values",
+                         "write the column as text.")
+    elif kind in "mM":
+        raise refuse(np.ones(len(uniques), dtype=bool), "dates", "write the column as text.")
+    return uniques.astype(str)
+
+
 def _to_key(s: pd.Series, file: Path, c: Column, role: str, first_line: int, *,
-            allow_missing: bool = False) -> pd.Series:
-    """Keys and labels as a categorical of stripped strings (each distinct value cleaned once)."""
+            allow_missing: bool = False, reserved: Sequence[str] = ()) -> pd.Series:
+    """Keys and labels as a categorical of stripped strings (each distinct value cleaned
+    once); ``reserved`` labels are refused."""
     if isinstance(s.dtype, pd.CategoricalDtype):
         codes = s.cat.codes.to_numpy()
-        uniques = s.cat.categories
+        uniques = pd.Index(s.cat.categories)
     else:
         codes, uniques = pd.factorize(s, use_na_sentinel=True)
-    labels = pd.Index(uniques).astype(str).str.strip()
+        uniques = pd.Index(uniques)
+    labels = _key_text(uniques, codes, s, file, c, role, first_line).str.strip()
     if labels.has_duplicates or not labels.is_unique:
         remap, labels = pd.factorize(labels)
         codes = np.where(codes >= 0, remap[np.maximum(codes, 0)], -1)
@@ -213,6 +358,16 @@ def _to_key(s: pd.Series, file: Path, c: Column, role: str, first_line: int, *,
         raise InputError(
             f"The {role} file {file}, key column {c.name!r} (config key `{c.key}`), is empty in "
             f"{int(bad.sum())} rows ({_rows(bad, s, first_line)}). Every row needs its series keys."
+        )
+    taken = labels.isin(list(reserved))
+    if taken.any():
+        hit = (codes >= 0) & taken[np.maximum(codes, 0)]
+        names = " and ".join(repr(v) for v in labels[taken])
+        raise InputError(
+            f"The {role} file {file}, segment column {c.name!r} (config key `{c.key}`), holds "
+            f"the reserved segment name {names} ({_rows(hit, s, first_line)}): '*' names the "
+            "results over all series and 'unassigned' the actuals whose segment is unknown, "
+            "so a segment of that name would be mixed up with them. Rename that segment."
         )
     cat = pd.Categorical.from_codes(codes.astype(np.int32), categories=pd.Index(labels, dtype=str))
     return pd.Series(cat, index=s.index, name=s.name)
@@ -241,58 +396,102 @@ def _to_number(s: pd.Series, file: Path, c: Column, role: str, first_line: int) 
 
 
 def _to_date(s: pd.Series, file: Path, c: Column, role: str, first_line: int) -> pd.Series:
+    """A date column as naive datetime64[ns]: text parsed with the column's one format (each
+    distinct value once), timestamps taken as they are, offsets dropped (wall-clock kept)."""
     if pd.api.types.is_datetime64_any_dtype(s):
         out = s
+        if isinstance(out.dtype, pd.DatetimeTZDtype):
+            out = out.dt.tz_localize(None)  # keep the wall-clock date the producer wrote
     else:
         # parse each distinct value once: millions of rows share a few hundred dates
         if isinstance(s.dtype, pd.CategoricalDtype):
-            codes, uniques = s.cat.codes.to_numpy(), s.cat.categories.astype(str)
+            codes, uniques = s.cat.codes.to_numpy(), pd.Index(s.cat.categories)
         else:
-            codes, uniques = pd.factorize(s.astype("string"), use_na_sentinel=True)
-        parsed = _parse_dates(pd.Series(uniques, dtype="string"), file, c, role)
-        out = pd.Series(parsed.take(codes, allow_fill=True), index=s.index)
-        bad = (codes >= 0) & out.isna().to_numpy()
+            codes, uniques = pd.factorize(s, use_na_sentinel=True)
+            uniques = pd.Index(uniques)
+        parsed, blank = _parse_dates(uniques, file, c, role)
+        failed = np.asarray(parsed.isna()) & ~blank
+        bad = (codes >= 0) & failed[np.maximum(codes, 0)]
         if bad.any():
-            raise InputError(
-                f"The {role} file {file}, column {c.name!r} (config key `{c.key}`), has "
-                f"{_count(int(bad.sum()), 'value that is', 'values that are')} not a date "
-                f"({_rows(bad, s, first_line)}). "
-                "Write dates as YYYY-MM-DD (ISO 8601)."
-            )
-    if isinstance(out.dtype, pd.DatetimeTZDtype):
-        out = out.dt.tz_localize(None)  # keep the wall-clock date the producer wrote
+            raise InputError(_date_format_message(bad, s, uniques[failed], file, c, role,
+                                                  first_line))
+        codes = np.where((codes >= 0) & blank[np.maximum(codes, 0)], -1, codes)
+        out = pd.Series(parsed.take(codes, allow_fill=True), index=s.index)
     missing = out.isna().to_numpy()
     if missing.any():
         raise InputError(
             f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), is empty in "
             f"{int(missing.sum())} rows ({_rows(missing, s, first_line)}). Every row needs a date."
         )
+    outside = ((out < _FIRST_DAY) | (out >= _LAST_DAY + pd.Timedelta(days=1))).to_numpy()
+    if outside.any():
+        raise InputError(
+            f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), has "
+            f"{_count(int(outside.sum()), 'date', 'dates')} outside the calendar the tool "
+            f"computes on, {_FIRST_DAY:%Y-%m-%d} to {_LAST_DAY:%Y-%m-%d} "
+            f"({_rows(outside, s, first_line)}). Fix those dates."
+        )
     return out.astype("datetime64[ns]")
 
 
-def _parse_dates(values: pd.Series, file: Path, c: Column, role: str) -> pd.DatetimeIndex:
+_OFFSET = r"\d{2}:\d{2}(?::\d{2}(?:\.\d+)?)?\s*(?:Z|[+-]\d{2}(?::?\d{2})?)$"
+
+
+def _parse_dates(uniques: pd.Index, file: Path, c: Column, role: str
+                 ) -> tuple[pd.DatetimeIndex, np.ndarray]:
+    """The distinct values of a date column parsed with its one format (NaT where a value
+    does not parse), and which values are blank. Raises on mixed UTC offsets."""
+    if pd.api.types.infer_dtype(uniques, skipna=True) in ("date", "datetime", "datetime64"):
+        # Parquet date columns (and timestamps stored as objects): dates already
+        return pd.DatetimeIndex(pd.to_datetime(uniques)), np.zeros(len(uniques), dtype=bool)
+    text = pd.Series(uniques.astype(str), dtype="string").str.strip()
+    blank = (text == "").to_numpy()
     try:
-        parsed = pd.to_datetime(values, errors="coerce", format="ISO8601")
-    except ValueError:
-        parsed = None
-    if parsed is None or parsed.isna().any():
-        try:
-            alt = pd.to_datetime(values, errors="coerce", format="mixed")
-        except ValueError as exc:
-            raise InputError(
-                f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), mixes "
-                "time zones (different UTC offsets) or formats that cannot be read together. "
-                "Write all dates in one form, YYYY-MM-DD, without time-zone offsets."
-            ) from exc
-        parsed = alt if parsed is None else parsed.fillna(alt)
-    if isinstance(parsed.dtype, pd.DatetimeTZDtype):
-        parsed = parsed.dt.tz_localize(None)
-    if parsed.dtype == object:  # mixed naive/aware values
+        parsed = pd.to_datetime(text.where(~blank), errors="coerce",
+                                format=c.fmt or "ISO8601")
+    except (ValueError, OverflowError) as exc:
+        has_offset = text.str.contains(_OFFSET, regex=True).to_numpy()
+        if has_offset[~blank].all():
+            what = "mixes time zones (different UTC offsets)"
+        else:
+            what = "mixes dates with and without time-zone offsets"
         raise InputError(
-            f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), mixes "
-            "dates with and without time-zone offsets. Write all dates as YYYY-MM-DD."
-        )
-    return pd.DatetimeIndex(parsed).as_unit("ns")
+            f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), {what}. "
+            "Write all dates of a column in one form, e.g. YYYY-MM-DD without offsets, or all "
+            "with the same UTC offset."
+        ) from exc
+    if isinstance(parsed.dtype, pd.DatetimeTZDtype):
+        parsed = parsed.dt.tz_localize(None)  # keep the wall-clock date the producer wrote
+    return pd.DatetimeIndex(parsed), blank
+
+
+#: formats tried on values that are not ISO 8601, only to suggest one in the message
+_COMMON_FORMATS = ("%d/%m/%Y", "%m/%d/%Y", "%d.%m.%Y", "%d-%m-%Y", "%Y/%m/%d", "%d/%m/%y",
+                   "%m/%d/%y", "%Y%m%d")
+
+
+def _date_format_message(bad: np.ndarray, s: pd.Series, failed: pd.Index, file: Path,
+                         c: Column, role: str, first_line: int) -> str:
+    section = c.key.split(".")[0]
+    fmt = f"{c.fmt!r}" if c.fmt else _ISO
+    head = (
+        f"The {role} file {file}, column {c.name!r} (config key `{c.key}`), has "
+        f"{_count(int(bad.sum()), 'value that is', 'values that are')} not a date in the "
+        f"column's format {fmt} ({_rows(bad, s, first_line)}). A date column is read with "
+        "one format, never guessed per value (a guess puts some dates on the wrong day): "
+    )
+    if c.fmt:
+        return head + (f"write every date of the column as {c.fmt!r}, or fix "
+                       f"`{section}.date_formats` for {c.name!r}.")
+    sample = pd.Series(failed[:50].astype(str), dtype="string").str.strip()
+    fits = [f for f in _COMMON_FORMATS
+            if pd.to_datetime(sample, errors="coerce", format=f).notna().all()]
+    example = fits[0] if fits else "%d/%m/%Y"
+    return head + (
+        "write every date as YYYY-MM-DD, or, if the whole column is written in another "
+        f"format, give it in the config: `{section}.date_formats: {{{c.name}: \"{example}\"}}`"
+        + (f" (these values read as {' or '.join(repr(f) for f in fits[:2])})." if fits else ".")
+    )
 
 
 # ------------------------------------------------------------------ configured sources
@@ -302,8 +501,8 @@ def forecast_columns(config: Config) -> list[Column]:
     fc = config.forecast
     cols = [Column(k, "key", "forecast.keys") for k in fc.keys]
     cols += [
-        Column(fc.period, "date", "forecast.period", F.PERIOD),
-        Column(fc.issued, "date", "forecast.issued", F.ISSUED),
+        Column(fc.period, "date", "forecast.period", F.PERIOD, fc.date_formats.get(fc.period)),
+        Column(fc.issued, "date", "forecast.issued", F.ISSUED, fc.date_formats.get(fc.issued)),
         Column(fc.value, "number", "forecast.value", F.FORECAST),
     ]
     cols += [
@@ -384,7 +583,7 @@ def read_actuals(config: Config, path: Path | None = None,
     cols = [Column(k, "key", "actuals.keys" if ac.keys else "forecast.keys")
             for k in config.actual_keys]
     cols += [
-        Column(ac.period, "date", "actuals.period", F.PERIOD),
+        Column(ac.period, "date", "actuals.period", F.PERIOD, ac.date_formats.get(ac.period)),
         Column(ac.value, "number", "actuals.value", F.ACTUAL),
     ]
     frame = read_columns(path, cols, role="actuals", key="actuals.path",
@@ -460,18 +659,8 @@ def read_mapping(config: Config) -> pd.DataFrame | None:
 
 
 def _columns_of(path: Path, role: str, key: str) -> list[str]:
-    files = list_files(path, role, key)
-    f = files[0]
-    try:
-        if f.suffix.lower() in _PARQUET:
-            import pyarrow.parquet as pq
-
-            return list(pq.read_schema(f).names)
-        return list(_read_csv(f, nrows=0).columns)
-    except pd.errors.EmptyDataError:
-        raise InputError(f"The {role} file {f} is empty (not even a header line).") from None
-    except (OSError, ValueError, UnicodeDecodeError) as exc:
-        raise InputError(f"The {role} file {f} cannot be read: {exc}") from None
+    """The column names of the first file at ``path``, as written."""
+    return _header(list_files(path, role, key)[0], role)
 
 
 def unify_categories(frames: Sequence[pd.DataFrame], columns: Sequence[str]
@@ -548,8 +737,6 @@ def assign_segments(frame: pd.DataFrame, config: Config, mapping: pd.DataFrame |
         **{F.SEGMENT: pd.Series(seg, index=frame.index)}
     )
 
-
-F_ALL = "*"
 
 
 def _constant(value: str, n: int, index: pd.Index) -> pd.Series:

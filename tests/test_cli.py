@@ -176,3 +176,121 @@ def test_version(capsys: pytest.CaptureFixture[str]) -> None:
         main(["--version"])
     assert info.value.code == 0
     assert capsys.readouterr().out.strip() == "accuracy-checks 0.1.0"
+
+
+# ------------------------------------------------ issue 10: the input readers' rules (H1)
+
+
+def _rename_products(frame: pd.DataFrame, names: dict[str, str]) -> pd.DataFrame:
+    return frame.assign(product=frame["product"].map(names))
+
+
+def test_keys_007_and_7_are_two_series(make_project: Callable[..., Project],
+                                       capsys: pytest.CaptureFixture[str]) -> None:
+    from conftest import PRODUCTS, actuals_frame
+
+    names = {"P1": "007", "P2": "7", "P3": "07"}  # all numeric-looking: still three products
+    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
+    project = make_project(forecast=_rename_products(forecast_frame(CURRENT), names),
+                           earlier=_rename_products(earlier, names),
+                           actuals=_rename_products(actuals_frame(CURRENT), names))
+    project.write("products.csv", pd.DataFrame({"product": [names[p] for p in PRODUCTS],
+                                                "category": list(PRODUCTS.values())}))
+    out = project.root / "r.json"
+    assert run(project, "--no-snapshot", "--json", str(out)) == 0, capsys.readouterr().err
+    doc = json.loads(out.read_text())
+    assert doc["inputs"]["forecast"]["series"] == 6  # 2 stores × 3 products
+    by_segment = {r["segment"]: r["n_series"] for r in doc["results"]
+                  if r["check"] == "accuracy" and r["measure"] == "wape"}
+    assert by_segment == {"*": 6, "tools": 2, "plants": 4}
+
+
+def test_a_period_column_mixing_date_formats_is_refused(
+        make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str]) -> None:
+    forecast = forecast_frame(CURRENT)
+    forecast.loc[5, "week"] = pd.Timestamp(forecast.loc[5, "week"]).strftime("%d/%m/%Y")
+    project = make_project(forecast=forecast)
+    err = bad(project, capsys)
+    # 9 March written day first; a guess per value reads it as 3 September
+    assert "forecast.csv" in err and "'week'" in err and "line 7: '09/03/2026'" in err
+    assert "forecast.date_formats" in err and '"%d/%m/%Y"' in err
+
+
+def test_day_month_year_dates_read_with_their_configured_format(
+        make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str]) -> None:
+    def dmy(frame: pd.DataFrame) -> pd.DataFrame:
+        return frame.assign(week=pd.to_datetime(frame["week"]).dt.strftime("%d/%m/%Y"))
+
+    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
+    base = make_project()
+    out = base.root / "iso.json"
+    assert run(base, "--no-snapshot", "--json", str(out)) == 0
+    iso = json.loads(out.read_text())
+    project = make_project(forecast=dmy(forecast_frame(CURRENT)), earlier=dmy(earlier))
+    project.config.write_text(project.config.read_text().replace(
+        "  issued: issued_on\n", '  issued: issued_on\n  date_formats: {week: "%d/%m/%Y"}\n'))
+    out = project.root / "dmy.json"
+    assert run(project, "--no-snapshot", "--json", str(out)) == 0, capsys.readouterr().err
+    dmy_doc = json.loads(out.read_text())
+    # the same dates written another way: the same figures
+    assert [(r["check"], r["segment"], r["measure"], r["value"]) for r in dmy_doc["results"]] \
+        == [(r["check"], r["segment"], r["measure"], r["value"]) for r in iso["results"]]
+
+
+def test_a_column_named_twice_is_refused(make_project: Callable[..., Project],
+                                        capsys: pytest.CaptureFixture[str]) -> None:
+    project = make_project()
+    path = project.data / "actuals.csv"
+    lines = path.read_text().splitlines()
+    lines = [lines[0] + ",units_sold"] + [line + ",0" for line in lines[1:]]
+    path.write_text("\n".join(lines) + "\n")
+    err = bad(project, capsys)
+    assert "actuals.csv" in err and "2 columns named 'units_sold'" in err
+
+
+@pytest.mark.parametrize("name", ["*", "unassigned"])
+def test_a_reserved_segment_name_in_the_mapping_is_refused(
+        make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str],
+        name: str) -> None:
+    project = make_project()
+    project.write("products.csv", pd.DataFrame({"product": ["P1", "P2", "P3"],
+                                                "category": ["tools", name, "plants"]}))
+    err = bad(project, capsys)
+    assert "products.csv" in err and "'category'" in err and f"line 3: '{name}'" in err
+    assert "reserved segment name" in err
+
+
+def test_actuals_keys_of_another_length_are_a_config_error(
+        make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str]) -> None:
+    project = make_project()
+    project.config.write_text(project.config.read_text().replace(
+        "  value: units_sold\n", "  value: units_sold\n  keys: [store]\n"))
+    err = bad(project, capsys)
+    assert "actuals.keys ['store'] has 1 column(s)" in err
+    assert "forecast.keys ['store', 'product'] has 2" in err
+
+
+def test_a_horizon_past_the_calendar_is_refused(make_project: Callable[..., Project],
+                                                capsys: pytest.CaptureFixture[str]) -> None:
+    project = make_project()
+    project.config.write_text(project.config.read_text().replace("horizon: 4",
+                                                                 "horizon: 100000"))
+    assert "at most 1000" in bad(project, capsys)
+    # a weekly forecast issued in the calendar's last week: its horizon runs past 2262-04-11
+    last = pd.Timestamp("2262-04-07")  # a Monday
+    forecast = forecast_frame(last)
+    project = make_project(forecast=forecast.loc[forecast["week"] == "2262-04-07"])
+    err = bad(project, capsys)
+    assert "run past the calendar" in err and "`horizon`" in err
+
+
+def test_a_spreadsheet_serial_date_is_named_plainly(make_project: Callable[..., Project],
+                                                   capsys: pytest.CaptureFixture[str]) -> None:
+    from conftest import actuals_frame
+
+    # every date written as a spreadsheet serial (days since 1899-12-30): 2026-01-05 → 46027
+    actuals = actuals_frame(CURRENT)
+    serial = (pd.to_datetime(actuals["week"]) - pd.Timestamp("1899-12-30")).dt.days
+    project = make_project(actuals=actuals.assign(week=serial))
+    err = bad(project, capsys)
+    assert "line 2: '46027'" in err and "np.int64" not in err

@@ -143,3 +143,41 @@ def test_json_schema_validates_the_contract_example() -> None:
     jsonschema.validate(yaml.safe_load(text), schema)
     with pytest.raises(jsonschema.ValidationError):
         jsonschema.validate({"version": 1, "forecast": {}, "bogus": 1}, schema)
+
+
+def test_actuals_keys_must_pair_with_the_forecast_keys() -> None:
+    base = BASE.replace("value: units_sold}", "value: units_sold, keys: [shop]}")
+    msg = error_of(base=base)
+    assert "actuals.keys ['shop'] has 1 column(s)" in msg
+    assert "forecast.keys ['store', 'product'] has 2" in msg
+    ok = parse(base=BASE.replace("value: units_sold}", "value: units_sold, keys: [shop, sku]}"))
+    assert ok.actual_keys == ["shop", "sku"]
+
+
+def test_horizon_has_an_upper_bound() -> None:
+    assert parse(base=BASE.replace("horizon: 13", "horizon: 1000")).horizon == 1000
+    msg = error_of(base=BASE.replace("horizon: 13", "horizon: 1001"))
+    assert "`horizon`" in msg and "at most 1000" in msg
+
+
+def test_date_formats_name_a_date_column_of_their_section() -> None:
+    cfg = parse(base=BASE.replace("issued: issued_on}",
+                                  'issued: issued_on, date_formats: {week: "%d/%m/%Y"}}'))
+    assert cfg.forecast.date_formats == {"week": "%d/%m/%Y"}
+    cfg = parse(base=BASE.replace("value: units_sold}",
+                                  'value: units_sold, date_formats: {week: "%Y%m%d"}}'))
+    assert cfg.actuals.date_formats == {"week": "%Y%m%d"}
+    msg = error_of(base=BASE.replace("issued: issued_on}",
+                                     'issued: issued_on, date_formats: {units: "%d/%m/%Y"}}'))
+    assert "forecast.date_formats" in msg and "'units'" in msg and "'week'" in msg
+    assert "'issued_on'" in msg
+    msg = error_of(base=BASE.replace("value: units_sold}",
+                                     'value: units_sold, date_formats: {issued_on: "%d"}}'))
+    assert "actuals.date_formats" in msg and "not a date column of the actuals" in msg
+
+
+@pytest.mark.parametrize("fmt", ["dd/mm/yyyy", "%H:%M", "%d/%m/%Q", "%d/%m/%"])
+def test_date_formats_must_be_strftime_date_patterns(fmt: str) -> None:
+    msg = error_of(base=BASE.replace("issued: issued_on}",
+                                     f'issued: issued_on, date_formats: {{week: "{fmt}"}}}}'))
+    assert "`forecast.date_formats.week`" in msg and "%d/%m/%Y" in msg
