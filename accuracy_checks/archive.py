@@ -22,19 +22,32 @@ moves aside; never half a file under a final name. Runs recorded without a snaps
 runs, other engines) still take an attempt number, so the archive may skip numbers that the
 store holds; it never holds a number the store does not. Staged files of runs killed long ago
 are swept from ``.incoming``; ``.orphans`` is kept for inspection and safe to delete.
+
+**Reading** (:meth:`Archive.last_recorded`): the store also says which snapshot is the last of
+each cycle: the highest attempt recorded *with* a snapshot. That file is read, never an older
+attempt in its place: a recorded snapshot that is missing or unreadable, or a cycle whose files
+no run recorded, is a :class:`SnapshotFault`, and the engine leaves that cycle out with a
+warning. Only without a store (the first run) is the folder's highest attempt taken as is.
+
+**Faults while writing** (an archive path that is a file, a folder that cannot be written, a
+full disk) raise :class:`ArchiveError` naming the path: :meth:`Archive.check_usable` before
+the checks run, and the writing steps themselves, which leave no half file behind.
 """
 
 from __future__ import annotations
 
+import contextlib
 import os
 import re
 import time
 import uuid
+from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING
+from typing import TYPE_CHECKING, Literal
 
 from accuracy_checks import frames as F
+from accuracy_checks.errors import UsageError
 
 if TYPE_CHECKING:  # pandas loads only when a snapshot is read or written
     import pandas as pd
@@ -65,6 +78,10 @@ def label_to_timestamp(label: str) -> pd.Timestamp:
     return pd.Timestamp(f"{date} {time_part.replace('-', ':')}".strip())
 
 
+class ArchiveError(UsageError):
+    """The archive folder cannot be used: it is a file, or cannot be written (exit code 2)."""
+
+
 @dataclass(frozen=True)
 class Snapshot:
     cycle: str
@@ -74,6 +91,50 @@ class Snapshot:
     @property
     def issued(self) -> pd.Timestamp:
         return label_to_timestamp(self.cycle)
+
+
+#: what is wrong with a cycle's snapshot (see :class:`SnapshotFault`)
+Problem = Literal["missing", "unreadable", "unrecorded"]
+
+
+@dataclass(frozen=True)
+class SnapshotFault:
+    """A cycle whose last snapshot cannot be used, so the cycle is left out.
+
+    ``missing``: the store records ``attempt`` with a snapshot, but the file is not there;
+    ``unreadable``: the file is there but is not a readable snapshot (``detail`` says why);
+    ``unrecorded``: the archive holds files of the cycle but the store records no run of it
+    that wrote a snapshot (a run killed before its record committed leaves such a file).
+    """
+
+    snapshot: Snapshot
+    problem: Problem
+    detail: str = ""
+
+    @property
+    def cycle(self) -> str:
+        return self.snapshot.cycle
+
+    @property
+    def issued(self) -> pd.Timestamp:
+        return self.snapshot.issued
+
+    def describe(self) -> str:
+        """One sentence naming cycle, attempt and file, and what is wrong with it."""
+        s = self.snapshot
+        if self.problem == "missing":
+            return (f"the audit store records attempt {s.attempt} of cycle {s.cycle} with a "
+                    f"snapshot, but its file {s.path} is missing")
+        if self.problem == "unreadable":
+            return (f"the snapshot of cycle {s.cycle}, attempt {s.attempt} ({s.path}) cannot "
+                    f"be read: {self.detail}")
+        return (f"the archive holds {s.path} (cycle {s.cycle}, attempt {s.attempt}), but the "
+                "audit store records no run of that cycle that wrote a snapshot (a run "
+                "killed before its record was committed leaves such a file)")
+
+
+class SnapshotUnreadable(Exception):
+    """Raised by :meth:`Archive.read` with the reason a snapshot file cannot be used."""
 
 
 class Archive:
@@ -98,41 +159,121 @@ class Archive:
         return sorted(out, key=lambda s: (s.cycle, s.attempt))
 
     def latest_attempts(self, before: pd.Timestamp | None = None) -> list[Snapshot]:
-        """The last attempt of each cycle (issued strictly before ``before`` if given)."""
+        """The highest-numbered file of each cycle (issued strictly before ``before`` if
+        given), by the folder alone: what a run without an audit store uses."""
         last: dict[str, Snapshot] = {}
         for s in self.snapshots():
             if before is None or s.issued < before:
                 last[s.cycle] = s
         return list(last.values())
 
-    def load(self, snapshots: list[Snapshot]) -> pd.DataFrame:
-        """The snapshots' rows, with ``attempt`` and ``source`` = ``"archive"``."""
+    def path_of(self, cycle: str, attempt: int) -> Path:
+        """Where the snapshot of ``cycle``'s attempt ``attempt`` lives."""
+        return self.root / f"cycle={cycle}" / f"attempt-{attempt:04d}.parquet"
+
+    def last_recorded(self, recorded: Mapping[str, int] | None,
+                      before: pd.Timestamp | None = None
+                      ) -> tuple[list[Snapshot], list[SnapshotFault]]:
+        """The last snapshot of each cycle issued strictly before ``before``, ordered by cycle,
+        and the cycles whose last snapshot cannot be used.
+
+        ``recorded`` maps each cycle to its highest attempt recorded with a snapshot in the
+        audit store (:func:`accuracy_checks.store.archived_attempts`). That attempt's file is
+        the cycle's snapshot; if it is missing the cycle is a ``missing`` fault, never replaced
+        by an older attempt. A cycle with files but no such record is an ``unrecorded`` fault.
+        With ``recorded=None`` (no store yet) the folder's highest attempt of each cycle is
+        used as is. Files are only looked up here, not read (see :meth:`read`).
+        """
+        if recorded is None:
+            return self.latest_attempts(before), []
+        on_disk = {s.cycle: s for s in self.latest_attempts(before)}
+        found: list[Snapshot] = []
+        faults: list[SnapshotFault] = []
+        for cycle, attempt in recorded.items():
+            snap = Snapshot(cycle, int(attempt), self.path_of(cycle, int(attempt)))
+            if not _CYCLE_DIR.match(f"cycle={cycle}"):
+                continue  # not an issue-date label: no snapshot of ours
+            if before is not None and snap.issued >= before:
+                continue
+            if snap.path.is_file():
+                found.append(snap)
+            else:
+                faults.append(SnapshotFault(snap, "missing"))
+        faults += [SnapshotFault(s, "unrecorded") for c, s in on_disk.items()
+                   if c not in recorded]
+        return (sorted(found, key=lambda s: s.cycle),
+                sorted(faults, key=lambda f: f.cycle))
+
+    def read(self, snap: Snapshot, required: Sequence[str] = ()) -> pd.DataFrame:
+        """The rows of one snapshot file with ``attempt`` and ``source`` = ``"archive"``.
+
+        Raises :class:`SnapshotUnreadable` (with the reason) when the file is gone, is not
+        Parquet, is damaged, or lacks a ``required`` column.
+        """
         import pandas as pd
 
-        parts = [
-            pd.read_parquet(s.path).assign(
-                **{F.ATTEMPT: s.attempt, F.SOURCE: "archive"}
-            )
-            for s in snapshots
-        ]
-        if not parts:
-            return pd.DataFrame()
-        frame = pd.concat(parts, ignore_index=True)
+        try:
+            frame = pd.read_parquet(snap.path)
+        except FileNotFoundError:
+            raise SnapshotUnreadable("the file is missing") from None
+        except Exception as exc:  # pyarrow raises several types for damaged files
+            reason = " ".join(str(exc).replace(f" '{snap.path}'", "").split())
+            reason = reason or type(exc).__name__
+            raise SnapshotUnreadable(f"it is not a readable Parquet file ({reason})") from None
+        lacking = [c for c in required if c not in frame.columns]
+        if lacking:
+            raise SnapshotUnreadable(
+                f"it lacks the column(s) {', '.join(lacking)} (columns: "
+                f"{', '.join(map(str, frame.columns[:12]))})")
+        frame = frame.assign(**{F.ATTEMPT: snap.attempt, F.SOURCE: "archive"})
         frame[F.ATTEMPT] = frame[F.ATTEMPT].astype("Int64")
         return frame
 
-    def stage(self, frame: pd.DataFrame, issued: pd.Timestamp) -> StagedSnapshot:
-        """Write ``frame`` in full to the staging folder (step 1 of the protocol above)."""
+    def check_usable(self, *, write: bool = True) -> None:
+        """Raise :class:`ArchiveError` if the archive cannot be used: its path (or a folder
+        above it) is a file, or (with ``write``) the folder that would hold the snapshots
+        cannot be written. Creates nothing; called before the checks run, so they fail fast.
+        """
+        path = self.root
+        while not path.exists() and path.parent != path:
+            path = path.parent
+        if not path.is_dir():
+            where = ("The archive path" if path == self.root
+                     else f"The archive {self.root} cannot be created: the path")
+            raise ArchiveError(
+                f"{where} {path} is a file, not a folder, so earlier forecasts cannot be "
+                "read from it nor this one archived. Point `archive:` in the config at a "
+                "folder (it is created if missing), or move that file away."
+            )
+        if not write:
+            return
         incoming = self.root / _INCOMING
-        incoming.mkdir(parents=True, exist_ok=True)
-        self._sweep(incoming)
+        for folder in ([incoming] if incoming.is_dir() else []) + [path]:
+            if not can_write(folder):
+                raise ArchiveError(
+                    f"The archive folder {self.root} cannot be written: no permission to "
+                    f"create files in {folder}. Give the user running the checks write "
+                    "access to it, or point `archive:` in the config at a folder it may "
+                    "write (with --no-snapshot nothing is archived)."
+                )
+
+    def stage(self, frame: pd.DataFrame, issued: pd.Timestamp) -> StagedSnapshot:
+        """Write ``frame`` in full to the staging folder (step 1 of the protocol above).
+
+        Raises :class:`ArchiveError` when it cannot be written (no half file is left)."""
+        incoming = self.root / _INCOMING
         tmp = incoming / f"{uuid.uuid4().hex}.parquet"
         try:
+            incoming.mkdir(parents=True, exist_ok=True)
+            self._sweep(incoming)
             frame.to_parquet(tmp, index=False)
             with open(tmp, "rb") as fh:
                 os.fsync(fh.fileno())
+        except OSError as exc:
+            _unlink_quietly(tmp)
+            raise _write_error(self.root, exc) from None
         except BaseException:
-            tmp.unlink(missing_ok=True)
+            _unlink_quietly(tmp)
             raise
         return StagedSnapshot(self.root, cycle_label(issued), tmp)
 
@@ -152,9 +293,12 @@ class Archive:
             if not m or int(m.group(1)) < first:
                 continue
             dest_dir = self.root / _ORPHANS / f"cycle={cycle}"
-            dest_dir.mkdir(parents=True, exist_ok=True)
             dest = dest_dir / f"{f.stem}.{uuid.uuid4().hex[:8]}.parquet"
-            os.replace(f, dest)
+            try:
+                dest_dir.mkdir(parents=True, exist_ok=True)
+                os.replace(f, dest)
+            except OSError as exc:
+                raise _write_error(self.root, exc) from None
             moved.append(dest)
         if moved:
             _fsync_dir(cycle_dir)
@@ -183,15 +327,48 @@ class StagedSnapshot:
     def place(self, attempt: int) -> Path:
         """Rename the staged file to ``cycle=<cycle>/attempt-<attempt>.parquet`` (atomic)."""
         cycle_dir = self.root / f"cycle={self.cycle}"
-        cycle_dir.mkdir(parents=True, exist_ok=True)
         final = cycle_dir / f"attempt-{attempt:04d}.parquet"
-        os.replace(self.path, final)
+        try:
+            cycle_dir.mkdir(parents=True, exist_ok=True)
+            os.replace(self.path, final)
+        except OSError as exc:
+            raise _write_error(self.root, exc) from None
         _fsync_dir(cycle_dir)
         return final
 
     def discard(self) -> None:
         """Remove the staged file (the run was not recorded)."""
-        self.path.unlink(missing_ok=True)
+        _unlink_quietly(self.path)
+
+
+def _unlink_quietly(path: Path) -> None:
+    with contextlib.suppress(OSError):  # nothing more can be done; the sweep removes it later
+        path.unlink(missing_ok=True)
+
+
+def can_write(folder: Path) -> bool:
+    """Whether a file can be created in ``folder`` (tried for real: permission bits do not
+    tell for root, ACLs or read-only mounts). The probe file is removed at once."""
+    import tempfile
+
+    try:
+        fd, name = tempfile.mkstemp(prefix=".accuracy-checks-probe-", dir=folder)
+    except OSError:
+        return False
+    os.close(fd)
+    _unlink_quietly(Path(name))
+    return True
+
+
+def _write_error(root: Path, exc: OSError) -> ArchiveError:
+    """An :class:`ArchiveError` for a failed write under the archive ``root``."""
+    where = f" ({exc.filename})" if exc.filename else ""
+    return ArchiveError(
+        f"The forecast could not be archived under {root}{where}: "
+        f"{exc.strerror or exc}. Nothing was recorded and no snapshot was kept. Check that "
+        "the archive folder exists as a folder, may be written by the user running the checks, "
+        "and has free space (with --no-snapshot nothing is archived)."
+    )
 
 
 def _fsync_dir(path: Path) -> None:

@@ -19,7 +19,7 @@ masking), :mod:`.core` (the :class:`Store` that ties them together).
 
 from __future__ import annotations
 
-from accuracy_checks.store.core import RecordedRun, Store, open_store
+from accuracy_checks.store.core import RecordedRun, Store, archived_attempts, open_store
 from accuracy_checks.store.database import StoreError
 from accuracy_checks.store.record import input_fingerprints
 from accuracy_checks.store.urls import default_store_url, mask_secrets, mask_url
@@ -31,6 +31,7 @@ __all__ = [
     "StoreError",
     "Waiver",
     "apply_waivers",
+    "archived_attempts",
     "default_store_url",
     "input_fingerprints",
     "mask_secrets",

@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import contextlib
 from collections.abc import Callable
 from dataclasses import dataclass
 from datetime import UTC, date, datetime
@@ -48,6 +49,30 @@ class RecordedRun:
     snapshot: Path | None
     #: unrecorded snapshots of killed runs moved to ``<archive>/.orphans``
     retired: tuple[Path, ...] = ()
+
+
+def archived_attempts(target: Config | str) -> dict[str, int] | None:
+    """The last snapshot of each cycle as the audit store records it: cycle → the highest
+    attempt recorded with a snapshot (runs recorded without one, dry runs, are not counted).
+
+    ``None`` when there is no store yet (an SQLite file that does not exist, or a database
+    without our tables): the archive folder is then all there is. Reads only; creates and
+    upgrades nothing. Raises :class:`StoreError` when the store cannot be read.
+    """
+    from accuracy_checks.store.urls import sqlite_file
+
+    url = target if isinstance(target, str) else default_store_url(target)
+    db_file = sqlite_file(url)
+    if db_file is not None and not db_file.is_file():
+        return None
+    db = Database(url, create=False)
+    try:
+        with db.read() as conn:
+            if current_version(conn) == 0:
+                return None
+            return queries.archived_attempts(conn)
+    finally:
+        db.dispose()
 
 
 def open_store(target: Config | str, *, create: bool = True) -> Store:
@@ -170,7 +195,9 @@ class Store:
         except BaseException:
             if placed is not None and folder is not None and report.cycle is not None:
                 # the record did not commit: the placed file must not keep the number
-                folder.retire_unrecorded(report.cycle, int(run["attempt"]))
+                # (if that fails too, the next run of the cycle moves it aside)
+                with contextlib.suppress(Exception):
+                    folder.retire_unrecorded(report.cycle, int(run["attempt"]))
             raise
         finally:
             if snapshot is not None and placed is None:
@@ -181,6 +208,12 @@ class Store:
             progress(f"moved {len(retired)} unrecorded snapshot(s) of cycle {report.cycle} "
                      f"(left by interrupted runs) to {retired[0].parent}")
         return RecordedRun(report.run_id, report.cycle, attempt, placed, tuple(retired))
+
+    def archived_attempts(self) -> dict[str, int]:
+        """Cycle → its highest attempt recorded with a snapshot (see
+        :func:`archived_attempts`)."""
+        with self.db.read() as conn:
+            return queries.archived_attempts(conn)
 
     def retire_orphans(self, archive: Path) -> list[Path]:
         """Move aside every snapshot in ``archive`` numbered above its cycle's last recorded

@@ -12,6 +12,13 @@ and released by its commit or rollback (or by the death of the process that held
 Under the lock a writer reads the highest attempt of its cycle and takes the next one, so
 attempts are unique and gap-free even for runs that start at the same moment; a run killed
 mid-write loses its connection, which rolls its transaction back and frees the lock.
+
+No wait is unbounded. PostgreSQL connections give up after :data:`PG_CONNECT_TIMEOUT_S`
+(libpq's ``connect_timeout``) and each statement after :data:`PG_STATEMENT_TIMEOUT_S` (the
+server's ``statement_timeout``, the advisory-lock wait included), unless the user set either
+(the URL's ``connect_timeout`` or ``PGCONNECT_TIMEOUT``; ``statement_timeout`` through the
+URL's ``options``, ``PGOPTIONS`` or a role or database default): then theirs applies. A
+timeout is a :class:`StoreError` naming the server (password masked).
 """
 
 from __future__ import annotations
@@ -27,6 +34,7 @@ from sqlalchemy import Connection, Engine, create_engine, event, text
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 from sqlalchemy.pool import NullPool
 
+from accuracy_checks.archive import can_write
 from accuracy_checks.errors import UsageError
 from accuracy_checks.store.urls import mask_secrets, mask_url, sqlite_file
 
@@ -34,6 +42,10 @@ from accuracy_checks.store.urls import mask_secrets, mask_url, sqlite_file
 BUSY_TIMEOUT_S = 120.0
 #: the PostgreSQL advisory lock key of a store's writes (any constant bigint; "ACCHECKS")
 PG_WRITE_LOCK = 0x4143434845434B53
+#: seconds a PostgreSQL connection attempt may take unless the URL or PGCONNECT_TIMEOUT says
+PG_CONNECT_TIMEOUT_S = 10
+#: seconds a PostgreSQL statement may run unless the user's session settings say otherwise
+PG_STATEMENT_TIMEOUT_S = 60
 
 
 class StoreError(UsageError):
@@ -64,8 +76,15 @@ def make_engine(url: str, *, create: bool) -> Engine:
         event.listen(engine, "connect", _sqlite_connect)
         event.listen(engine, "begin", _sqlite_begin)
         return engine
+    connect_args: dict[str, Any] = {}
+    is_pg = parsed.get_backend_name() == "postgresql"
+    if is_pg and "connect_timeout" not in parsed.query and not os.environ.get("PGCONNECT_TIMEOUT"):
+        connect_args["connect_timeout"] = PG_CONNECT_TIMEOUT_S
     try:
-        return create_engine(parsed, poolclass=NullPool)
+        engine = create_engine(parsed, poolclass=NullPool, connect_args=connect_args)
+        if is_pg:
+            event.listen(engine, "connect", _pg_connect)
+        return engine
     except Exception as exc:  # e.g. the driver is not installed
         hint = ""
         if parsed.get_backend_name() == "postgresql":
@@ -75,6 +94,46 @@ def make_engine(url: str, *, create: bool) -> Engine:
         ) from None
 
 
+def _pg_connect(dbapi_conn: Any, _record: Any) -> None:
+    # a default statement timeout only where none is set (URL options, PGOPTIONS, role or
+    # database defaults all show in current_setting); committed, so a rollback keeps it
+    cur = dbapi_conn.cursor()
+    try:
+        cur.execute("SELECT set_config('statement_timeout', %s, false) "
+                    "WHERE current_setting('statement_timeout') = '0'",
+                    (f"{int(PG_STATEMENT_TIMEOUT_S * 1000)}ms",))
+    finally:
+        cur.close()
+    dbapi_conn.commit()
+
+
+def check_sqlite_location(path: Path) -> None:
+    """Raise :class:`StoreError` unless the SQLite store ``path`` can be created or written:
+    neither it nor a folder above it is in the way (a file where a folder is needed, a
+    folder where the database file is) and its folder may be written (SQLite writes its
+    ``-wal`` and ``-shm`` files beside the database). Creates nothing."""
+    if path.is_dir():
+        raise StoreError(
+            f"The audit store {path} is a folder, not an SQLite database file. Point `store:` "
+            "at a file (e.g. sqlite:///.accuracy_checks/audit.db), or move the folder away."
+        )
+    folder = path.parent
+    while not folder.exists() and folder.parent != folder:
+        folder = folder.parent
+    if not folder.is_dir():
+        raise StoreError(
+            f"The audit store {path} cannot be created: {folder} is a file, not a folder. "
+            "Point `store:` in the config (or `archive:`, next to which the default store "
+            "lives) at a folder, or move that file away."
+        )
+    if not can_write(folder):
+        raise StoreError(
+            f"The audit store {path} cannot be written: no permission to create files in "
+            f"{folder} (SQLite writes the database and its -wal and -shm files there). Give "
+            "the user running the checks write access to it, or point `store:` elsewhere."
+        )
+
+
 def _create_private_file(path: Path, *, create: bool) -> None:
     """Create the SQLite file readable by its owner only (SQLite's -wal and -shm files copy
     the database file's mode)."""
@@ -82,11 +141,18 @@ def _create_private_file(path: Path, *, create: bool) -> None:
         return
     if not create:
         raise StoreError(f"No audit store at {path}: no run has been recorded there yet.")
-    path.parent.mkdir(parents=True, exist_ok=True)
     try:
+        path.parent.mkdir(parents=True, exist_ok=True)
         fd = os.open(path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o600)
-    except FileExistsError:  # another process created it first
-        return
+    except FileExistsError:  # another process created it first (or a file is in the way)
+        if path.exists():
+            return
+        check_sqlite_location(path)
+        raise
+    except OSError as exc:
+        check_sqlite_location(path)  # words the usual causes
+        raise StoreError(f"The audit store {path} cannot be created: "
+                         f"{exc.strerror or exc}.") from None
     os.close(fd)
 
 
@@ -154,6 +220,7 @@ class Database:
             detail = mask_secrets(str(exc.orig)).strip().replace("\n", " ")
             raise StoreError(
                 f"Cannot {doing} the audit store {self.display_url}: {detail}"
+                f"{self._timeout_hint(exc.orig)}"
             ) from None
         except SQLAlchemyError as exc:
             raise StoreError(
@@ -161,8 +228,45 @@ class Database:
                 f"{mask_secrets(str(exc))}"
             ) from None
 
+    def _timeout_hint(self, orig: BaseException | None) -> str:
+        """A sentence on what timed out and where, for PostgreSQL timeouts ('' otherwise)."""
+        if self.dialect != "postgresql" or orig is None:
+            return ""
+        server = _server_of(self.url)
+        if type(orig).__name__ == "ConnectionTimeout":
+            return (f" (no answer from the server at {server} within {_connect_wait(self.url)} "
+                    "s; check that PostgreSQL runs there and is reachable. The store URL's "
+                    "connect_timeout parameter sets the wait, default "
+                    f"{PG_CONNECT_TIMEOUT_S} s). Nothing was recorded.")
+        if getattr(orig, "sqlstate", None) == "57014":  # query_canceled: statement_timeout
+            return (f" (a statement on {server} ran longer than the statement timeout: the "
+                    "server is overloaded, or another session holds a lock on the store. "
+                    "Set it with options=-c statement_timeout=… in the store URL, default "
+                    f"{PG_STATEMENT_TIMEOUT_S} s). Nothing was recorded.")
+        return ""
+
     def dispose(self) -> None:
         self.engine.dispose()
+
+
+def _connect_wait(url: str) -> str:
+    """The connect timeout in force for ``url``, as libpq reads it (URL, env, our default)."""
+    from sqlalchemy.engine import make_url
+
+    given = make_url(url).query.get("connect_timeout") or os.environ.get("PGCONNECT_TIMEOUT")
+    return str(given or PG_CONNECT_TIMEOUT_S)
+
+
+def _server_of(url: str) -> str:
+    """``host:port`` of a database URL (for messages; no user, no password)."""
+    from sqlalchemy.engine import make_url
+
+    try:
+        parsed = make_url(url)
+    except Exception:
+        return "the store's host"
+    host = parsed.host or parsed.query.get("host") or "localhost"
+    return f"{host}:{parsed.port or 5432}"
 
 
 def validate_url(url: str) -> None:

@@ -97,6 +97,15 @@ def history(conn: Connection, *, cycle: str | None = None, segment: str | None =
     return out
 
 
+def archived_attempts(conn: Connection) -> dict[str, int]:
+    """Cycle → the highest attempt recorded with a snapshot (the cycle's last snapshot)."""
+    q = (select(runs.c.cycle, func.max(runs.c.attempt))
+         .where(runs.c.cycle.is_not(None), runs.c.attempt.is_not(None),
+                runs.c.snapshot.is_not(None))
+         .group_by(runs.c.cycle))
+    return {str(cycle): int(attempt) for cycle, attempt in conn.execute(q)}
+
+
 def _chunks(items: Sequence[int], n: int) -> list[Sequence[int]]:
     return [items[i:i + n] for i in range(0, len(items), n)]
 
