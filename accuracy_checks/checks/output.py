@@ -413,10 +413,12 @@ def output_checks(
 
     values = [FORECAST, *quantile_columns]
     ident = [*keys, PERIOD, ISSUED]
+    names = _file_names(quantile_columns, quantile_names)
     results = [
         _duplicates(forecast, mask_of(DUPLICATE_ROWS), keys, max_examples),
-        _invalid(forecast, mask_of(INVALID_VALUES), keys, values, ident, max_examples),
-        _negative(forecast, mask_of(NEGATIVE_VALUES), keys, values, ident, max_examples),
+        _invalid(forecast, mask_of(INVALID_VALUES), keys, values, ident, max_examples, names),
+        _negative(forecast, mask_of(NEGATIVE_VALUES), keys, values, ident, max_examples,
+                  names),
     ]
     if len(quantile_columns) < 2:
         results.append(
@@ -438,7 +440,7 @@ def output_checks(
                 keys,
                 quantile_columns,
                 max_examples,
-                _file_names(quantile_columns, quantile_names),
+                names,
             )
         )
     results.append(_issue_dates(forecast, mask_of(ISSUE_DATES), keys, max_examples))
@@ -554,6 +556,7 @@ def _invalid(
     values: list[str],
     ident: list[str],
     max_examples: int,
+    names: dict[str, str],
 ) -> CheckResult:
     n_bad = int(np.count_nonzero(mask))
     where = ""
@@ -563,7 +566,7 @@ def _invalid(
         for column in values:
             n = int(np.count_nonzero(~np.isfinite(_as_float(subset, column))))
             if n:
-                by_column[column] = n
+                by_column[names.get(column, column)] = n
         where = ", ".join(f"{c} ({n:,})" for c, n in by_column.items())
     return _result(
         INVALID_VALUES,
@@ -572,8 +575,9 @@ def _invalid(
         mask,
         f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a missing (null/NaN) or "
         f"infinite value in {where}; every forecast and quantile value must be a finite number",
-        f"Every value in {', '.join(values)} is a finite number.",
-        row_examples(frame, _first(mask, max_examples), [*ident, *values]),
+        f"Every value in {', '.join(names.get(c, c) for c in values)} is a finite number.",
+        _in_file_names(row_examples(frame, _first(mask, max_examples), [*ident, *values]),
+                       names, ident),
         {"by_column": by_column} if by_column else None,
     )
 
@@ -585,6 +589,7 @@ def _negative(
     values: list[str],
     ident: list[str],
     max_examples: int,
+    names: dict[str, str],
 ) -> CheckResult:
     shown = [*ident, *([SEGMENT] if SEGMENT in frame.columns else []), *values]
     n_bad = int(np.count_nonzero(mask))
@@ -595,8 +600,9 @@ def _negative(
         mask,
         f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a negative forecast or quantile; "
         "forecasts must be 0 or more unless forecast.allow_negative lists the segment",
-        f"No negative value in {', '.join(values)} outside the segments that allow them.",
-        row_examples(frame, _first(mask, max_examples), shown),
+        f"No negative value in {', '.join(names.get(c, c) for c in values)} outside the "
+        "segments that allow them.",
+        _in_file_names(row_examples(frame, _first(mask, max_examples), shown), names, shown),
     )
 
 
@@ -610,6 +616,14 @@ def _file_names(quantile_columns: list[str], names: Sequence[str] | None) -> dic
             f"quantile_names {names} do not match quantile_columns {quantile_columns}"
         )
     return dict(zip(quantile_columns, names, strict=True))
+
+
+def _in_file_names(examples: list[dict[str, Any]], names: dict[str, str],
+                   ident: Sequence[str]) -> list[dict[str, Any]]:
+    """Examples whose quantile fields carry the file's own column names (a name that clashes
+    with an identifying field keeps the canonical label rather than overwrite that field)."""
+    labels = {c: n for c, n in names.items() if n not in ident}
+    return [{labels.get(k, k): v for k, v in example.items()} for example in examples]
 
 
 def _crossing_pairs(
@@ -647,11 +661,9 @@ def _crossing(
     ]
     shown = ", ".join(f"{pair} in {plural(n, 'row')}" for pair, n in pairs[:3])
     more = f", and {plural(len(pairs) - 3, 'more pair')}" if len(pairs) > 3 else ""
-    examples = row_examples(frame, _first(mask, max_examples), [*ident, *quantile_columns])
-    # each example names the file's quantile columns (a name that clashes with an
-    # identifying field keeps the canonical label rather than overwrite that field)
-    labels = {c: (names[c] if names[c] not in ident else c) for c in quantile_columns}
-    examples = [{labels.get(k, k): v for k, v in example.items()} for example in examples]
+    examples = _in_file_names(
+        row_examples(frame, _first(mask, max_examples), [*ident, *quantile_columns]),
+        names, ident)
     ordered = ", ".join(names[c] for c in quantile_columns)
     return _result(
         QUANTILE_ORDER,
