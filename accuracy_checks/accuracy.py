@@ -20,7 +20,14 @@ Rules:
   contributing most to the segment's absolute error, or to its bias for bias-type measures
   (:mod:`accuracy_checks.offenders`);
 - a plugin measure that raises gives its results the status ``error`` with the plugin's
-  message; everything else still runs.
+  message; everything else still runs;
+- a figure whose sums exceed the float64 range (an error or actual of absurd size, e.g. an
+  earlier forecast of 1e308) has no value and the reason ``overflow``: it is judged beyond
+  the worst level set (``fail`` when a fail level is set, else ``warn``; ``skipped`` without
+  any level), never reported as missing data. Detected per group on the reduced statistics
+  (:func:`~accuracy_checks.measures.stats.overflowed`: figures built on the point errors), or
+  when a measure's value or detail is ±inf. Inputs that are themselves infinite never get
+  here: the evaluation frame reads them as missing.
 """
 
 from __future__ import annotations
@@ -59,12 +66,16 @@ from accuracy_checks.measures.registry import (
     get_measure,
     registered_measures,
 )
+from accuracy_checks.measures.stats import overflowed
 from accuracy_checks.offenders import worst_offenders
 from accuracy_checks.outputs.wording import describe_value, format_number
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
 from accuracy_checks.thresholds import ThresholdBook, breaks
 
 CHECK = "accuracy"
+#: reason of a figure whose sums exceed the float64 range (judged beyond any level)
+OVERFLOW = "overflow"
+_FLOAT_MAX = "1.8e308"
 
 _NEEDS_TEXT = {
     "history": "the actuals history (to scale errors or build the naive baselines)",
@@ -103,9 +114,31 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
         )
         return [_no_data(ALL_SERIES, lag, m.id, book, reason) for lag in lags for m in defs]
     job = _Job(frame, keys, settings, history, frequency)
+    # sums beyond the float64 range are found on the results and judged (_judged), so numpy's
+    # overflow warnings would only repeat it
+    with np.errstate(over="ignore", invalid="ignore"):
+        out = _measure_all(job, defs, window=window, tracking=tracking, book=book,
+                           min_obs=min_obs, offenders=offenders, keys=keys)
+    # every segment seen gets a result at every lag, even where that lag has no rows
+    segments = job.segment_names + ([ALL_SERIES] if "all" in job.groupings else [])
+    have = {(int(lag), str(seg)) for grouping in job.groupings for lag, seg in
+            job.groups_of(grouping)[[F.LAG, F.SEGMENT]].itertuples(index=False)}
+    for lag in lags:
+        for segment in segments:
+            if (lag, segment) not in have:
+                out += [_no_data(segment, lag, m.id, book,
+                                 f"no earlier forecast at lag {lag} targets {span}")
+                        for m in defs]
+    return out
+
+
+def _measure_all(job: _Job, defs: list[Measure], *, window: Sequence[pd.Timestamp],
+                 tracking: Sequence[pd.Timestamp] | None, book: ThresholdBook, min_obs: int,
+                 offenders: int, keys: list[str]) -> list[CheckResult]:
+    """Every measure of ``defs`` on every grouping of ``job``, judged."""
     out: list[CheckResult] = []
     for measure in defs:
-        missing = _unmet_needs(measure, settings, history)
+        missing = _unmet_needs(measure, job.settings, job.history)
         windows = {"evaluation": window, "tracking": tracking if tracking else window}
         measure_span = _span(windows[measure.window])
         for grouping in job.groupings:
@@ -122,16 +155,6 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
                 continue
             out += _judged(measure, values, data, job, book, min_obs, measure_span, offenders,
                            keys)
-    # every segment seen gets a result at every lag, even where that lag has no rows
-    segments = job.segment_names + ([ALL_SERIES] if "all" in job.groupings else [])
-    have = {(int(lag), str(seg)) for grouping in job.groupings for lag, seg in
-            job.groups_of(grouping)[[F.LAG, F.SEGMENT]].itertuples(index=False)}
-    for lag in lags:
-        for segment in segments:
-            if (lag, segment) not in have:
-                out += [_no_data(segment, lag, m.id, book,
-                                 f"no earlier forecast at lag {lag} targets {span}")
-                        for m in defs]
     return out
 
 
@@ -363,6 +386,10 @@ def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job
     if "group" not in columns:  # one row per group, in group order
         columns["group"] = np.arange(len(values))
     records = [{c: a[i] for c, a in columns.items()} for i in range(len(values))]
+    # the point errors' sums overflowed: every figure built on them is out of range too
+    # (a quotient by an overflowed sum can even come out finite: x / inf = 0)
+    point_errors = not measure.needs & {"quantiles", "intervals"}
+    overflow = overflowed(data.stats) if point_errors else np.zeros(data.n_groups, dtype=bool)
     out: list[CheckResult] = []
     breached: dict[int, bool] = {}
     pending: list[tuple[int, CheckResult]] = []
@@ -379,8 +406,12 @@ def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job
             details["variant"] = variant
         details.update({c: _plain(rec[c]) for c in extras})
         reason = rec.get("reason")
-        row = _Row(g, int(lags[g]), str(segments[g]), variant,
-                   value, reason if isinstance(reason, str) else None,
+        reason = reason if isinstance(reason, str) else None
+        if reason is None and n_obs > 0 and (
+                overflow[g] or _infinite(rec["value"])
+                or any(_infinite(rec[c]) for c in extras)):
+            value, reason = None, OVERFLOW
+        row = _Row(g, int(lags[g]), str(segments[g]), variant, value, reason,
                    n_obs, int(series[g]), _unit(rec.get("unit"), measure), details)
         result = _judge_row(measure, row, book, data.settings, min_obs, span)
         if result.status in ("warn", "fail"):
@@ -418,7 +449,10 @@ def _judge_row(measure: Measure, row: _Row, book: ThresholdBook, settings: Measu
                                     f"{min_obs})."), **common)
     status: Status
     note = ""
-    if row.value is None:
+    if row.reason == OVERFLOW:
+        # a figure beyond the float64 range is beyond any level: the worst level set breaks
+        status = "fail" if fail is not None else "warn" if warn is not None else "skipped"
+    elif row.value is None:
         status = book.judge(measure.id, row.segment, None).status if bounds is not None \
             else "skipped"
     else:
@@ -447,8 +481,13 @@ def _with_offenders(result: CheckResult, examples: list[dict[str, Any]],
     share = top.get("share_of_bias_pct" if bias else "share_of_abs_error_pct")
     what = "bias" if bias else "absolute error"
     who = _who(top)
-    text = (f"{result.message} Worst series: {who} "
-            f"({format_number(share) if share is not None else '?'} % of the {what}).")
+    if share is not None:
+        text = f"{result.message} Worst series: {who} ({format_number(share)} % of the {what})."
+    elif top.get("abs_error") is None:
+        text = (f"{result.message} Worst series: {who} (its errors exceed the floating-point "
+                "range).")
+    else:
+        text = f"{result.message} Worst series: {who}."
     return CheckResult(**{**result.__dict__, "examples": examples, "message": text})
 
 
@@ -504,7 +543,14 @@ def _with_message(result: CheckResult, label: str, span: str, measure: str,
     basis = (f"over {result.n_obs:,} forecasts of {result.n_series:,} series at lag "
              f"{result.lag} ({span})")
     if result.value is None:
-        if result.reason == "zero_actual" and result.details.get("mape_nonzero") is not None:
+        if result.reason == OVERFLOW:
+            level = result.fail if result.status == "fail" else result.warn
+            judged = (f", so it is judged beyond the {result.status} level {_bound(level)}"
+                      if result.status in ("warn", "fail") else ", so it cannot be computed")
+            text = (f"{label} {basis} is beyond the floating-point range: the errors are too "
+                    f"large to sum (beyond ±{_FLOAT_MAX}){judged}. Look for a forecast or an "
+                    "actual of absurd size.")
+        elif result.reason == "zero_actual" and result.details.get("mape_nonzero") is not None:
             nz = result.details["mape_nonzero"]
             text = (f"{label} is undefined: {result.details.get('n_zero_actual')} actual(s) are 0 "
                     f"{basis}; over the non-zero actuals it is {nz:.3g} %.")
@@ -563,6 +609,11 @@ def _unit(given: object, measure: Measure) -> str | None:
     unitless ratio) is reported as no unit."""
     text = given if isinstance(given, str) and given else measure.unit
     return text or None
+
+
+def _infinite(value: object) -> bool:
+    """Whether ``value`` is a float ±inf (a number beyond the float64 range)."""
+    return isinstance(value, float | np.floating) and bool(np.isinf(value))
 
 
 def _float(value: object) -> float | None:

@@ -11,6 +11,12 @@ longer of the two and flags each row: ``__in_window`` (the evaluation window) an
 period lies in either window. Rows whose actual has not arrived (or is NaN) stay in the frame
 with ``actual`` NaN; the measures count them as dropped.
 
+Non-finite values are never scored: an infinite actual is read as no actual (the
+``actuals.invalid_values`` check of :mod:`accuracy_checks.checks.actuals` fails and names its
+rows), an infinite earlier forecast as no forecast; both rows count as dropped. So every value
+that reaches the measures is finite, and a non-finite sum in the measures can only be an
+overflow (see :func:`accuracy_checks.measures.stats.overflowed`).
+
 The join runs on integer codes: the actuals are indexed once by (series, grid position)
 (:class:`~accuracy_checks.baselines.ActualsIndex`), which also serves the baselines and the
 MASE scales; ``__series`` holds each row's series code in that index (−1: no actuals).
@@ -47,8 +53,9 @@ class Evaluation:
 
 
 def window_periods(actuals: pd.DataFrame, window: int) -> list[pd.Timestamp]:
-    """The ``window`` most recent periods that have at least one non-missing actual."""
-    present = actuals.loc[actuals[F.ACTUAL].notna(), F.PERIOD]
+    """The ``window`` most recent periods that have at least one finite actual."""
+    values = actuals[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
+    present = actuals.loc[np.isfinite(values), F.PERIOD]
     periods = np.sort(present.unique())
     return [pd.Timestamp(p) for p in periods[-window:]] if window > 0 else []
 
@@ -63,6 +70,7 @@ def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list
     ``__in_window``/``__in_tracking`` and codes ``__series``; plus the window, the tracking
     window, the cycles used (with their attempts and sources) and the actuals index.
     """
+    actuals = finite_actuals(actuals)
     periods = window_periods(actuals, max(window, tracking_window))
     main = periods[-window:]
     tracking = periods[-tracking_window:] if tracking_window > 0 else []
@@ -90,6 +98,18 @@ def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list
     }).reset_index(drop=True)
     cycles = _cycles_used(joined.loc[joined[IN_WINDOW]])
     return Evaluation(joined, main, cycles, tracking=tracking, history=history)
+
+
+def finite_actuals(actuals: pd.DataFrame) -> pd.DataFrame:
+    """``actuals`` with every infinite actual read as missing (NaN); the frame itself when
+    none is infinite (one pass over the column, no copy)."""
+    if len(actuals) == 0 or F.ACTUAL not in actuals.columns:
+        return actuals
+    values = actuals[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
+    infinite = np.isinf(values)
+    if not infinite.any():
+        return actuals
+    return actuals.assign(**{F.ACTUAL: np.where(infinite, np.nan, values)})
 
 
 def _exact_join(rows: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) -> np.ndarray:

@@ -5,7 +5,8 @@ group's absolute error ``Σ|e|`` — or, for bias-type measures (mean error, bia
 signals), to its bias: ``Σe`` in the direction of the group's net error. Each example gives
 the series' keys (and segment, for ``"*"``), its rows, ``error`` (Σe: positive =
 under-forecast), ``abs_error`` (Σ|e|) and its shares of the group's totals in percent. A share
-of the bias can exceed 100 % when other series offset part of it.
+of the bias can exceed 100 % when other series offset part of it. A sum beyond the float64 range
+is ``None`` (and so is every share of an overflowed total); such series rank first.
 
 One pass for all breached groups: per-series sums with ``np.bincount`` over the rows of those
 groups, one sort of the series by (group, contribution), and the first ``limit`` of each group.
@@ -56,8 +57,12 @@ def worst_offenders(data: MeasureData, keys: list[str], breached: dict[int, bool
     first_of[unit[first]] = rows[first]
 
     bias_group = np.array([breached.get(g, False) for g in range(data.n_groups)], dtype=bool)
-    direction = np.sign(total_e)
-    score = np.where(bias_group[unit_group], sum_e * direction[unit_group], sum_abs)
+    with np.errstate(invalid="ignore"):
+        direction = np.sign(total_e)
+        score = np.where(bias_group[unit_group] & np.isfinite(direction[unit_group]),
+                         sum_e * direction[unit_group], sum_abs)
+    # sums beyond the float64 range: the largest errors first, never an undefined rank
+    score = np.nan_to_num(score, nan=np.inf)
     order = np.lexsort((-score, unit_group))
     sorted_groups = unit_group[order]
     starts = np.searchsorted(sorted_groups, np.arange(data.n_groups), side="left")
@@ -75,8 +80,8 @@ def worst_offenders(data: MeasureData, keys: list[str], breached: dict[int, bool
             example: dict[str, Any] = {k: _plain(v) for k, v in record.items()}
             example.update({
                 "n_obs": int(count[i]),
-                "error": float(sum_e[i]),
-                "abs_error": float(sum_abs[i]),
+                "error": _finite(sum_e[i]),
+                "abs_error": _finite(sum_abs[i]),
                 "share_of_abs_error_pct": _share(sum_abs[i], total_abs[g]),
                 "share_of_bias_pct": _share(sum_e[i], total_e[g]),
             })
@@ -85,8 +90,21 @@ def worst_offenders(data: MeasureData, keys: list[str], breached: dict[int, bool
     return out
 
 
+def _finite(value: float) -> float | None:
+    """A sum as a float, ``None`` when it exceeds the float64 range."""
+    return float(value) if np.isfinite(value) else None
+
+
 def _share(part: float, whole: float) -> float | None:
-    return float(100.0 * part / whole) if whole != 0 else None
+    """``part`` in percent of ``whole``; ``None`` when undefined (a zero or overflowed total, or
+    a share itself beyond the float64 range)."""
+    if whole == 0 or not (np.isfinite(part) and np.isfinite(whole)):
+        return None
+    with np.errstate(over="ignore"):
+        share = 100.0 * part / whole
+        if not np.isfinite(share):  # 100·part overflowed: divide first
+            share = 100.0 * (part / whole)
+    return float(share) if np.isfinite(share) else None
 
 
 def _plain(value: object) -> object:

@@ -14,7 +14,9 @@ Judgement (a level is broken when the value is *strictly* beyond it):
   ``[low, high]`` is broken when ``value < low`` or ``value > high``.
 
 ``fail`` is checked before ``warn``. An undefined value (``None``/NaN) under a threshold gets
-the configured ``undefined_status``; without a threshold it is ``skipped``.
+the configured ``undefined_status``; without a threshold it is ``skipped``. ``±inf`` (a sum
+beyond the float64 range) is not undefined: it is judged like any number, so it breaks every
+level on its side.
 """
 
 from __future__ import annotations
@@ -85,7 +87,7 @@ class ThresholdBook:
         level = self.level(measure, segment)
         warn = level.warn if level else None
         fail = level.fail if level else None
-        if value is None or not math.isfinite(value):
+        if value is None or math.isnan(value):
             return Judgement(self._undefined if level else "skipped", warn, fail)
         direction = self.direction(measure)
         if fail is not None and breaks(value, fail, direction):
@@ -94,6 +96,16 @@ class ThresholdBook:
             status = "warn"
         else:
             status = "pass"
+        return Judgement(status, warn, fail)
+
+    def judge_overflow(self, measure: str, segment: str) -> Judgement:
+        """A figure beyond the float64 range (reason ``overflow``): beyond any level, so the
+        worst level set breaks (``fail``, else ``warn``); ``skipped`` without a level."""
+        level = self.level(measure, segment)
+        warn = level.warn if level else None
+        fail = level.fail if level else None
+        status: Status = "fail" if fail is not None else "warn" if warn is not None \
+            else "skipped"
         return Judgement(status, warn, fail)
 
     def segment_names(self) -> list[str]:

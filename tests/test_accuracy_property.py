@@ -3,6 +3,8 @@ the METRICS.md formulas on the same rows, for random evaluation frames."""
 
 from __future__ import annotations
 
+import json
+import re
 from pathlib import Path
 
 import numpy as np
@@ -81,3 +83,66 @@ def test_segment_measures_equal_numpy(data: st.DataObject, n: int, n_seg: int) -
             else:
                 assert got.value == pytest.approx(want[m], rel=1e-9, abs=1e-9)
     assert seen == len(results)
+
+
+HUGE_CONFIG = parse_config(
+    "version: 1\n"
+    "forecast: {path: f.csv, keys: [sku], period: p, value: v, issued: i}\n"
+    "actuals: {path: a.csv, period: p, value: v}\n"
+    "frequency: D\nhorizon: 3\nevaluation: {lags: [1]}\n"
+    "thresholds: {default: {wape: {warn: 25, fail: 40}, me: {warn: 5}}}\n",
+    source=Path("/x/c.yaml"),
+)
+#: ordinary values, and finite values so large that their errors leave the float64 range
+huge_values = st.one_of(values, st.sampled_from([1e308, -1e308, 3e307, 1e200, -1e155]))
+_LEVEL_STATUS = {"wape": "fail", "me": "warn"}
+
+
+def _sequential_overflow(y: np.ndarray, f: np.ndarray) -> bool:
+    """Whether a float64 sum in row order (as ``np.bincount`` adds) of e, |e|, e², |y| or
+    |e|/|y| leaves the float64 range (NaN rows dropped)."""
+    keep = ~(np.isnan(y) | np.isnan(f))
+    with np.errstate(over="ignore", invalid="ignore", divide="ignore"):
+        e = y[keep] - f[keep]
+        ape = np.where(y[keep] != 0, np.abs(e) / np.abs(np.where(y[keep] != 0, y[keep], 1)), 0)
+        terms = [e, np.abs(e), e * e, np.abs(y[keep]), ape]
+        totals = [0.0] * len(terms)
+        for i, column in enumerate(terms):
+            for v in column.tolist():
+                totals[i] += v
+    return not all(np.isfinite(totals))
+
+
+@settings(max_examples=60, deadline=None)
+@given(data=st.data(), n=st.integers(1, 12))
+def test_huge_values_overflow_visibly_and_leave_other_groups_exact(data: st.DataObject,
+                                                                   n: int) -> None:
+    """A group whose sums leave the float64 range is judged beyond its level (reason
+    ``overflow``, no value), never "no data"; every other group still equals numpy."""
+    y = np.array(data.draw(st.lists(huge_values, min_size=n, max_size=n)))
+    f = np.array(data.draw(st.lists(huge_values, min_size=n, max_size=n)))
+    seg = np.array(data.draw(st.lists(st.sampled_from(["a", "b"]), min_size=n, max_size=n)))
+    frame = pd.DataFrame({"sku": [f"s{i % 5}" for i in range(n)], "segment": seg, "lag": 1,
+                          "forecast": f, "actual": y})
+    results = accuracy_results(frame, keys=["sku"], book=ThresholdBook(HUGE_CONFIG),
+                               measures=CORE_MEASURES, lags=[1], min_obs=1,
+                               window=[pd.Timestamp("2026-01-01")])
+    for s in [*sorted(set(seg)), "*"]:
+        rows = ((frame["segment"] == s) if s != "*" else frame["segment"].notna()).to_numpy()
+        overflow = _sequential_overflow(y[rows], f[rows])
+        with np.errstate(all="ignore"):  # None where a rule leaves the figure undefined
+            want = direct(y[rows], f[rows])
+        for m in CORE_MEASURES:
+            (got,) = [r for r in results if r.segment == s and r.measure == m]
+            assert not re.search(r"\b(nan|inf)\b", got.message, re.IGNORECASE), got.message
+            json.dumps(got.to_dict(), allow_nan=False)
+            if got.n_obs == 0:
+                continue
+            if want[m] is None:  # zero denominator, zero actual, one row: not an overflow
+                assert got.value is None and got.reason not in (None, "overflow")
+            elif overflow:
+                assert (got.value, got.reason) == (None, "overflow"), (s, m, got)
+                assert got.status == _LEVEL_STATUS.get(m, "skipped")
+            else:
+                assert got.reason is None
+                assert got.value == pytest.approx(want[m], rel=1e-9, abs=1e-9), (s, m)

@@ -12,7 +12,9 @@ are vectorised over the groups. Thresholds read ``direction`` and ``unit``; outp
 
 Rules (``METRICS.md``): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0`` →
 ``zero_denominator`` (Bias %, WAPE); any zero actual → ``zero_actual`` (MAPE, which then reports
-``mape_nonzero``); ``n < 2`` → ``too_few_rows`` (SDE). Percentages are in percent.
+``mape_nonzero``); ``n < 2`` → ``too_few_rows`` (SDE). Percentages are in percent. A figure
+whose sums exceed the float64 range is ``overflow`` (set by :mod:`accuracy_checks.accuracy`,
+never by a formula: formulas stay plain arithmetic).
 
 >>> import pandas as pd
 >>> from accuracy_checks.measures.stats import error_stats
@@ -63,6 +65,7 @@ REASONS: tuple[str, ...] = (
     "zero_scale",
     "no_data",
     "not_configured",
+    "overflow",
 )
 
 #: ``(warn, fail)`` levels; each ``None``, a number or a ``(low, high)`` pair.
@@ -140,6 +143,14 @@ def _ratio(numerator: np.ndarray, denominator: np.ndarray) -> np.ndarray:
     return out
 
 
+def _percent(fraction: np.ndarray) -> np.ndarray:
+    """``100 × fraction``; beyond the float64 range it is ±inf without a warning (the caller
+    finds overflowed groups on the statistics, :func:`~accuracy_checks.measures.stats.
+    overflowed`)."""
+    with np.errstate(over="ignore"):
+        return 100.0 * fraction
+
+
 def _result(
     stats: pd.DataFrame,
     value: np.ndarray,
@@ -174,7 +185,7 @@ def _me(stats: pd.DataFrame) -> pd.DataFrame:
 def _bias_pct(stats: pd.DataFrame) -> pd.DataFrame:
     _, empty = _no_data(stats)
     sum_abs_y = _column(stats, "sum_abs_y")
-    value = 100.0 * _ratio(_column(stats, "sum_e"), sum_abs_y)
+    value = _percent(_ratio(_column(stats, "sum_e"), sum_abs_y))
     return _result(stats, value, [(empty, "no_data"), (sum_abs_y == 0, "zero_denominator")])
 
 
@@ -187,8 +198,8 @@ def _mape(stats: pd.DataFrame) -> pd.DataFrame:
     n, empty = _no_data(stats)
     n_zero = stats["n_zero_y"].to_numpy(dtype=np.int64)
     sum_ape = _column(stats, "sum_ape")
-    value = 100.0 * _ratio(sum_ape, n)
-    nonzero = 100.0 * _ratio(sum_ape, n - n_zero)
+    value = _percent(_ratio(sum_ape, n))
+    nonzero = _percent(_ratio(sum_ape, n - n_zero))
     return _result(
         stats,
         value,
@@ -201,7 +212,7 @@ def _mape(stats: pd.DataFrame) -> pd.DataFrame:
 def _wape(stats: pd.DataFrame) -> pd.DataFrame:
     _, empty = _no_data(stats)
     sum_abs_y = _column(stats, "sum_abs_y")
-    value = 100.0 * _ratio(_column(stats, "sum_abs_e"), sum_abs_y)
+    value = _percent(_ratio(_column(stats, "sum_abs_e"), sum_abs_y))
     return _result(stats, value, [(empty, "no_data"), (sum_abs_y == 0, "zero_denominator")])
 
 

@@ -6,8 +6,18 @@ those rows, so the per-row work happens once, whatever the number of measures.
 
 Conventions (``METRICS.md``): ``e = actual − forecast`` (positive = under-forecast); a row where
 the actual or the forecast is NaN is dropped and counted in ``n_dropped``; ``±inf`` is *not*
-dropped (it propagates to ``inf``/NaN sums; schema checks reject it upstream). Rows whose group
-key is missing belong to no group.
+dropped (it propagates to ``inf``/NaN sums; the evaluation frame turns every infinite input
+into NaN before, and the checks name those rows). Rows whose group key is missing belong to no
+group.
+
+Overflow: the sums are plain float64 sums, so that every figure is bit-identical to the
+straightforward computation. With finite inputs a sum can still overflow (one forecast of
+1e308, or ``e²`` of an error beyond ~1.3e154): it then becomes ``±inf`` or NaN, never a finite
+wrong number. :func:`overflowed` finds those groups with one ``np.isfinite`` pass over the
+reduced statistics (not the rows); :mod:`accuracy_checks.accuracy` judges their figures as
+beyond any level (reason ``overflow``) instead of reporting them as missing data. ``Σe²`` is the
+most sensitive of the sums, so any error large enough to make another sum overflow makes it
+overflow too.
 
 Statistics (per group; ``y`` = actual, sums over the ``n`` rows used):
 
@@ -38,7 +48,8 @@ from collections.abc import Callable, Sequence
 import numpy as np
 import pandas as pd
 
-__all__ = ["STAT_COLUMNS", "error_stats", "merge_stats", "stats_from_codes", "total_stats"]
+__all__ = ["STAT_COLUMNS", "error_stats", "merge_stats", "overflowed", "stats_from_codes",
+           "total_stats"]
 
 #: Columns that :func:`error_stats` returns besides the group columns, in this order.
 STAT_COLUMNS: tuple[str, ...] = (
@@ -239,6 +250,23 @@ def total_stats(stats: pd.DataFrame, by: Sequence[str]) -> pd.DataFrame:
     out["mean_e"] = mean_e
     out["m2_e"] = m2_e
     return out.loc[:, [*by, *STAT_COLUMNS]]
+
+
+def overflowed(stats: pd.DataFrame) -> np.ndarray:
+    """Per group: whether a sum or moment is not finite although the group has rows (``n > 0``).
+
+    With finite inputs (the evaluation frame's), that is an overflow of the float64 range. One
+    ``np.isfinite`` pass over the groups' statistics.
+
+    >>> frame = pd.DataFrame({"g": ["a", "a", "b"], "actual": [1.0, 1.0, 1.0],
+    ...                       "forecast": [1e308, 1e308, 2.0]})
+    >>> overflowed(error_stats(frame, ["g"])).tolist()
+    [True, False]
+    """
+    columns = [*_SUM_COLUMNS, "mean_e", "m2_e"]
+    values = stats.loc[:, columns].to_numpy(dtype=np.float64)
+    has_rows = stats["n"].to_numpy() > 0
+    return has_rows & ~np.isfinite(values).all(axis=1)
 
 
 def _centred(

@@ -9,7 +9,10 @@ Contract:
   convention ``e = actual − forecast``: positive = **under-forecast**, negative =
   **over-forecast**. A bare sign is never the only clue.
 - Percentages are always in percent (``23.4 %``).
-- An undefined value (``None``, NaN, inf) reads ``undefined (<reason>)``.
+- An undefined value (``None``, NaN, inf) reads ``undefined (<reason>)``; a figure whose sums
+  exceeded the float64 range (reason ``overflow``) reads ``beyond the floating-point range``.
+  No output ever prints ``nan`` or ``inf``: a non-finite number reads ``undefined``,
+  ``infinity`` or ``-infinity``.
 
 The direction of a measure (which way is better) decides how a single-number threshold is
 worded: centred measures (ideal 0) are bounded on ``|value|`` ("beyond ±5 %"), all others are
@@ -84,12 +87,12 @@ def format_number(value: float, sig: int = 3) -> str:
     '0'
     >>> format_number(1.1259e17)
     '1.13e+17'
-    >>> format_number(float("nan"))
-    'nan'
+    >>> format_number(float("nan")), format_number(float("-inf"))
+    ('undefined', '-infinity')
     """
     value = float(value)
     if not math.isfinite(value):
-        return "nan" if math.isnan(value) else ("inf" if value > 0 else "-inf")
+        return _non_finite(value)
     if value == 0:
         return "0"
     if abs(value) >= _SCIENTIFIC_FROM:
@@ -102,6 +105,13 @@ def format_number(value: float, sig: int = 3) -> str:
     if text in ("-0", ""):
         text = "0"
     return text
+
+
+def _non_finite(value: float) -> str:
+    """A non-finite number in words (``nan``/``inf`` mean nothing to most readers)."""
+    if math.isnan(value):
+        return "undefined"
+    return "infinity" if value > 0 else "-infinity"
 
 
 def _format_bound_number(value: float) -> str:
@@ -199,9 +209,13 @@ def describe_value(result: CheckResult) -> str:
     ...     CheckResult("accuracy", "skipped", measure="mape", value=None, reason="zero_actual")
     ... )
     'undefined (zero_actual)'
+    >>> describe_value(CheckResult("accuracy", "fail", measure="rmse", reason="overflow"))
+    'beyond the floating-point range'
     """
     value = result.value
     if not _is_defined(value):
+        if result.reason == "overflow":
+            return "beyond the floating-point range"
         return f"undefined ({result.reason})" if result.reason else "undefined"
     assert value is not None
     value = float(value)
@@ -384,14 +398,15 @@ def count_summary(results: Iterable[CheckResult], statuses: Sequence[str]) -> st
 def format_example_value(value: Any) -> str:
     """An example cell (a value from an offending row) as text for people.
 
-    Offending values are shown as they are (``nan``, ``inf``): they are often the point.
-    Timestamps at midnight without a time zone read as a date.
+    Offending values are shown, in words when they are not finite numbers (``missing`` for
+    NaN, ``infinity``/``-infinity``): they are often the point. Timestamps at midnight without
+    a time zone read as a date.
 
     >>> import pandas as pd
     >>> format_example_value(pd.Timestamp("2026-03-02"))
     '2026-03-02'
-    >>> format_example_value(float("nan"))
-    'nan'
+    >>> format_example_value(float("nan")), format_example_value(float("inf"))
+    ('missing', 'infinity')
     >>> format_example_value(None)
     'null'
     >>> format_example_value(2.5)
@@ -408,7 +423,9 @@ def format_example_value(value: Any) -> str:
     if isinstance(value, _dt.date):
         return value.isoformat()
     if isinstance(value, float):
-        return format_number(value, sig=6) if math.isfinite(value) else str(value)
+        if math.isnan(value):
+            return "missing"
+        return format_number(value, sig=6)
     item = getattr(value, "item", None)  # numpy scalars
     if callable(item) and type(value).__module__ == "numpy":
         try:

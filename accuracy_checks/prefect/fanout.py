@@ -35,7 +35,7 @@ from prefect.cache_policies import NO_CACHE
 
 from accuracy_checks import frames as F
 from accuracy_checks.config import Config
-from accuracy_checks.measures.stats import error_stats, merge_stats, total_stats
+from accuracy_checks.measures.stats import error_stats, merge_stats, overflowed, total_stats
 from accuracy_checks.outputs.wording import describe_value
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
 
@@ -162,6 +162,7 @@ def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the windo
     segments = stats[F.SEGMENT].astype(str).to_numpy(dtype=object)
     n_obs = stats["n"].to_numpy()
     n_series = stats["n_series"].to_numpy()
+    overflow = overflowed(stats)  # sums beyond the float64 range: judged beyond any level
     out: list[CheckResult] = []
     for measure_id in stats_measures(config):
         measure = get_measure(measure_id)
@@ -186,6 +187,9 @@ def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the windo
             value = float(values[i]) if np.isfinite(values[i]) else None
             status: Status = book.judge(measure_id, segment, value).status
             reason = None if value is not None else str(reasons[i] or "no_data")
+            if overflow[i] and reasons[i] is None:
+                value, reason = None, "overflow"
+                status = book.judge_overflow(measure_id, segment).status
             result = CheckResult("accuracy", status, value=value, reason=reason, **common)
             text = (f"{measure.label} {describe_value(result)} over {n:,} forecasts of "
                     f"{int(n_series[i]):,} series at lag {lag} ({window}).")

@@ -1,0 +1,124 @@
+"""Actuals checks: is each actual value usable?
+
+``actuals.invalid_values``
+    infinite (``inf``/``-inf``) or missing (an empty cell, NaN) values in the actuals' value
+    column, among the rows read (the periods the run uses).
+
+Rules (one result, segment ``"*"``, unit ``count``; ``value`` = ``n_obs`` = the rows left out
+of the figures, ``details`` = ``{"infinite": …, "missing": …}``):
+
+- an **infinite** actual is an input that cannot be trusted: status ``fail``. The row is left
+  out of every accuracy figure, baseline and scale (the evaluation frame reads it as missing,
+  see :mod:`accuracy_checks.evaluation`), so it is never averaged in;
+- a **missing** actual keeps its documented meaning, "not arrived yet": the row counts as
+  dropped in the figures' ``n_dropped``, as a period that has no row at all. Alone it does not
+  break the gate: status ``pass``, with the count and the first rows as ``examples``, so it
+  stays visible in the JSON, Markdown and JUnit outputs (``--verbose`` on the console);
+- no such value: ``pass`` with value 0.
+
+Examples name the series (key columns), the ``period`` (ISO date) and the value in words:
+``"infinity"``, ``"-infinity"`` or ``"missing"`` (strict JSON has no infinity, and an output
+never prints ``inf`` or ``nan``). Infinite rows are listed before missing ones. One vectorised
+pass over the value column; only the example rows become Python objects.
+"""
+
+from __future__ import annotations
+
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from accuracy_checks.checks.output import json_value, plural, verb
+from accuracy_checks.codes import combined_codes
+from accuracy_checks.frames import ACTUAL, PERIOD
+from accuracy_checks.results import ALL_SERIES, CheckResult, Status
+
+__all__ = ["INVALID_ACTUALS", "actuals_checks"]
+
+INVALID_ACTUALS = "actuals.invalid_values"
+
+
+def actuals_checks(actuals: pd.DataFrame, *, keys: list[str], column: str | None = None,
+                   max_examples: int = 10) -> list[CheckResult]:
+    """The actuals checks of a run (today one: ``actuals.invalid_values``; module doc).
+
+    ``actuals`` is the canonical actuals frame (key columns, ``period``, ``actual``);
+    ``column`` the name of the value column in the user's file, for the message.
+
+    >>> a = pd.DataFrame({"sku": ["a", "a", "b"],
+    ...                   "period": pd.to_datetime(["2026-03-02", "2026-03-09", "2026-03-02"]),
+    ...                   "actual": [1.0, float("inf"), float("nan")]})
+    >>> r = actuals_checks(a, keys=["sku"], column="units")[0]
+    >>> r.status, r.value, r.details, r.examples[0]
+    ('fail', 2, {'infinite': 1, 'missing': 1}, {'sku': 'a', 'period': '2026-03-09', \
+'actual': 'infinity'})
+    """
+    values = actuals[ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
+    left_out = ~np.isfinite(values)
+    what = f"`{column}`" if column else "value"
+    if not left_out.any():
+        return [CheckResult(INVALID_ACTUALS, "pass", segment=ALL_SERIES, value=0, n_obs=0,
+                            n_series=0, unit="count", details={"infinite": 0, "missing": 0},
+                            message=f"Every actual {what} read is a finite number.")]
+    missing = np.isnan(values)
+    infinite = left_out & ~missing
+    n_inf, n_missing = int(np.count_nonzero(infinite)), int(np.count_nonzero(missing))
+    n_bad = n_inf + n_missing
+    common: dict[str, Any] = dict(segment=ALL_SERIES, value=n_bad, n_obs=n_bad, unit="count",
+                                  details={"infinite": n_inf, "missing": n_missing})
+    order = np.concatenate([np.flatnonzero(infinite), np.flatnonzero(missing)])
+    examples = _examples(actuals, order[:max(int(max_examples), 0)], keys, values)
+    n_series = _n_series(actuals, keys, left_out)
+    missing_text = (f"{plural(n_missing, 'row')} {verb(n_missing, 'has', 'have')} no actual "
+                    f"{what} (an empty cell): read as not arrived yet and left out of the "
+                    "figures")
+    status: Status
+    if n_inf:
+        rows = verb(n_inf, "that row is", "those rows are")
+        n_inf_series = _n_series(actuals, keys, infinite)
+        shown = _first(examples, "infinity", "-infinity")
+        text = (f"{plural(n_inf, 'actual')} {verb(n_inf, 'is', 'are')} infinite in the actuals' "
+                f"{what} column ({plural(n_inf_series, 'series', 'series')}; first: {shown}). "
+                f"An infinite actual cannot be trusted, so {rows} "
+                "left out of every accuracy figure; correct the actuals (a finite number, or an "
+                "empty cell for a value not known yet).")
+        if n_missing:
+            text += f" Besides, {missing_text}."
+        status = "fail"
+    else:
+        text = f"{missing_text[0].upper()}{missing_text[1:]} (first: {_first(examples)})."
+        status = "pass"
+    return [CheckResult(INVALID_ACTUALS, status, n_series=n_series, examples=examples,
+                        message=text, **common)]
+
+
+def _examples(actuals: pd.DataFrame, positions: np.ndarray, keys: list[str],
+              values: np.ndarray) -> list[dict[str, Any]]:
+    if positions.size == 0:
+        return []
+    rows = actuals.iloc[positions]
+    cells = {c: rows[c].tolist() for c in [*keys, PERIOD]}
+    out = []
+    for i, position in enumerate(positions):
+        example: dict[str, Any] = {c: json_value(cells[c][i]) for c in [*keys, PERIOD]}
+        example["actual"] = _word(float(values[position]))
+        out.append(example)
+    return out
+
+
+def _word(value: float) -> str:
+    if np.isnan(value):
+        return "missing"
+    return "infinity" if value > 0 else "-infinity"
+
+
+def _n_series(actuals: pd.DataFrame, keys: list[str], mask: np.ndarray) -> int:
+    return int(np.unique(combined_codes(actuals, keys, mask)).size) if mask.any() else 0
+
+
+def _first(examples: list[dict[str, Any]], *words: str, n: int = 3) -> str:
+    """The first ``n`` examples (those whose actual is one of ``words``, if given) as text."""
+    chosen = [e for e in examples if not words or e["actual"] in words][:n]
+    return "; ".join(", ".join(f"{k}={v}" for k, v in e.items() if k != "actual")
+                     for e in chosen)
