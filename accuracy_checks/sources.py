@@ -45,6 +45,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+from pandas.errors import OutOfBoundsDatetime
 
 from accuracy_checks import frames as F
 from accuracy_checks.codes import combined_codes_and_space, duplicated_codes
@@ -133,7 +134,7 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
         c = twice[0]
         raise InputError(
             f"The {role} file {file} has {counts[c.name]} columns named {c.name!r} (config key "
-            f"`{c.key}`) in its header; which one holds the data cannot be told. Rename or "
+            f"`{c.key}`); which one holds the data cannot be told. Rename or "
             "drop the extra column(s)."
         )
     try:
@@ -239,7 +240,6 @@ def cycle_starts(path: Path, config: Config, *, role: str = "history",
                  key: str = "history") -> pd.Series | None:
     """The first period of every cycle in a Parquet file or folder, read from its two date
     columns only (``None`` when a file is CSV or its dates are not timestamps)."""
-    import pyarrow as pa
     import pyarrow.parquet as pq
 
     issued, period = config.forecast.issued, config.forecast.period
@@ -249,8 +249,7 @@ def cycle_starts(path: Path, config: Config, *, role: str = "history",
             return None
         try:
             schema = pq.read_schema(f)
-            if not all(n in schema.names and pa.types.is_timestamp(schema.field(n).type)
-                       for n in (issued, period)):
+            if not all(_is_timestamp(schema, n) for n in (issued, period)):
                 return None
             table = pq.read_table(f, columns=[issued, period])
         except (OSError, ValueError):
@@ -261,8 +260,20 @@ def cycle_starts(path: Path, config: Config, *, role: str = "history",
     starts = pd.concat(parts, ignore_index=True)
     starts = starts.rename(columns={issued: F.ISSUED, f"{period}_min": F.PERIOD})
     out = starts.groupby(F.ISSUED)[F.PERIOD].min()
-    out.index = pd.DatetimeIndex(out.index).tz_localize(None).as_unit("ns")
-    return out.astype("datetime64[ns]") if len(out) else out
+    try:
+        out.index = pd.DatetimeIndex(out.index).tz_localize(None).as_unit("ns")
+        return out.astype("datetime64[ns]") if len(out) else out
+    except (OutOfBoundsDatetime, OverflowError):
+        return None  # dates beyond the calendar: the full read names them
+
+
+def _is_timestamp(schema: object, name: str) -> bool:
+    """Whether a Parquet schema has exactly one column ``name`` and it is a timestamp."""
+    import pyarrow as pa
+
+    index = schema.get_all_field_indices(name)  # type: ignore[attr-defined]
+    return len(index) == 1 and pa.types.is_timestamp(
+        schema.field(index[0]).type)  # type: ignore[attr-defined]
 
 
 def _read_csv(file: Path, **kwargs: object) -> pd.DataFrame:
@@ -532,7 +543,6 @@ def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex
     """The sorted distinct periods that hold at least one actual, read from the period and
     value columns of Parquet files only (``None`` when a file is CSV or its period column is
     not a timestamp: such inputs are read whole)."""
-    import pyarrow as pa
     import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
@@ -543,8 +553,8 @@ def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex
             return None
         try:
             schema = pq.read_schema(f)
-            if ac.period not in schema.names or ac.value not in schema.names or not (
-                    pa.types.is_timestamp(schema.field(ac.period).type)):
+            if (not _is_timestamp(schema, ac.period)
+                    or len(schema.get_all_field_indices(ac.value)) != 1):
                 return None
             table = pq.read_table(f, columns=[ac.period, ac.value])
         except (OSError, ValueError):
@@ -552,7 +562,11 @@ def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex
         present = pc.filter(table[ac.period], pc.is_valid(table[ac.value]))
         found.append(pc.unique(present).to_pandas())
     periods = pd.DatetimeIndex(pd.concat(found, ignore_index=True).unique()).sort_values()
-    return periods.tz_localize(None).as_unit("ns") if periods.tz is not None else periods
+    periods = periods.tz_localize(None) if periods.tz is not None else periods
+    try:
+        return periods.as_unit("ns")
+    except (OutOfBoundsDatetime, OverflowError):
+        return None  # dates beyond the calendar: the full read names them
 
 
 def actual_series(config: Config, path: Path | None = None) -> pd.DataFrame:

@@ -306,3 +306,25 @@ def test_grid_beyond_the_calendar_is_an_input_error() -> None:
     with pytest.raises(InputError, match="run past the calendar"):
         grid_positions(pd.Series(pd.to_datetime(["2262-04-02", "2262-04-11"])), "MS")
     assert len(grid_dates(pd.Timestamp("2262-04-01"), 11, "D")) == 11
+
+
+def test_parquet_shortcuts_leave_repeated_or_out_of_calendar_columns_to_the_full_read(
+        tmp_path: Path) -> None:
+    # the period/cycle pre-reads of Parquet files must not crash: they give up (None) and the
+    # full read names the problem
+    week = pa.array([np.datetime64("2026-03-02", "us"), np.datetime64("3000-01-01", "us")])
+    late = pa.table({"store": ["S1", "S1"], "product": ["P1", "P1"], "week": week,
+                     "units_sold": [1.0, 2.0]})
+    pq.write_table(late, tmp_path / "a.parquet")
+    cfg = config(tmp_path, actuals="a.parquet")
+    assert sources.actual_periods(cfg) is None
+    assert "3000-01-01" in read_error(sources.read_actuals, cfg)
+    twice = late.append_column("week", late["week"])
+    pq.write_table(twice, tmp_path / "a.parquet")
+    assert sources.actual_periods(cfg) is None
+    history = pa.table({"store": ["S1", "S1"], "product": ["P1", "P1"], "week": week,
+                        "units": [1.0, 2.0], "issued_on": week})
+    pq.write_table(history, tmp_path / "h.parquet")
+    assert sources.cycle_starts(tmp_path / "h.parquet", cfg) is None
+    pq.write_table(history.append_column("issued_on", history["week"]), tmp_path / "h.parquet")
+    assert sources.cycle_starts(tmp_path / "h.parquet", cfg) is None
