@@ -8,10 +8,11 @@ from __future__ import annotations
 
 import time
 import uuid
-from collections.abc import Callable
-from dataclasses import dataclass
+from collections.abc import Callable, Mapping
+from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
+from types import EllipsisType
 from typing import TypeVar
 
 import numpy as np
@@ -20,8 +21,15 @@ import pandas as pd
 from accuracy_checks import frames as F
 from accuracy_checks import sources
 from accuracy_checks.accuracy import actuals_span, evaluation_span, run_accuracy
-from accuracy_checks.archive import Archive, cycle_label
+from accuracy_checks.archive import (
+    Archive,
+    Snapshot,
+    SnapshotFault,
+    SnapshotUnreadable,
+    cycle_label,
+)
 from accuracy_checks.check_plugins import run_check_plugins
+from accuracy_checks.checks.actuals import actuals_checks
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.codes import combined_codes
@@ -48,6 +56,9 @@ class Inputs:
     info: dict[str, object]
     #: series the actuals know from periods older than the ones read (``None``: all were read)
     older_series: pd.DataFrame | None = None
+    #: results about the inputs themselves, reported with the checks' (e.g. an archived
+    #: snapshot that is missing or unreadable, so its cycle was left out)
+    notes: list[CheckResult] = field(default_factory=list)
 
     @property
     def known_series(self) -> list[pd.DataFrame]:
@@ -72,11 +83,19 @@ class _Stage:
 
 
 def load_inputs(config: Config, *, forecast_path: Path | None = None,
-                actuals_path: Path | None = None, progress: Progress = _quiet) -> Inputs:
+                actuals_path: Path | None = None, progress: Progress = _quiet,
+                recorded: Mapping[str, int] | EllipsisType | None = ...) -> Inputs:
     """Read and validate every input (no writes). Raises InputError on unusable input.
 
     Key columns come back as categoricals sharing one set of categories across every frame,
     so joins and group-bys run on integer codes.
+
+    Earlier cycles from the archive: the last snapshot of each cycle as the audit store
+    records it (``recorded``: cycle → attempt, by default read from ``config``'s store;
+    ``None`` = no store yet, take the archive folder as it is). A cycle whose snapshot is
+    missing or unreadable is left out, never replaced by an older attempt, and an
+    ``archive.snapshot`` warning in ``Inputs.notes`` says so (if it is the previous cycle, the
+    series count is not compared with an older one either).
     """
     keys = list(config.forecast.keys)
     seg_cols = list(config.segments.columns)
@@ -121,19 +140,9 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
         part = part.loc[part[F.ISSUED] < issued]
         history.append(prune_earlier(part, periods=span, lags=lags,
                                      frequency=config.frequency, starts=starts))
-    archive = Archive(config.archive)
-    snaps = archive.latest_attempts(before=issued)
-    from_archive = [s for s in snaps if s.issued not in history_cycles]
-    previous, previous_label = None, None
-    if snaps:
-        last = snaps[-1]
-        previous = archive.load([last])
-        previous_label = f"{last.cycle} (attempt {last.attempt})"
-    archived_parts = [
-        prune_earlier(previous if (previous is not None and s == snaps[-1]) else archive.load([s]),
-                      periods=span, lags=lags, frequency=config.frequency)
-        for s in from_archive
-    ]
+    snaps, archived_parts, previous, previous_label, notes = _read_archive(
+        config, issued, history_cycles, recorded,
+        lambda frame: prune_earlier(frame, periods=span, lags=lags, frequency=config.frequency))
 
     singles = {"forecast": forecast, "actuals": actuals, "mapping": mapping,
                "previous": previous, "older": older}
@@ -183,7 +192,90 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
                     "archive_rows": len(archived)},
     }
     return Inputs(forecast, actuals, earlier_frame, mapping, previous, previous_label, issued,
-                  info, older)
+                  info, older, notes)
+
+
+ARCHIVE_CHECK = "archive.snapshot"
+
+
+def _read_archive(config: Config, issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
+                  recorded: Mapping[str, int] | EllipsisType | None,
+                  prune: Callable[[pd.DataFrame], pd.DataFrame],
+                  ) -> tuple[list[Snapshot], list[pd.DataFrame], pd.DataFrame | None,
+                             str | None, list[CheckResult]]:
+    """The archived earlier cycles the run uses: the snapshots found, their pruned rows (the
+    cycles not held by the history files), the previous cycle's whole forecast and label (for
+    the series count), and a warning for each used cycle whose snapshot cannot be used."""
+    archive = Archive(config.archive)
+    if isinstance(recorded, EllipsisType):
+        from accuracy_checks.store.core import archived_attempts
+
+        recorded = archived_attempts(config)
+    snaps, faults = archive.last_recorded(recorded, before=issued)
+    required = [*config.forecast.keys, F.PERIOD, F.ISSUED, F.FORECAST]
+    read: dict[str, pd.DataFrame | None] = {}
+
+    def frame_of(snap: Snapshot) -> pd.DataFrame | None:
+        if snap.cycle not in read:
+            try:
+                read[snap.cycle] = archive.read(snap, required)
+            except SnapshotUnreadable as exc:
+                faults.append(SnapshotFault(snap, "unreadable", str(exc)))
+                read[snap.cycle] = None
+        return read[snap.cycle]
+
+    # the previous cycle: the latest one the archive should hold, usable or not
+    latest = max([s.cycle for s in snaps] + [f.cycle for f in faults], default=None)
+    previous, previous_label = None, None
+    last = next((s for s in snaps if s.cycle == latest), None)
+    if last is not None:
+        previous = frame_of(last)
+        previous_label = f"{last.cycle} (attempt {last.attempt})"
+    parts = []
+    for snap in snaps:
+        if snap.issued in history_cycles:
+            continue
+        frame = frame_of(snap)
+        if frame is not None:
+            parts.append(prune(frame))
+    used = [s for s in snaps if s.cycle in read and read[s.cycle] is not None]
+    notes = [_snapshot_warning(f, is_previous=f.cycle == latest) for f in
+             sorted(faults, key=lambda f: f.cycle)
+             if f.issued not in history_cycles or f.cycle == latest]
+    if previous is None and latest is not None:
+        previous_label = None
+        notes.append(_series_count_not_compared(latest))
+    return used, parts, previous, previous_label, notes
+
+
+def _snapshot_warning(fault: SnapshotFault, *, is_previous: bool) -> CheckResult:
+    s = fault.snapshot
+    also = (" The series count is not compared with an older cycle in its place either."
+            if is_previous else "")
+    fix = ("Restore the file from a backup, or re-run that cycle with its forecast "
+           "(`accuracy-checks run --forecast FILE`) to record a new attempt."
+           if fault.problem != "unrecorded" else
+           "If the file is genuine, re-run that cycle with its forecast to record it; "
+           "otherwise move it away.")
+    return CheckResult(
+        ARCHIVE_CHECK, "warn",
+        message=(f"Cycle {s.cycle} is left out of the evaluation: {fault.describe()}. "
+                 f"An older attempt is not used in its place.{also} {fix}"),
+        details={"cycle": s.cycle, "attempt": s.attempt, "path": str(s.path),
+                 "problem": fault.problem, **({"detail": fault.detail} if fault.detail else {})},
+    )
+
+
+def _series_count_not_compared(cycle: str) -> CheckResult:
+    from accuracy_checks.checks.coverage import SERIES_COUNT
+
+    return CheckResult(
+        SERIES_COUNT, "skipped", segment=ALL_SERIES, measure="series_count_change_pct",
+        unit="%", reason="no_data", details={"previous_cycle": cycle},
+        message=(f"The number of series is not compared with the previous cycle: the snapshot "
+                 f"of cycle {cycle} cannot be used (see {ARCHIVE_CHECK}), and an older cycle "
+                 "is not compared in its place"),
+    )
 
 
 def _concat(frames: list[pd.DataFrame]) -> pd.DataFrame:
@@ -222,28 +314,38 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
     which allocates the run's attempt of its cycle and moves the staged snapshot to that
     attempt's name (protocol in :mod:`accuracy_checks.archive`). ``label`` is an optional
     pipeline run label kept with the record. Raises ``StoreError`` (a ``UsageError``) when the
-    store cannot be written: then nothing is recorded and nothing archived.
+    store cannot be opened or written, ``ArchiveError`` when the archive cannot be read or
+    written: then nothing is recorded and nothing archived. Both are checked before the checks
+    run where they can be (a file where a folder should be, a folder that cannot be written,
+    a store that does not answer).
     """
     from accuracy_checks.store import apply_waivers, input_fingerprints, open_store
-    from accuracy_checks.store.database import validate_url
+    from accuracy_checks.store.database import check_sqlite_location, validate_url
     from accuracy_checks.store.urls import default_store_url, sqlite_file
 
     progress = progress or _quiet
     started = datetime.now(UTC)
     run_id = uuid.uuid4().hex
     store_url = default_store_url(config)
-    validate_url(store_url)  # a bad store URL fails now, not after the checks
+    # fail fast, before the checks: a bad store URL or location, an unusable archive
+    validate_url(store_url)
     db_file = sqlite_file(store_url)
+    if db_file is not None:
+        check_sqlite_location(db_file)
+    Archive(config.archive).check_usable(write=snapshot)
+    recorded: dict[str, int] | None = None
     if db_file is None or db_file.exists():
         # before reading the archive: move aside snapshots of runs killed before their record
-        # committed (crash debris, never a recorded snapshot)
+        # committed (crash debris, never a recorded snapshot); then which snapshot is the
+        # last of each cycle, as recorded
         with open_store(store_url) as store:
             moved = store.retire_orphans(config.archive)
+            recorded = store.archived_attempts()
         if moved:
             progress(f"moved {len(moved)} unrecorded snapshot(s) left by interrupted runs "
                      f"to {moved[0].parent.parent}")
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
-                         progress=progress)
+                         progress=progress, recorded=recorded)
     results = evaluate(config, inputs, progress=progress)
 
     cycle = cycle_label(inputs.issued)
@@ -309,10 +411,12 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> 
     stage = _Stage(progress)
     qcols = [F.quantile_column(t) for t in config.forecast.quantiles]
     allow = config.forecast.allow_negative
-    results: list[CheckResult] = []
+    results: list[CheckResult] = list(inputs.notes)  # about the inputs (archive faults)
     results += stage("output checks", lambda: output_checks(
         inputs.forecast, keys=keys, quantile_columns=qcols,
+        quantile_names=list(config.forecast.quantiles.values()),
         allow_negative=allow if isinstance(allow, bool) else set(allow)))
+    results += actuals_checks(inputs.actuals, keys=keys, column=config.actuals.value)
     results += stage("coverage checks", lambda: coverage_checks(
         inputs.forecast, inputs.actuals, keys=keys, frequency=config.frequency,
         horizon=config.horizon, active_periods=config.coverage.active_periods, book=book,
