@@ -7,9 +7,11 @@ from __future__ import annotations
 import base64
 import hashlib
 import re
+import uuid
 from collections.abc import Callable
 from datetime import UTC, date, datetime
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -19,9 +21,15 @@ from test_report_support import XSS, BuiltStore, build_store, cycle_label, segme
 
 from accuracy_checks import load_config
 from accuracy_checks.cli import main
-from accuracy_checks.report import ReportData, build_report, render_report, write_report
+from accuracy_checks.report import (
+    ReportData,
+    build_report,
+    load_report_data,
+    render_report,
+    write_report,
+)
 from accuracy_checks.report.data import FIGURE_COLUMNS
-from accuracy_checks.results import CheckResult
+from accuracy_checks.results import CheckResult, RunReport
 from accuracy_checks.store import open_store
 
 NOW = datetime(2026, 3, 2, 12, tzinfo=UTC)
@@ -156,6 +164,50 @@ def test_report_of_an_empty_store_says_so(tmp_path: Path) -> None:
     with open_store(url) as store:
         rendered = build_report(store, now=NOW)
     assert rendered.charts == 0 and "No run is recorded in this store" in rendered.html
+
+
+def _record(store: Any, cycle: str, wape: float, started: str, label: str) -> RunReport:
+    """One run of ``cycle`` with one WAPE figure (warn 30, fail 45): 10 passes, 99 fails."""
+    status = "fail" if wape > 45 else "pass"
+    result = CheckResult("accuracy", status, segment="*", lag=1, measure="wape", value=wape,
+                         warn=30.0, fail=45.0, unit="%", n_series=4, n_obs=16,
+                         message=f"WAPE {wape:g} % of all series at lag 1")
+    report = RunReport(run_id=uuid.uuid4().hex, cycle=cycle, attempt=None, results=[result],
+                       started_at=started, finished_at=started, label=label)
+    store.record_run(report)
+    return report
+
+
+def test_the_headline_is_the_latest_cycles_last_attempt_not_a_later_rerun(
+        tmp_path: Path) -> None:
+    # cycle A passes, then the latest cycle B passes, then A is re-run and fails: the
+    # headline stays B's verdict, and A's re-run is listed under it
+    url = f"sqlite:///{tmp_path / 'audit.db'}"
+    a, b = "2026-02-23", "2026-03-02"
+    with open_store(url) as store:
+        _record(store, a, 10.0, "2026-02-23T06:00:00+00:00", "nightly A")
+        latest = _record(store, b, 12.0, "2026-03-02T06:00:00+00:00", "nightly B")
+        rerun = _record(store, a, 99.0, "2026-03-02T09:30:00+00:00", "re-run of A")
+        data = load_report_data(store, now=NOW)
+    assert rerun.attempt == 2 and rerun.status == "fail"
+    assert data.latest is not None and data.latest["run_id"] == latest.run_id
+    assert [r.value for r in data.latest_results] == [12.0]
+    assert [r["run_id"] for r in data.later_runs] == [rerun.run_id]
+    assert data.cycle_runs[a]["run_id"] == rerun.run_id  # A's trend point is its last attempt
+
+    out = tmp_path / "report.html"  # through the CLI
+    assert main(["report", "--store", url, "--out", str(out)]) == 0
+    html = out.read_text(encoding="utf-8")
+    verdict = section(html, "verdict")
+    assert '<div class="word">PASS</div>' in verdict and "FAIL</div>" not in verdict
+    assert f"{b} (attempt 1)" in verdict and latest.run_id in verdict
+    assert "<title>Forecast accuracy report: PASS — cycle 2026-03-02</title>" in html
+    listed = re.search(r"Recorded after this run.*?</table>", verdict, re.S)
+    assert listed is not None
+    assert (f"<td>{a}</td><td>2</td><td>FAIL</td>" in listed.group(0)
+            and rerun.run_id in listed.group(0) and "re-run of A" in listed.group(0))
+    measures = section(html, "measures")
+    assert "12 %" in measures and "99" not in measures  # the figures are B's
 
 
 def synthetic(n_segments: int, n_cycles: int) -> ReportData:

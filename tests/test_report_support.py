@@ -23,6 +23,16 @@ from accuracy_checks.store import apply_waivers, open_store
 from accuracy_checks.thresholds import ThresholdBook
 
 XSS = "<script>alert(1)</script>"
+#: segment names no report may trip over: markup, entities, quotes of both kinds, non-ASCII
+#: letters and symbols, an emoji, a tab, a C1 control, a non-character, a long name
+HOSTILE = [
+    XSS,
+    'Gärten & Böden "drinnen"',
+    "it's <b>bold</b> &amp; &lt;not&gt; ]]> <!-- x -->",
+    "Ελληνικά · 日本語 · عربي · 🌱",
+    "tab\there \x85 \x9b \ufdd0 \ufffe end",
+    "a very long segment name " + "x" * 80,
+]
 FIRST_CYCLE = date(2025, 1, 6)  # a Monday
 
 CONFIG = """\
@@ -103,17 +113,20 @@ def coverage_results(segments: Sequence[str], k: int, book: ThresholdBook) -> li
 def build_store(root: Path, *, n_segments: int = 5, n_cycles: int = 12, xss: bool = False,
                 seed: int = 11, drift_cycles: int = 6, min_history: int = 4,
                 sustained: int = 3, step_from: int | None = None,
-                waive: tuple[str, str, int] | None = None) -> BuiltStore:
+                waive: tuple[str, str, int] | None = None,
+                names: Sequence[str] | None = None,
+                label: str = "nightly-{k}") -> BuiltStore:
     """Record ``n_cycles`` weekly runs of ``n_segments`` segments into an SQLite store under
     ``root``. ``waive`` = (segment, measure, from cycle index): a waiver granted before that
-    cycle's run (until 2099)."""
+    cycle's run (until 2099). ``names`` replaces the segment names (``n_segments`` is then
+    their number); ``label`` is each run's pipeline label (``{k}``: the cycle's index)."""
     root.mkdir(parents=True, exist_ok=True)
     url = f"sqlite:///{root / 'audit.db'}"
     config = parse_config(CONFIG.format(store=url, n=drift_cycles, min_history=min_history,
                                         m=sustained), source=root / "accuracy-checks.yaml")
     book = ThresholdBook(config)
     rng = np.random.default_rng(seed)
-    segments = segment_names(n_segments, xss=xss)
+    segments = list(names) if names is not None else segment_names(n_segments, xss=xss)
     step_seg = segments[1] if len(segments) > 1 else None
     step_at = step_from if step_from is not None else max(n_cycles - 4, 1)
     cycles = [cycle_label(k) for k in range(n_cycles)]
@@ -132,7 +145,7 @@ def build_store(root: Path, *, n_segments: int = 5, n_cycles: int = 12, xss: boo
             report = RunReport(run_id=uuid.uuid4().hex, cycle=cycle, attempt=None,
                                results=results, started_at=started.isoformat(),
                                finished_at=(started + timedelta(minutes=3)).isoformat(),
-                               label=f"nightly-{k}")
+                               label=label.format(k=k))
             store.record_run(report)
             reports.append(report)
     return BuiltStore(url, config, cycles, segments, reports)

@@ -5,6 +5,11 @@ in it is what the runs recorded, never recomputed. Per cycle it uses the **last 
 (the run with the highest attempt number of that cycle), like accuracy and the drift checks.
 ``since`` keeps the cycles issued on or after a date.
 
+The headline run is the **latest cycle's last attempt**, whatever was recorded after it: a
+re-run of an older cycle recorded later does not become the current state; it is listed
+(:attr:`ReportData.later_runs`). Only a store whose runs carry no cycle at all falls back to
+the last recorded run.
+
 Reads (all with bound parameters): the runs (one row each), the figure results of the
 chosen runs (those with a measure: thresholds, values, statuses, waiver links; details only
 for control-limit results and results with a variant), every result of the latest run in full
@@ -45,12 +50,15 @@ class ReportData:
     #: the cycles in range, oldest first, and the run (last attempt) that stands for each
     cycles: list[str]
     cycle_runs: dict[str, dict[str, Any]]
-    #: the latest recorded run (by start time) and its results in full
+    #: the headline run: the last attempt of the latest cycle (module docstring), and its
+    #: results in full
     latest: dict[str, Any] | None
     latest_results: list[CheckResult]
     #: one row per figure result of each cycle's last attempt (:data:`FIGURE_COLUMNS`)
     figures: pd.DataFrame
     waivers: list[Waiver] = field(default_factory=list)
+    #: runs recorded after the headline run (re-runs of older cycles), oldest first
+    later_runs: list[dict[str, Any]] = field(default_factory=list)
 
     @property
     def empty(self) -> bool:
@@ -78,8 +86,10 @@ def load_report_data(store: Store, *, since: date | None = None,
         if best is None or (run["attempt"] or 0) >= (best["attempt"] or 0):
             by_cycle[c] = run
     cycles = sorted(by_cycle)
-    latest = max(in_range, key=lambda r: (r["started_at"] or "", r["recorded_at"] or ""),
-                 default=None)
+    latest = by_cycle[cycles[-1]] if cycles else max(in_range, key=_recorded, default=None)
+    later = ([r for r in in_range if r is not latest and _recorded(r) > _recorded(latest)]
+             if latest is not None else [])
+    later.sort(key=_recorded)
     with store.db.read() as conn:
         ids = dict(conn.execute(select(runs.c.run_id, runs.c.id).where(
             runs.c.run_id.in_([r["run_id"] for r in by_cycle.values()]
@@ -105,7 +115,13 @@ def load_report_data(store: Store, *, since: date | None = None,
     waivers = store.waivers(include_inactive=True)
     return ReportData(store_url=store.url, generated_at=generated, since=since, runs=in_range,
                       cycles=cycles, cycle_runs=by_cycle, latest=latest,
-                      latest_results=latest_results, figures=figures, waivers=waivers)
+                      latest_results=latest_results, figures=figures, waivers=waivers,
+                      later_runs=later)
+
+
+def _recorded(run: dict[str, Any]) -> tuple[str, str]:
+    """Sort key of a run by when it was recorded (then started): UTC ISO texts."""
+    return (run["recorded_at"] or run["started_at"] or "", run["started_at"] or "")
 
 
 def _figures(rows: list[Any], pk_cycle: dict[int, str]) -> pd.DataFrame:

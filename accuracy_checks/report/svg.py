@@ -60,17 +60,25 @@ BAND_PATTERNS: dict[str, tuple[str, str]] = {
     "ac-fail-zone": ("#b0487a", "#f7dde8"),
     "ac-drift-zone": ("#777777", "#f0f0f0"),
 }
-_CONTROL = re.compile("[\x00-\x08\x0b\x0c\x0e-\x1f\x7f]")
+#: code points the HTML standard forbids in a document: controls other than whitespace (C0 and
+#: C1), surrogates (they cannot even be written as UTF-8) and the non-characters
+_FORBIDDEN = re.compile(
+    "[\x00-\x08\x0b\x0c\x0e-\x1f\x7f-\x9f\ud800-\udfff\ufdd0-\ufdef"
+    + "".join(chr(plane + 0xFFFE) + chr(plane + 0xFFFF) for plane in range(0, 0x110000, 0x10000))
+    + "]")
 
 
 def esc(text: object) -> str:
-    """Text for HTML or SVG: escaped (``<``, ``>``, ``&``, quotes) and control characters
-    replaced, so that nothing from the data can become markup or break the file.
+    r"""Text for HTML or SVG: escaped (``<``, ``>``, ``&``, quotes), and every code point the
+    HTML standard forbids (controls, surrogates, non-characters) replaced by U+FFFD, so that
+    nothing from the data can become markup, break the file or make it non-conforming.
 
     >>> esc('<script>alert(1)</script> & "x"')
     '&lt;script&gt;alert(1)&lt;/script&gt; &amp; &quot;x&quot;'
+    >>> esc("a\tb\x85c\ufdd0\udc80") == "a\tb\ufffdc\ufffd\ufffd"
+    True
     """
-    return html.escape(_CONTROL.sub("\ufffd", str(text)), quote=True)
+    return html.escape(_FORBIDDEN.sub("\ufffd", str(text)), quote=True)
 
 
 def _f(value: float) -> str:
