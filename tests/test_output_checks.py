@@ -137,7 +137,7 @@ def test_invalid_values_nan_inf_and_none() -> None:
     ex = r.examples
     assert [e["period"] for e in ex] == ["2026-03-02", "2026-03-09", "2026-03-16"]
     assert ex[0]["forecast"] is None
-    assert ex[1]["q0.9"] == "inf" and ex[2]["q0.1"] == "-inf"
+    assert ex[1]["q0.9"] == "infinity" and ex[2]["q0.1"] == "-infinity"
     json.dumps(ex, allow_nan=False)
 
 

@@ -25,8 +25,8 @@ failure is collected), reads each failing check's row mask back from
 A breach has status ``fail`` (these are rules, not thresholds); ``value`` = ``n_obs`` = the
 number of offending rows (unit ``count``), ``n_series`` = the number of series among them,
 ``examples`` = at most ``max_examples`` offending rows as JSON-ready dicts (key columns,
-``period``/``issued`` as ISO dates, the offending values; NaN → ``None``, ±inf → ``"inf"`` /
-``"-inf"`` so that strict JSON keeps them visible). Everything is vectorised: row masks are
+``period``/``issued`` as ISO dates, the offending values; NaN → ``None``, ±inf → ``"infinity"`` /
+``"-infinity"`` so that strict JSON keeps them visible). Everything is vectorised: row masks are
 numpy operations over whole columns; only the ≤ ``max_examples`` example rows become Python
 objects. Duplicates are found by sorting one int64 code per row (the key, period and issue
 columns factorised and combined), which is 2–3× faster than ``DataFrame.duplicated`` on
@@ -89,12 +89,12 @@ AllowNegative = bool | Collection[str]
 def json_value(value: Any) -> Any:
     """A value from an offending row as a JSON-ready value.
 
-    NaN/NA/NaT → ``None``; ±inf → ``"inf"``/``"-inf"`` (strict JSON has no infinity and the
+    NaN/NA/NaT → ``None``; ±inf → ``"infinity"``/``"-infinity"`` (strict JSON has no infinity and the
     infinity is often the point); timestamps at midnight → ISO date, other times → ISO
     date-time; numpy scalars → Python numbers.
 
     >>> json_value(float("nan")), json_value(float("-inf")), json_value(np.int64(3))
-    (None, '-inf', 3)
+    (None, '-infinity', 3)
     >>> json_value(pd.Timestamp("2026-03-02")), json_value(pd.Timestamp("2026-03-02 06:00"))
     ('2026-03-02', '2026-03-02T06:00:00')
     """
@@ -109,7 +109,7 @@ def json_value(value: Any) -> Any:
         if math.isnan(number):
             return None
         if math.isinf(number):
-            return "inf" if number > 0 else "-inf"
+            return "infinity" if number > 0 else "-infinity"
         return number
     if isinstance(value, np.datetime64):
         value = pd.Timestamp(value)
