@@ -323,6 +323,8 @@ def _key_text(uniques: pd.Index, codes: np.ndarray, s: pd.Series, file: Path, c:
             f"as text: {fix}"
         )
 
+    if isinstance(uniques.dtype, pd.StringDtype):
+        return uniques  # text already (CSV, Parquet strings): nothing to check
     values = uniques.to_numpy()
     kind = uniques.dtype.kind
     if kind == "b" or (kind == "O" and pd.api.types.infer_dtype(values) == "boolean"):
