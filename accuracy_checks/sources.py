@@ -38,6 +38,11 @@ dictionary-encoded), never per row in Python.
 
 from __future__ import annotations
 
+import lzma
+import re
+import warnings
+import zipfile
+import zlib
 from collections import Counter
 from collections.abc import Callable, Sequence
 from dataclasses import dataclass
@@ -65,6 +70,9 @@ _NA_TEXT = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan"
 #: the calendar the tool computes on (nanosecond timestamps)
 _FIRST_DAY, _LAST_DAY = pd.Timestamp("1677-09-22"), pd.Timestamp("2262-04-11")
 _ISO = "YYYY-MM-DD (ISO 8601)"
+#: what reading a damaged or mis-encoded file raises (truncated .gz: EOFError)
+_READ_ERRORS = (OSError, ValueError, UnicodeDecodeError, EOFError, zlib.error,
+                zipfile.BadZipFile, lzma.LZMAError, pd.errors.ParserError)
 
 
 @dataclass(frozen=True)
@@ -142,8 +150,8 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
             frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"],
                                   row_filter)
         else:
-            frame = _read_csv_columns(file, columns)
-    except (OSError, ValueError, UnicodeDecodeError, pd.errors.ParserError) as exc:
+            frame = _read_csv_columns(file, columns, role)
+    except _READ_ERRORS as exc:
         raise InputError(f"The {role} file {file} cannot be read: {exc}") from None
     first_line = 1 if is_parquet else 2  # CSV: line 1 is the header
     out = {}
@@ -179,7 +187,7 @@ def _header(file: Path, role: str) -> list[str]:
         raise InputError(
             f"The {role} file {file} is empty (not even a header line)."
         ) from None
-    except (OSError, ValueError, UnicodeDecodeError) as exc:
+    except _READ_ERRORS as exc:
         kind = "Parquet" if is_parquet else "CSV"
         raise InputError(f"The {role} file {file} cannot be read as {kind}: {exc}") from None
     if len(first) == 0:
@@ -187,9 +195,10 @@ def _header(file: Path, role: str) -> list[str]:
     return [str(v) for v in first.iloc[0].tolist()]
 
 
-def _read_csv_columns(file: Path, columns: Sequence[Column]) -> pd.DataFrame:
+def _read_csv_columns(file: Path, columns: Sequence[Column], role: str) -> pd.DataFrame:
     """The configured columns of a CSV file: keys and segments as text (only an empty cell is
-    missing), dates as text, numbers as numbers (pandas' missing-value words)."""
+    missing), dates as text, numbers as numbers (pandas' missing-value words). A row with more
+    fields than the header is refused (trailing empty fields on every line are allowed)."""
     dtype: dict[str, str] = {}
     na: dict[str, list[str]] = {}
     for c in columns:
@@ -203,7 +212,32 @@ def _read_csv_columns(file: Path, columns: Sequence[Column]) -> pd.DataFrame:
         else:
             na[c.name] = _NA_TEXT
     wanted = list(dict.fromkeys(c.name for c in columns))
-    frame = _read_csv(file, usecols=wanted, dtype=dtype, keep_default_na=False, na_values=na)
+    # every column is read (not ``usecols``, which hides rows with too many fields: an
+    # unquoted decimal comma would silently cut "12,5" to 12); the others as plain text
+    names = list(_read_csv(file, nrows=0, index_col=False).columns)
+    dtype.update({n: "str" for n in names if n not in wanted})
+    with warnings.catch_warnings():
+        warnings.simplefilter("error", pd.errors.ParserWarning)
+        try:
+            frame = _read_csv(file, index_col=False, dtype=dtype, keep_default_na=False,
+                              na_values=na)
+        except pd.errors.ParserWarning:
+            _check_trailing_fields(file, len(names), role)
+            warnings.simplefilter("ignore", pd.errors.ParserWarning)
+            frame = _read_csv(file, index_col=False, dtype=dtype, keep_default_na=False,
+                              na_values=na)
+        except pd.errors.ParserError as exc:
+            found = re.search(r"Expected (\d+) fields in line (\d+), saw (\d+)", str(exc))
+            if found is None:
+                raise
+            expected, line, saw = found.groups()
+            raise InputError(
+                f"The {role} file {file} has {saw} fields on line {line} where its header has "
+                f"{expected}. A comma inside a value that is not quoted (a decimal comma, a "
+                "thousands separator, a comma in a name) shifts the row: quote such values "
+                "or use a dot as decimal mark."
+            ) from None
+    frame = frame[wanted]
     # a category column whose values all look like numbers (or true/false) comes back with
     # converted categories ("07" → 7): read those columns again as text
     converted = [n for n, kind in dtype.items() if kind == "category"
@@ -215,6 +249,26 @@ def _read_csv_columns(file: Path, columns: Sequence[Column]) -> pd.DataFrame:
         for n in converted:
             frame[n] = text[n].to_numpy()
     return frame
+
+
+def _check_trailing_fields(file: Path, n_header: int, role: str) -> None:
+    """Every line has more fields than the header: harmless when the extra fields are empty
+    (a separator at the end of each line), refused otherwise."""
+    first = _read_csv(file, header=None, skiprows=1, nrows=1, dtype=str, keep_default_na=False)
+    extra = list(range(n_header, first.shape[1]))
+    if not extra:
+        return
+    tail = _read_csv(file, header=None, skiprows=1, usecols=extra, dtype=str,
+                     keep_default_na=False)
+    filled = (tail != "").any(axis=1).to_numpy()
+    if filled.any():
+        lines = ", ".join(str(i + 2) for i in np.flatnonzero(filled)[:_SHOW])
+        raise InputError(
+            f"The {role} file {file} has more fields on its lines than its header has "
+            f"columns ({n_header}), with values in the extra fields (lines {lines}). A comma "
+            "inside a value that is not quoted (a decimal comma, a thousands separator) "
+            "shifts the row: quote such values or use a dot as decimal mark."
+        )
 
 
 def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],

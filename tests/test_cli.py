@@ -294,3 +294,14 @@ def test_a_spreadsheet_serial_date_is_named_plainly(make_project: Callable[..., 
     project = make_project(actuals=actuals.assign(week=serial))
     err = bad(project, capsys)
     assert "line 2: '46027'" in err and "np.int64" not in err
+
+
+def test_an_unquoted_decimal_comma_is_refused(make_project: Callable[..., Project],
+                                              capsys: pytest.CaptureFixture[str]) -> None:
+    project = make_project()
+    path = project.data / "actuals.csv"
+    lines = path.read_text().splitlines()
+    lines[2] = lines[2].replace(".0", ",5")  # 110,5 written with a decimal comma, unquoted
+    path.write_text("\n".join(lines) + "\n")
+    err = bad(project, capsys)
+    assert "actuals.csv" in err and "5 fields on line 3" in err and "decimal" in err

@@ -328,3 +328,34 @@ def test_parquet_shortcuts_leave_repeated_or_out_of_calendar_columns_to_the_full
     assert sources.cycle_starts(tmp_path / "h.parquet", cfg) is None
     pq.write_table(history.append_column("issued_on", history["week"]), tmp_path / "h.parquet")
     assert sources.cycle_starts(tmp_path / "h.parquet", cfg) is None
+
+
+# ---------------------------------------------------------- rows that do not fit the header
+
+
+def test_an_unquoted_decimal_comma_is_refused_not_cut(tmp_path: Path) -> None:
+    # "12,5" unquoted is two fields: a reader that keeps only the named columns reads 12
+    text = "store,product,week,units_sold\nS1,P1,2026-02-23,10\nS1,P2,2026-02-23,12,5\n"
+    (tmp_path / "a.csv").write_text(text)
+    msg = read_error(sources.read_actuals, config(tmp_path))
+    assert "a.csv" in msg and "5 fields on line 3" in msg and "header has 4" in msg
+    # the same on every line: no line fits the header
+    text = "store,product,week,units_sold\nS1,P1,2026-02-23,10,5\nS1,P2,2026-02-23,12,5\n"
+    (tmp_path / "a.csv").write_text(text)
+    msg = read_error(sources.read_actuals, config(tmp_path))
+    assert "a.csv" in msg and "lines 2, 3" in msg and "decimal comma" in msg
+
+
+def test_a_separator_at_the_end_of_every_line_is_harmless(tmp_path: Path) -> None:
+    text = "store,product,week,units_sold\nS1,P1,2026-02-23,10,\nS1,P2,2026-02-23,12,\n"
+    (tmp_path / "a.csv").write_text(text)
+    actuals = sources.read_actuals(config(tmp_path))
+    assert actuals["store"].tolist() == ["S1", "S1"]  # not shifted into an index
+    assert actuals["actual"].tolist() == [10.0, 12.0]
+
+
+def test_a_truncated_compressed_file_is_an_input_error(tmp_path: Path) -> None:
+    data = gzip.compress(forecast_text(["P1", "P2"] * 200).encode())
+    (tmp_path / "f.csv.gz").write_bytes(data[: len(data) // 2])
+    msg = read_error(sources.read_forecast, config(tmp_path, forecast="f.csv.gz"))
+    assert "f.csv.gz" in msg and "cannot be read" in msg
