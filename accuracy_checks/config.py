@@ -150,10 +150,11 @@ class ActualsSource(_Strict):
         return self
 
 
-#: strftime directives that place a date on the calendar (at least one is needed)
-_DATE_DIRECTIVES = frozenset("dmYyBbjUWGVuaAe")
-#: every directive a date format may use
-_DIRECTIVES = _DATE_DIRECTIVES | frozenset("HIMSpfzZ%T")
+#: strftime directives that place a date on the calendar (at least one is needed): day,
+#: month, year, day of year, ISO year and week
+_DATE_DIRECTIVES = frozenset("dmYyBbjGV")
+#: every directive a date format may use (the others: weekday, week number, time, offset)
+_DIRECTIVES = _DATE_DIRECTIVES | frozenset("aAwuUWHIMSpfzZ")
 
 
 def _check_date_formats(section: str, formats: dict[str, str], columns: dict[str, str]) -> None:

@@ -517,6 +517,12 @@ def _parse_dates(uniques: pd.Index, file: Path, c: Column, role: str
         parsed = pd.to_datetime(text.where(~blank), errors="coerce",
                                 format=c.fmt or "ISO8601")
     except (ValueError, OverflowError) as exc:
+        if not re.search(r"time ?zone|offset|utc", str(exc), re.IGNORECASE):
+            raise InputError(
+                f"The {role} file {file}, date column {c.name!r} (config key `{c.key}`), "
+                f"cannot be read with the format {c.fmt or _ISO}: {exc}. Fix "
+                f"`{c.key.split('.')[0]}.date_formats` for {c.name!r}."
+            ) from None
         has_offset = text.str.contains(_OFFSET, regex=True).to_numpy()
         if has_offset[~blank].all():
             what = "mixes time zones (different UTC offsets)"

@@ -176,8 +176,15 @@ def test_date_formats_name_a_date_column_of_their_section() -> None:
     assert "actuals.date_formats" in msg and "not a date column of the actuals" in msg
 
 
-@pytest.mark.parametrize("fmt", ["dd/mm/yyyy", "%H:%M", "%d/%m/%Q", "%d/%m/%"])
+@pytest.mark.parametrize("fmt", ["dd/mm/yyyy", "%H:%M", "%a", "%d/%m/%Q", "%d/%m/%"])
 def test_date_formats_must_be_strftime_date_patterns(fmt: str) -> None:
     msg = error_of(base=BASE.replace("issued: issued_on}",
                                      f'issued: issued_on, date_formats: {{week: "{fmt}"}}}}'))
     assert "`forecast.date_formats.week`" in msg and "%d/%m/%Y" in msg
+
+
+@pytest.mark.parametrize("fmt", ["%Y%m%d", "%d.%m.%y", "%G-W%V-%u", "%d %b %Y %H:%M", "%Y"])
+def test_usual_date_formats_are_accepted(fmt: str) -> None:
+    cfg = parse(base=BASE.replace("issued: issued_on}",
+                                  f'issued: issued_on, date_formats: {{week: "{fmt}"}}}}'))
+    assert cfg.forecast.date_formats == {"week": fmt}
