@@ -782,8 +782,17 @@ def _labels(columns: Sequence[pd.Series]) -> pd.Categorical:
         labels = labels + "/" + part.astype(object)
     cats = pd.Index(labels.astype(str))
     if cats.has_duplicates:  # distinct combinations that print alike ("a/b" + "c" vs "a" + "b/c")
-        remap, cats = pd.factorize(cats)
-        ids = remap[ids]
+        label = cats[cats.duplicated()][0]
+        twins = [
+            " + ".join(repr(str(p[i])) for p in reversed(parts))
+            for i in np.flatnonzero(cats == label)[:2]
+        ]
+        raise InputError(
+            f"Segment columns {', '.join(repr(str(c.name)) for c in columns)} (config key "
+            f"`segments.columns`) give two different segments the same name {label!r} "
+            f"({' and '.join(twins)}), because their values are joined with '/'. Remove the "
+            "'/' from the segment values so that each segment keeps a name of its own."
+        )
     return pd.Categorical.from_codes(ids.astype(np.int32), categories=cats)
 
 

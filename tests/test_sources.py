@@ -359,3 +359,11 @@ def test_a_truncated_compressed_file_is_an_input_error(tmp_path: Path) -> None:
     (tmp_path / "f.csv.gz").write_bytes(data[: len(data) // 2])
     msg = read_error(sources.read_forecast, config(tmp_path, forecast="f.csv.gz"))
     assert "f.csv.gz" in msg and "cannot be read" in msg
+
+
+def test_segment_combinations_that_print_alike_are_refused() -> None:
+    # ("a/b", "c") and ("a", "b/c") would both be named "a/b/c": merging them would pool two
+    # segments' figures under one name
+    frame = pd.DataFrame({"family": ["a/b", "a"], "kind": ["c", "b/c"]})
+    with pytest.raises(InputError, match=r"same name 'a/b/c' \('a' \+ 'b/c' and 'a/b' \+ 'c'\)"):
+        sources._labels([frame["family"], frame["kind"]])
