@@ -89,9 +89,9 @@ AllowNegative = bool | Collection[str]
 def json_value(value: Any) -> Any:
     """A value from an offending row as a JSON-ready value.
 
-    NaN/NA/NaT → ``None``; ±inf → ``"infinity"``/``"-infinity"`` (strict JSON has no infinity and the
-    infinity is often the point); timestamps at midnight → ISO date, other times → ISO
-    date-time; numpy scalars → Python numbers.
+    NaN/NA/NaT → ``None``; ±inf → ``"infinity"``/``"-infinity"`` (strict JSON has no
+    infinity and the infinity is often the point); timestamps at midnight → ISO date, other
+    times → ISO date-time; numpy scalars → Python numbers.
 
     >>> json_value(float("nan")), json_value(float("-inf")), json_value(np.int64(3))
     (None, '-infinity', 3)
