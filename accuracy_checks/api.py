@@ -14,8 +14,8 @@ from typing import TYPE_CHECKING
 
 import pandas as pd
 
-from accuracy_checks import frames as F
 from accuracy_checks.config import Config, load_config
+from accuracy_checks.sources import frames as F
 
 if TYPE_CHECKING:
     from accuracy_checks.engine import Inputs
@@ -65,7 +65,7 @@ def _evaluation(config: Config, *, forecast_path: Path | None = None,
                 actuals_path: Path | None = None) -> tuple[pd.DataFrame, Inputs]:
     """The evaluation frame (columns ordered) and the loaded inputs."""
     from accuracy_checks.engine import load_inputs
-    from accuracy_checks.evaluation import evaluation_frame as join
+    from accuracy_checks.evaluation.join import evaluation_frame as join
 
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path)
     keys = list(config.forecast.keys)

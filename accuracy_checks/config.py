@@ -261,7 +261,7 @@ class Thresholds(_Strict):
 
 
 class Drift(_Strict):
-    """Checks across cycles, from the audit trail (:mod:`accuracy_checks.drift`).
+    """Checks across cycles, from the audit trail (:mod:`accuracy_checks.checks.drift`).
 
     ``drift.control_limit``: each accuracy figure (segment × measure × lag) against its own
     trailing cycles: mean ± ``k`` standard deviations of its last ``cycles`` earlier values,

@@ -18,25 +18,25 @@ from typing import TypeVar
 import numpy as np
 import pandas as pd
 
-from accuracy_checks import frames as F
-from accuracy_checks import sources
-from accuracy_checks.accuracy import actuals_span, evaluation_span, run_accuracy
-from accuracy_checks.archive import (
+from accuracy_checks.checks.accuracy import actuals_span, evaluation_span, run_accuracy
+from accuracy_checks.checks.actuals import actuals_checks
+from accuracy_checks.checks.coverage import coverage_checks
+from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.output import output_checks
+from accuracy_checks.checks.plugins import run_check_plugins
+from accuracy_checks.config import Config
+from accuracy_checks.evaluation.join import prune_earlier, window_periods
+from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
+from accuracy_checks.sources import frames as F
+from accuracy_checks.sources import read as sources
+from accuracy_checks.sources.codes import combined_codes
+from accuracy_checks.store.archive import (
     Archive,
     Snapshot,
     SnapshotFault,
     SnapshotUnreadable,
     cycle_label,
 )
-from accuracy_checks.check_plugins import run_check_plugins
-from accuracy_checks.checks.actuals import actuals_checks
-from accuracy_checks.checks.coverage import coverage_checks
-from accuracy_checks.checks.output import output_checks
-from accuracy_checks.codes import combined_codes
-from accuracy_checks.config import Config
-from accuracy_checks.evaluation import prune_earlier, window_periods
-from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
-from accuracy_checks.thresholds import ThresholdBook
 
 Progress = Callable[[str], None]
 T = TypeVar("T")
@@ -44,7 +44,7 @@ T = TypeVar("T")
 
 @dataclass
 class Inputs:
-    """The canonical frames of one run (see :mod:`accuracy_checks.frames`)."""
+    """The canonical frames of one run (see :mod:`accuracy_checks.sources.frames`)."""
 
     forecast: pd.DataFrame
     actuals: pd.DataFrame
@@ -306,13 +306,13 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
     """Run every check of ``config`` on the current forecast, record the run, return it.
 
     Every input is read and validated first: an unusable input raises before anything is
-    written. The drift checks (:mod:`accuracy_checks.drift`, unless ``drift.enabled`` is
+    written. The drift checks (:mod:`accuracy_checks.checks.drift`, unless ``drift.enabled`` is
     false) judge the figures against the earlier cycles in the audit store; then the waivers
     active at the run's start turn the breaches they cover (drift results included) into
     ``waived``; the forecast is staged for the archive (unless ``snapshot=False``, a dry
     run); and the run is recorded in the audit store (``config.store``) in one transaction,
     which allocates the run's attempt of its cycle and moves the staged snapshot to that
-    attempt's name (protocol in :mod:`accuracy_checks.archive`). ``label`` is an optional
+    attempt's name (protocol in :mod:`accuracy_checks.store.archive`). ``label`` is an optional
     pipeline run label kept with the record. Raises ``StoreError`` (a ``UsageError``) when the
     store cannot be opened or written, ``ArchiveError`` when the archive cannot be read or
     written: then nothing is recorded and nothing archived. Both are checked before the checks
@@ -351,7 +351,7 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
     cycle = cycle_label(inputs.issued)
     with open_store(config) as store:
         if config.drift.enabled:
-            from accuracy_checks.drift import drift_checks
+            from accuracy_checks.checks.drift import drift_checks
 
             t0 = time.perf_counter()
             found = drift_checks(config, results, store, cycle=cycle)

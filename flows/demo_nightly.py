@@ -9,7 +9,7 @@ Two nights of the job, each one flow run (forecast → gate → publish):
    file and the demo's weekly forecasts, where pet-care runs 18 % low from the third cycle
    on). The gate fails on the pet-care bias and nothing is published.
 
-Nothing here is real: no company, store or person (see :mod:`accuracy_checks.demo`).
+Nothing here is real: no company, store or person (see :mod:`accuracy_checks.demo.scenario`).
 """
 
 from __future__ import annotations
@@ -21,7 +21,7 @@ from pathlib import Path
 
 from prefect.states import State
 
-from accuracy_checks.demo import CONFIG_MARKER, Scenario, generate_scenario
+from accuracy_checks.demo.scenario import CONFIG_MARKER, Scenario, generate_scenario
 from accuracy_checks.errors import GateFailed, UsageError
 
 __all__ = ["LATEST_CONFIG", "DemoNight", "latest_config_text", "run_flow_demo"]

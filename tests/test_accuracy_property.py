@@ -13,10 +13,10 @@ import pytest
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from accuracy_checks.accuracy import accuracy_results
+from accuracy_checks.checks.accuracy import accuracy_results
+from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.config import parse_config
 from accuracy_checks.measures import CORE_MEASURES
-from accuracy_checks.thresholds import ThresholdBook
 
 CONFIG = parse_config(
     "version: 1\n"

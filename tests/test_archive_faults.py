@@ -21,18 +21,18 @@ import pandas as pd
 import pytest
 from conftest import CURRENT, EARLIER, Project, forecast_frame
 
-from accuracy_checks import frames as F
 from accuracy_checks import load_config
-from accuracy_checks.archive import (
+from accuracy_checks.cli.main import main
+from accuracy_checks.config import Config
+from accuracy_checks.engine import load_inputs, run_checks
+from accuracy_checks.sources import frames as F
+from accuracy_checks.store import archived_attempts, open_store
+from accuracy_checks.store.archive import (
     Archive,
     ArchiveError,
     Snapshot,
     SnapshotUnreadable,
 )
-from accuracy_checks.cli import main
-from accuracy_checks.config import Config
-from accuracy_checks.engine import load_inputs, run_checks
-from accuracy_checks.store import archived_attempts, open_store
 
 FIRST, SECOND = (f"{d:%Y-%m-%d}" for d in EARLIER)
 
@@ -350,7 +350,7 @@ def test_archive_write_failing_half_way_leaves_no_file_and_no_record(
 
         monkeypatch.setattr(pd.DataFrame, "to_parquet", half_then_disk_full)
     else:
-        import accuracy_checks.archive as archive_module
+        import accuracy_checks.store.archive as archive_module
 
         real = os.replace
 

@@ -22,7 +22,7 @@ from test_store_support import (
     table_names,
 )
 
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.store import open_store
 
 

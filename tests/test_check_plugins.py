@@ -13,7 +13,7 @@ import pytest
 from conftest import FakeDist, FakeEntryPoint, Project
 
 from accuracy_checks import load_config, run_checks
-from accuracy_checks.check_plugins import GROUP, reset_check_plugins
+from accuracy_checks.checks.plugins import GROUP, reset_check_plugins
 from accuracy_checks.results import CheckResult
 
 

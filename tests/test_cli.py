@@ -12,7 +12,7 @@ import pandas as pd
 import pytest
 from conftest import CURRENT, EARLIER, Project, forecast_frame
 
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 
 
 def run(project: Project, *args: str) -> int:

@@ -21,10 +21,10 @@ from accuracy_checks.checks.coverage import (
     UNEXPECTED_SERIES,
     coverage_checks,
 )
+from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.config import parse_config
 from accuracy_checks.errors import InputError
 from accuracy_checks.results import CheckResult
-from accuracy_checks.thresholds import ThresholdBook
 
 KEYS = ["store", "product"]
 CYCLE = pd.Timestamp("2026-03-02")  # a Monday: the first forecast week

@@ -1,7 +1,7 @@
 """The invented demo scenario: determinism, file schemas, the planted problems, honesty in time.
 
-Everything here is invented data (see ``accuracy_checks/demo.py``); the expected figures are the
-scenario's own design (e.g. pet-care forecasts scaled by 0.82), not outside references.
+Everything here is invented data (see ``accuracy_checks/demo/scenario.py``); the expected figures
+are the scenario's own design (e.g. pet-care forecasts scaled by 0.82), not outside references.
 """
 
 from __future__ import annotations
@@ -14,8 +14,8 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from accuracy_checks import demo
-from accuracy_checks.demo import Scenario, generate_scenario
+from accuracy_checks.demo import scenario as demo
+from accuracy_checks.demo.scenario import Scenario, generate_scenario
 from accuracy_checks.errors import UsageError
 from accuracy_checks.results import RunReport
 

@@ -16,8 +16,7 @@ from scipy import stats
 from test_store_support import make_report, store_url_fixture  # noqa: F401  (fixture)
 
 from accuracy_checks import load_config, run_checks
-from accuracy_checks.config import parse_config
-from accuracy_checks.drift import (
+from accuracy_checks.checks.drift import (
     CONTROL_LIMIT,
     SUSTAINED_BREACH,
     breach_streaks,
@@ -27,6 +26,7 @@ from accuracy_checks.drift import (
     false_alarm_rate,
     load_trail,
 )
+from accuracy_checks.config import parse_config
 from accuracy_checks.errors import ConfigError
 from accuracy_checks.results import CheckResult
 from accuracy_checks.store import open_store

@@ -35,7 +35,7 @@ from prefect.logging.handlers import APILogHandler
 from prefect.states import State
 from prefect.testing.utilities import prefect_test_harness
 
-from accuracy_checks.cli import main as cli_main
+from accuracy_checks.cli.main import main as cli_main
 from accuracy_checks.config import load_config
 from accuracy_checks.errors import GateFailed, InputError
 from accuracy_checks.prefect import WARNED_STATE_NAME
@@ -253,7 +253,7 @@ def test_demo_nights_publish_one_cycle_and_stop_the_other(tmp_path: Path) -> Non
 
 
 def test_dask_fan_out_equals_the_single_process_figures(tmp_path: Path) -> None:
-    from accuracy_checks.demo import generate_scenario
+    from accuracy_checks.demo.scenario import generate_scenario
     from accuracy_checks.engine import run_checks
     from flows.demo_nightly import LATEST_CONFIG, latest_config_text
     from flows.fan_out_dask import fan_out_accuracy

@@ -9,15 +9,15 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from accuracy_checks import baselines
-from accuracy_checks.baselines import (
+from accuracy_checks.evaluation import baselines
+from accuracy_checks.evaluation.baselines import (
     ActualsIndex,
     default_seasonal_period,
     known_through,
     naive_forecast,
     seasonal_naive_forecast,
 )
-from accuracy_checks.evaluation import evaluation_frame
+from accuracy_checks.evaluation.join import evaluation_frame
 from accuracy_checks.measures import functions as fn
 
 

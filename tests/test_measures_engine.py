@@ -18,7 +18,7 @@ import pytest
 from conftest import CONFIG, EARLIER, Project, forecast_frame
 
 from accuracy_checks import load_config, run_checks
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.errors import ConfigError
 from accuracy_checks.outputs import render_console, render_markdown
 from accuracy_checks.results import CheckResult, RunReport

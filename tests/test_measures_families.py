@@ -18,13 +18,13 @@ import pytest
 from sklearn import metrics as sk
 from statsmodels.tools import eval_measures as sm
 
-from accuracy_checks.accuracy import accuracy_results
-from accuracy_checks.baselines import ActualsIndex
+from accuracy_checks.checks.accuracy import accuracy_results
+from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.config import parse_config
+from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.measures import functions as fn
 from accuracy_checks.measures.data import CostTable, MeasureSettings
 from accuracy_checks.results import CheckResult
-from accuracy_checks.thresholds import ThresholdBook
 
 NAN = float("nan")
 

@@ -16,8 +16,8 @@ from conftest import CONFIG, FakeDist, FakeEntryPoint, Project
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.errors import ConfigError
 from accuracy_checks.measures import MeasureData, get_measure, result_frame
+from accuracy_checks.measures.plugins import GROUP, load_plugins, rejected_plugins, reset_plugins
 from accuracy_checks.measures.registry import MEASURES, Measure, register_measure
-from accuracy_checks.plugins import GROUP, load_plugins, rejected_plugins, reset_plugins
 
 
 def _stockout_rate(data: MeasureData) -> pd.DataFrame:

@@ -19,13 +19,13 @@ import pandas as pd
 from hypothesis import given, settings
 from hypothesis import strategies as st
 
-from accuracy_checks.accuracy import accuracy_results
-from accuracy_checks.baselines import ActualsIndex
+from accuracy_checks.checks.accuracy import accuracy_results
+from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.config import parse_config
+from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.measures.data import CostTable, MeasureSettings
 from accuracy_checks.measures.registry import MEASURES, registered_measures
 from accuracy_checks.measures.stats import error_stats, merge_stats
-from accuracy_checks.thresholds import ThresholdBook
 
 NAN = float("nan")
 

@@ -26,14 +26,15 @@ import pandas as pd
 import pytest
 from conftest import EARLIER, Project, actuals_frame, forecast_frame
 
-from accuracy_checks import load_config, sources
-from accuracy_checks.accuracy import accuracy_results
+from accuracy_checks import load_config
+from accuracy_checks.checks.accuracy import accuracy_results
 from accuracy_checks.checks.actuals import INVALID_ACTUALS, actuals_checks
-from accuracy_checks.cli import main
+from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.offenders import worst_offenders
+from accuracy_checks.cli.main import main
 from accuracy_checks.config import Config
-from accuracy_checks.evaluation import evaluation_frame, window_periods
+from accuracy_checks.evaluation.join import evaluation_frame, window_periods
 from accuracy_checks.measures.stats import error_stats, overflowed
-from accuracy_checks.offenders import worst_offenders
 from accuracy_checks.outputs.wording import (
     describe_value,
     format_example,
@@ -41,7 +42,7 @@ from accuracy_checks.outputs.wording import (
     format_number,
 )
 from accuracy_checks.results import CheckResult
-from accuracy_checks.thresholds import ThresholdBook
+from accuracy_checks.sources import read as sources
 
 #: ``nan``/``inf`` as a word, in any case (``infinity`` is a word of its own and allowed)
 NON_FINITE_TOKEN = re.compile(r"\b(nan|inf)\b", re.IGNORECASE)

@@ -27,7 +27,7 @@ from accuracy_checks.checks.output import (
     output_checks,
     output_schema,
 )
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.errors import InputError
 from accuracy_checks.results import CheckResult
 

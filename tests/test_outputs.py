@@ -20,7 +20,7 @@ import pytest
 import xmlschema
 from conftest import EARLIER, Project, forecast_frame
 
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.outputs import (
     describe_threshold,
     describe_value,

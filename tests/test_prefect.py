@@ -26,7 +26,7 @@ from prefect.logging import disable_run_logger
 from prefect.states import Completed, Failed, State
 
 import accuracy_checks.prefect.gate as gate_module
-from accuracy_checks.cli import main as cli_main
+from accuracy_checks.cli.main import main as cli_main
 from accuracy_checks.config import load_config
 from accuracy_checks.engine import evaluate, load_inputs
 from accuracy_checks.errors import ConfigError, GateFailed, InputError
@@ -365,7 +365,7 @@ def test_ci_gate_publishes_only_what_passes(make_project: Make, tmp_path: Path,
 @pytest.fixture(scope="module")
 def demo_latest(tmp_path_factory: pytest.TempPathFactory) -> Path:
     """The demo's final-cycle config (every actual, the job's recent cycles as history)."""
-    from accuracy_checks.demo import generate_scenario
+    from accuracy_checks.demo.scenario import generate_scenario
     from flows.demo_nightly import LATEST_CONFIG, latest_config_text
 
     scenario = generate_scenario(tmp_path_factory.mktemp("demo"))

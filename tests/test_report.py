@@ -20,7 +20,7 @@ from conftest import Project
 from test_report_support import XSS, BuiltStore, build_store, cycle_label, segment_names
 
 from accuracy_checks import load_config
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.report import (
     ReportData,
     build_report,

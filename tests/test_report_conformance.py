@@ -24,7 +24,7 @@ from pathlib import Path
 import pytest
 from test_report_support import HOSTILE, build_store
 
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.report import build_report
 from accuracy_checks.results import RunReport
 from accuracy_checks.store import open_store

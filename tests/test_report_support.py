@@ -2,7 +2,7 @@
 
 Invented figures, recorded the way ``run_checks`` records them: each cycle's accuracy and
 coverage results are judged by the config's thresholds, the real drift checks read the store
-(:func:`accuracy_checks.drift.drift_checks`), active waivers apply, and the run is recorded
+(:func:`accuracy_checks.checks.drift.drift_checks`), active waivers apply, and the run is recorded
 with ``Store.record_run``.
 """
 
@@ -16,11 +16,11 @@ from pathlib import Path
 
 import numpy as np
 
+from accuracy_checks.checks.drift import drift_checks
+from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.config import Config, parse_config
-from accuracy_checks.drift import drift_checks
 from accuracy_checks.results import CheckResult, RunReport
 from accuracy_checks.store import apply_waivers, open_store
-from accuracy_checks.thresholds import ThresholdBook
 
 XSS = "<script>alert(1)</script>"
 #: segment names no report may trip over: markup, entities, quotes of both kinds, non-ASCII

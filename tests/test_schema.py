@@ -17,11 +17,11 @@ import pytest
 import yaml
 from conftest import CONFIG, FakeDist, FakeEntryPoint, Project
 
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.config import json_schema, measure_directions, parse_config
 from accuracy_checks.errors import ConfigError
+from accuracy_checks.measures.plugins import GROUP, reset_plugins
 from accuracy_checks.measures.registry import Measure
-from accuracy_checks.plugins import GROUP, reset_plugins
 
 FIXTURES = Path(__file__).parent.parent / "fixtures"
 
@@ -133,7 +133,7 @@ def test_all_is_accepted_in_the_measure_lists(where: str) -> None:
 
 
 def test_the_demo_config_is_valid(tmp_path: Path) -> None:
-    from accuracy_checks.demo import generate_scenario
+    from accuracy_checks.demo.scenario import generate_scenario
 
     text = generate_scenario(tmp_path / "demo").config_path.read_text(encoding="utf-8")
     assert _schema_errors(text) == []

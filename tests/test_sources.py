@@ -1,7 +1,7 @@
 """The input readers' rules (issue 10): identifiers are text, one date format per column, no
 column named twice, reserved segment names, plain values in messages, the calendar's bounds.
 
-Each test reads small files written here through :mod:`accuracy_checks.sources` and checks
+Each test reads small files written here through :mod:`accuracy_checks.sources.read` and checks
 the frame it returns or the one-paragraph :class:`InputError` it raises.
 """
 
@@ -17,10 +17,10 @@ import pyarrow as pa
 import pyarrow.parquet as pq
 import pytest
 
-from accuracy_checks import sources
 from accuracy_checks.config import Config, parse_config
 from accuracy_checks.errors import InputError
-from accuracy_checks.grid import grid_dates, grid_positions
+from accuracy_checks.evaluation.grid import grid_dates, grid_positions
+from accuracy_checks.sources import read as sources
 
 CONFIG = """\
 version: 1

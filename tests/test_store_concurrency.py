@@ -14,8 +14,8 @@ from pathlib import Path
 from sqlalchemy import func, select
 from test_store_support import store_url_fixture  # noqa: F401  (fixture)
 
-from accuracy_checks.archive import Archive
 from accuracy_checks.store import open_store
+from accuracy_checks.store.archive import Archive
 from accuracy_checks.store.schema import results, runs
 
 ROOT = Path(__file__).resolve().parents[1]
@@ -24,7 +24,7 @@ CYCLE = "2026-03-02"
 CHILD = """
 import sys, time
 from pathlib import Path
-from accuracy_checks.archive import StagedSnapshot
+from accuracy_checks.store.archive import StagedSnapshot
 from accuracy_checks.results import CheckResult, RunReport
 from accuracy_checks.store import open_store
 

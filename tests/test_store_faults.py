@@ -19,7 +19,7 @@ from sqlalchemy.pool import NullPool
 from test_archive_faults import unwritable
 from test_store_support import pg_url_fixture  # noqa: F401  (fixture)
 
-from accuracy_checks.cli import main
+from accuracy_checks.cli.main import main
 from accuracy_checks.store import StoreError, open_store
 from accuracy_checks.store import database as D
 

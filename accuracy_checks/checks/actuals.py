@@ -9,7 +9,7 @@ of the figures, ``details`` = ``{"infinite": …, "missing": …}``):
 
 - an **infinite** actual is an input that cannot be trusted: status ``fail``. The row is left
   out of every accuracy figure, baseline and scale (the evaluation frame reads it as missing,
-  see :mod:`accuracy_checks.evaluation`), so it is never averaged in;
+  see :mod:`accuracy_checks.evaluation.join`), so it is never averaged in;
 - a **missing** actual keeps its documented meaning, "not arrived yet": the row counts as
   dropped in the figures' ``n_dropped``, as a period that has no row at all. Alone it does not
   break the gate: status ``pass``, with the count and the first rows as ``examples``, so it
@@ -30,9 +30,9 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.output import json_value, plural, verb
-from accuracy_checks.codes import combined_codes
-from accuracy_checks.frames import ACTUAL, PERIOD
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
+from accuracy_checks.sources.codes import combined_codes
+from accuracy_checks.sources.frames import ACTUAL, PERIOD
 
 __all__ = ["INVALID_ACTUALS", "actuals_checks"]
 

@@ -24,14 +24,14 @@ actuals' ``segment``, ``"unassigned"`` when unknown). When every series is in se
 previous cycle's forecast is given)
     value = 100 · (n_now − n_previous) / n_previous distinct series, segment ``"*"``.
 
-Each value is judged by the :class:`~accuracy_checks.thresholds.ThresholdBook` (a level is
+Each value is judged by the :class:`~accuracy_checks.checks.judge.ThresholdBook` (a level is
 broken when the value is strictly beyond it). A segment without any forecast series gets
 ``skipped`` (``no_data``) for the checks about forecast series.
 
 Cost: series are identified once (the key columns of forecast and actuals factorised jointly
 into one dense series id per row); every count is a ``np.bincount`` over those ids; the grid
-is computed once (:func:`~accuracy_checks.grid.grid_positions`). Only the ≤ ``max_examples``
-example series per result are turned into Python objects.
+is computed once (:func:`~accuracy_checks.evaluation.grid.grid_positions`). Only the ≤
+``max_examples`` example series per result are turned into Python objects.
 """
 
 from __future__ import annotations
@@ -43,6 +43,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.checks.output import (
     all_of,
     json_value,
@@ -50,12 +51,11 @@ from accuracy_checks.checks.output import (
     row_examples,
     verb,
 )
-from accuracy_checks.codes import combine_codes, combined_codes
 from accuracy_checks.errors import InputError
-from accuracy_checks.frames import ACTUAL, PERIOD, SEGMENT, UNASSIGNED
-from accuracy_checks.grid import grid_dates, grid_positions
+from accuracy_checks.evaluation.grid import grid_dates, grid_positions
 from accuracy_checks.results import ALL_SERIES, CheckResult
-from accuracy_checks.thresholds import ThresholdBook
+from accuracy_checks.sources.codes import combine_codes, combined_codes
+from accuracy_checks.sources.frames import ACTUAL, PERIOD, SEGMENT, UNASSIGNED
 
 __all__ = [
     "COVERAGE_CHECKS",
@@ -718,8 +718,8 @@ def coverage_checks(
     Parameters
     ----------
     forecast, actuals
-        Canonical frames (:mod:`accuracy_checks.frames`); both carry the key columns ``keys``,
-        ``period`` and ``segment``; the actuals also ``actual``.
+        Canonical frames (:mod:`accuracy_checks.sources.frames`); both carry the key columns
+        ``keys``, ``period`` and ``segment``; the actuals also ``actual``.
     frequency
         The pandas offset alias of the period grid (``W-MON``, ``MS``).
     horizon

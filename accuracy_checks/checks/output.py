@@ -45,10 +45,10 @@ import pandas as pd
 import pandera.pandas as pa
 from pandera.errors import SchemaErrors
 
-from accuracy_checks.codes import combined_codes
 from accuracy_checks.errors import InputError
-from accuracy_checks.frames import FORECAST, ISSUED, PERIOD, SEGMENT
 from accuracy_checks.results import ALL_SERIES, CheckResult
+from accuracy_checks.sources.codes import combined_codes
+from accuracy_checks.sources.frames import FORECAST, ISSUED, PERIOD, SEGMENT
 
 __all__ = [
     "DUPLICATE_ROWS",
@@ -354,7 +354,7 @@ def output_checks(
     Parameters
     ----------
     forecast
-        The canonical forecast frame (:mod:`accuracy_checks.frames`): key columns,
+        The canonical forecast frame (:mod:`accuracy_checks.sources.frames`): key columns,
         ``period``, ``issued``, ``forecast``, the quantile columns and ``segment``.
     keys
         The key columns that identify a series.

@@ -14,7 +14,7 @@ Install with ``pip install "accuracy-checks[gx]"``. Importing this package impor
   :class:`ExpectCompleteHorizon`, :class:`ExpectNoUnexpectedSeries`,
   :class:`ExpectStableSeriesCount`, :class:`ExpectThresholdSegmentsPresent`. Their metric
   providers call the CLI's own functions
-  (:func:`~accuracy_checks.accuracy.run_accuracy`,
+  (:func:`~accuracy_checks.checks.accuracy.run_accuracy`,
   :func:`~accuracy_checks.checks.coverage.coverage_checks`), so values are identical.
 - Severity: an expectation with ``severity="critical"`` fails on ``fail`` results,
   ``"warning"`` (and ``"info"``) on ``warn`` or worse. :func:`verdict` turns a validation

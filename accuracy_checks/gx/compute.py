@@ -4,8 +4,8 @@ Each function calls the same core function as the CLI on the rows of its kind (s
 :mod:`accuracy_checks.gx.batch`) and returns a JSON-ready payload whose ``results`` are
 :meth:`CheckResult.to_dict` dicts, so the numbers are the CLI's by construction:
 
-- :func:`accuracy_payload` → :func:`accuracy_checks.accuracy.run_accuracy` (the CLI's accuracy
-  stage: evaluation frame, every measure, judged by the config's levels — some measures turn
+- :func:`accuracy_payload` → :func:`accuracy_checks.checks.accuracy.run_accuracy` (the CLI's
+accuracy stage: evaluation frame, every measure, judged by the config's levels — some measures turn
   levels into their own bounds, and the wording of a result depends on its status, so the
   judging happens there, not in the expectation);
 - :func:`coverage_payload` → :func:`accuracy_checks.checks.coverage.coverage_checks`, judged
@@ -22,14 +22,14 @@ import numpy as np
 import pandas as pd
 from pydantic import ValidationError
 
-from accuracy_checks import frames as F
-from accuracy_checks.accuracy import measures_to_report, run_accuracy
-from accuracy_checks.archive import cycle_label
+from accuracy_checks.checks.accuracy import measures_to_report, run_accuracy
 from accuracy_checks.checks.coverage import coverage_checks
+from accuracy_checks.checks.judge import BUILTIN_DEFAULTS, ThresholdBook
 from accuracy_checks.config import Config, Level
 from accuracy_checks.gx.batch import ROW_KIND, select_rows
 from accuracy_checks.results import ALL_SERIES, CheckResult
-from accuracy_checks.thresholds import BUILTIN_DEFAULTS, ThresholdBook
+from accuracy_checks.sources import frames as F
+from accuracy_checks.store.archive import cycle_label
 
 __all__ = [
     "accuracy_config",
@@ -59,7 +59,7 @@ _PLACEHOLDER_SOURCES: dict[str, Any] = {
 def threshold_book(measure: str | None = None, thresholds: Levels | None = None,
                    segment_thresholds: Mapping[str, Levels] | None = None,
                    undefined_status: str = "warn") -> ThresholdBook:
-    """A :class:`~accuracy_checks.thresholds.ThresholdBook` holding ``measure``'s levels, as if
+    """A :class:`~accuracy_checks.checks.judge.ThresholdBook` holding ``measure``'s levels, as if
     the config said ``thresholds.default.<measure>`` = ``thresholds`` and
     ``thresholds.segments.<segment>.<measure>`` = ``segment_thresholds[segment]``.
 
@@ -190,7 +190,7 @@ def accuracy_payload(frame: pd.DataFrame, *, spec: Mapping[str, Any],
     """Every accuracy result the CLI would give for the ``earlier`` and ``actuals`` rows of a
     stacked batch, with the config of :func:`accuracy_config`.
 
-    Calls :func:`accuracy_checks.accuracy.run_accuracy` (evaluation frame → measures →
+    Calls :func:`accuracy_checks.checks.accuracy.run_accuracy` (evaluation frame → measures →
     judged results, exactly as ``accuracy-checks run``). Returns ``{"results": [...],
     "measures": [...], "levels": {measure: measure_levels(...)}}``.
     """

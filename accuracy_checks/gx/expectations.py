@@ -4,8 +4,8 @@ Each expectation is a :class:`~great_expectations.expectations.expectation.Batch
 (a pydantic v1 model, as GX requires; its fields are plain JSON values). Its metric runs the
 CLI's own code on the batch (:mod:`accuracy_checks.gx.compute`), and results are judged by the
 CLI's own rules with the expectation's levels: accuracy inside
-:func:`~accuracy_checks.accuracy.run_accuracy` (some measures turn levels into their own
-bounds), coverage with :meth:`~accuracy_checks.thresholds.ThresholdBook.judge`. The expectation
+:func:`~accuracy_checks.checks.accuracy.run_accuracy` (some measures turn levels into their own
+bounds), coverage with :meth:`~accuracy_checks.checks.judge.ThresholdBook.judge`. The expectation
 then gates on its ``severity``:
 
 - ``severity="critical"`` (GX's default) fails when a segment is ``fail`` (beyond its fail
@@ -148,7 +148,7 @@ class ExpectSegmentAccuracy(_ResultsExpectation):
     Batch: a stacked batch with ``earlier`` and ``actuals`` rows
     (:func:`~accuracy_checks.gx.batch_from_config` or :func:`~accuracy_checks.gx.stack_frames`);
     the earlier forecasts are joined with the actuals and measured exactly as
-    ``accuracy-checks run`` does (:func:`accuracy_checks.accuracy.run_accuracy`).
+    ``accuracy-checks run`` does (:func:`accuracy_checks.checks.accuracy.run_accuracy`).
 
     Two ways to give the settings:
 

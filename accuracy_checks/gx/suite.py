@@ -41,9 +41,9 @@ from great_expectations.expectations.row_conditions import (
 )
 
 from accuracy_checks import __version__
-from accuracy_checks import frames as F
-from accuracy_checks.accuracy import measures_to_report
 from accuracy_checks.api import read_config
+from accuracy_checks.checks.accuracy import measures_to_report
+from accuracy_checks.checks.judge import BUILTIN_DEFAULTS
 from accuracy_checks.checks.output import (
     DUPLICATE_ROWS,
     INVALID_VALUES,
@@ -62,7 +62,7 @@ from accuracy_checks.gx.expectations import (
     ExpectStableSeriesCount,
     ExpectThresholdSegmentsPresent,
 )
-from accuracy_checks.thresholds import BUILTIN_DEFAULTS
+from accuracy_checks.sources import frames as F
 
 __all__ = ["FINITE_MAX", "suite_from_config", "suite_from_json", "suite_to_json"]
 

@@ -19,9 +19,9 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from accuracy_checks import frames as F
 from accuracy_checks.measures.data import MeasureData, result_frame
 from accuracy_checks.measures.registry import Measure, register_measure
+from accuracy_checks.sources import frames as F
 
 __all__ = ["error_cost_from_data"]
 

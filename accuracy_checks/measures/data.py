@@ -7,7 +7,8 @@ integer group codes), to series within groups with :meth:`MeasureData.units`, an
 per-series scales and per-row baselines that the engine prepared once for all groupings. No
 measure loops over rows or series.
 
-Plugin measures (:mod:`accuracy_checks.plugins`) receive the same object. The stable surface:
+Plugin measures (:mod:`accuracy_checks.measures.plugins`) receive the same object. The stable
+surface:
 ``rows`` (a DataFrame: key columns, ``period``, ``issued``, ``lag``, ``segment``, ``forecast``,
 ``actual``, quantile columns ``q<τ>``), ``groups`` (columns ``lag``, ``segment``; the row
 number is the group code), ``group`` (group code per row), ``series`` (series code per row),
@@ -25,8 +26,8 @@ from typing import Literal
 import numpy as np
 import pandas as pd
 
-from accuracy_checks import frames as F
 from accuracy_checks.measures.stats import stats_from_codes
+from accuracy_checks.sources import frames as F
 
 __all__ = [
     "CostTable",

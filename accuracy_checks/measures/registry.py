@@ -4,7 +4,7 @@ One registry holds every measure: the core ones defined here (pooled from the su
 statistics of :func:`~accuracy_checks.measures.stats.error_stats`), the other built-in
 families (:mod:`~accuracy_checks.measures.scaled`, ``signals``, ``value_added``,
 ``probabilistic``, ``cost``), and measures that other packages add through the
-``accuracy_checks.measures`` entry-point group (:mod:`accuracy_checks.plugins`). Every
+``accuracy_checks.measures`` entry-point group (:mod:`accuracy_checks.measures.plugins`). Every
 :class:`Measure` yields, per group, the columns ``value`` (float, NaN when undefined) and
 ``reason`` (``None`` or why the value is undefined), plus optional extra columns. All formulas
 are vectorised over the groups. Thresholds read ``direction`` and ``unit``; outputs read
@@ -13,7 +13,7 @@ are vectorised over the groups. Thresholds read ``direction`` and ``unit``; outp
 Rules (``METRICS.md``): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0`` →
 ``zero_denominator`` (Bias %, WAPE); any zero actual → ``zero_actual`` (MAPE, which then reports
 ``mape_nonzero``); ``n < 2`` → ``too_few_rows`` (SDE). Percentages are in percent. A figure
-whose sums exceed the float64 range is ``overflow`` (set by :mod:`accuracy_checks.accuracy`,
+whose sums exceed the float64 range is ``overflow`` (set by :mod:`accuracy_checks.checks.accuracy`,
 never by a formula: formulas stay plain arithmetic).
 
 >>> import pandas as pd
@@ -261,8 +261,8 @@ def get_measure(measure_id: str) -> Measure:
 
 def registered_measures() -> dict[str, Measure]:
     """:data:`MEASURES` after loading the plugins of the ``accuracy_checks.measures``
-    entry-point group (once per process; see :mod:`accuracy_checks.plugins`)."""
-    from accuracy_checks.plugins import load_plugins
+    entry-point group (once per process; see :mod:`accuracy_checks.measures.plugins`)."""
+    from accuracy_checks.measures.plugins import load_plugins
 
     load_plugins()
     return MEASURES

@@ -6,8 +6,8 @@ and skipped (with the reason) goes into the result's details.
 
 MASE divides each series' MAE by its in-sample scale ``s = mean |y_t − y_{t−m}|`` from the
 actuals *before the issue date of the earliest cycle evaluated* (prepared once by the engine,
-:meth:`accuracy_checks.baselines.ActualsIndex.scales`), so the figure does not move with the
-window's later cycles and every forecast is scaled by what was known when it was made.
+:meth:`accuracy_checks.evaluation.baselines.ActualsIndex.scales`), so the figure does not move with
+the window's later cycles and every forecast is scaled by what was known when it was made.
 """
 
 from __future__ import annotations

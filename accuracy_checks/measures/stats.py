@@ -14,7 +14,7 @@ Overflow: the sums are plain float64 sums, so that every figure is bit-identical
 straightforward computation. With finite inputs a sum can still overflow (one forecast of
 1e308, or ``e²`` of an error beyond ~1.3e154): it then becomes ``±inf`` or NaN, never a finite
 wrong number. :func:`overflowed` finds those groups with one ``np.isfinite`` pass over the
-reduced statistics (not the rows); :mod:`accuracy_checks.accuracy` judges their figures as
+reduced statistics (not the rows); :mod:`accuracy_checks.checks.accuracy` judges their figures as
 beyond any level (reason ``overflow``) instead of reporting them as missing data. ``Σe²`` is the
 most sensitive of the sums, so any error large enough to make another sum overflow makes it
 overflow too.

@@ -4,7 +4,7 @@
 forecast, the actual and the baseline all exist (positive: the forecast adds value), with the
 relative skill ``1 − MAE(forecast)/MAE(baseline)`` in the details (undefined if the baseline is
 perfect). Baselines use only the actuals known at each cycle's issue date
-(:mod:`accuracy_checks.baselines`):
+(:mod:`accuracy_checks.evaluation.baselines`):
 
 - ``naive``: the last actual before the issue date, repeated over the horizon;
 - ``seasonal_naive``: the last ``m`` actuals before the issue date, repeated.

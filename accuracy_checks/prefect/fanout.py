@@ -33,11 +33,11 @@ import pandas as pd
 from prefect import task
 from prefect.cache_policies import NO_CACHE
 
-from accuracy_checks import frames as F
 from accuracy_checks.config import Config
 from accuracy_checks.measures.stats import error_stats, merge_stats, overflowed, total_stats
 from accuracy_checks.outputs.wording import describe_value
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
+from accuracy_checks.sources import frames as F
 
 __all__ = [
     "EvaluationRows",
@@ -69,7 +69,7 @@ def evaluation_rows(config: Config, *, forecast_path: Path | None = None,
     (earlier forecasts of the configured lags joined with actuals, in the window). Raises
     ``UsageError`` on an unusable config or input; writes nothing."""
     from accuracy_checks.engine import load_inputs
-    from accuracy_checks.evaluation import IN_WINDOW, evaluation_frame
+    from accuracy_checks.evaluation.join import IN_WINDOW, evaluation_frame
 
     keys = list(config.forecast.keys)
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path)
@@ -143,7 +143,7 @@ def merge_partition_stats(parts: Sequence[pd.DataFrame]) -> pd.DataFrame:
 
 def stats_measures(config: Config) -> list[str]:
     """The measures a run of ``config`` reports that have a ``from_stats`` formula."""
-    from accuracy_checks.accuracy import measures_to_report
+    from accuracy_checks.checks.accuracy import measures_to_report
     from accuracy_checks.measures.registry import get_measure
 
     return [m for m in measures_to_report(config) if get_measure(m).from_stats is not None]
@@ -153,8 +153,8 @@ def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the windo
                 ) -> list[CheckResult]:
     """Accuracy results (check ``accuracy``) of every :func:`stats_measures` measure for each
     row of merged statistics, judged as the single-process gate judges them."""
+    from accuracy_checks.checks.judge import ThresholdBook
     from accuracy_checks.measures.registry import get_measure
-    from accuracy_checks.thresholds import ThresholdBook
 
     book = ThresholdBook(config)
     min_obs = config.evaluation.min_obs

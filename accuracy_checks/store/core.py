@@ -35,8 +35,8 @@ from accuracy_checks.store.schema import (
 from accuracy_checks.store.urls import default_store_url
 
 if TYPE_CHECKING:
-    from accuracy_checks.archive import StagedSnapshot
     from accuracy_checks.config import Config
+    from accuracy_checks.store.archive import StagedSnapshot
 
 
 @dataclass(frozen=True)
@@ -144,7 +144,7 @@ class Store:
         The store allocates the run's attempt (the cycle's highest recorded attempt + 1,
         under the write lock) and sets ``report.attempt`` and ``report.snapshot``. With a
         staged ``snapshot`` it becomes ``attempt-N`` in the archive inside the transaction
-        (protocol in :mod:`accuracy_checks.archive`); with ``config`` but no snapshot,
+        (protocol in :mod:`accuracy_checks.store.archive`); with ``config`` but no snapshot,
         unrecorded snapshots numbered N or above are still moved aside, so the archive never
         holds a number that the store gives to another run. ``fingerprints`` (see
         :func:`~accuracy_checks.store.record.input_fingerprints`) default to
@@ -162,7 +162,7 @@ class Store:
             snapshot.root if snapshot is not None else None)
         folder = None
         if root is not None and report.cycle is not None:
-            from accuracy_checks.archive import Archive
+            from accuracy_checks.store.archive import Archive
 
             folder = Archive(root)
         if snapshot is not None and snapshot.cycle != report.cycle:
@@ -220,7 +220,7 @@ class Store:
         attempt: left by runs killed before their record committed, so that no later run
         measures accuracy on an unrecorded snapshot. Cycles with no recorded run are left
         alone (their snapshots may predate the store). Returns where the files went."""
-        from accuracy_checks.archive import Archive
+        from accuracy_checks.store.archive import Archive
 
         folder = Archive(archive)
         if not folder.root.is_dir():

@@ -34,8 +34,8 @@ from sqlalchemy import Connection, Engine, create_engine, event, text
 from sqlalchemy.exc import DBAPIError, SQLAlchemyError
 from sqlalchemy.pool import NullPool
 
-from accuracy_checks.archive import can_write
 from accuracy_checks.errors import UsageError
+from accuracy_checks.store.archive import can_write
 from accuracy_checks.store.urls import mask_secrets, mask_url, sqlite_file
 
 #: seconds a writer waits for the write lock before giving up (SQLite busy timeout)

@@ -1,4 +1,4 @@
-"""Read the configured files into the canonical frames of :mod:`accuracy_checks.frames`.
+"""Read the configured files into the canonical frames of :mod:`accuracy_checks.sources.frames`.
 
 CSV and Parquet, a file or a folder of files. Every problem a user can fix (missing file,
 empty file, missing column, text in a number column, unparseable dates, a mapping that puts a
@@ -52,10 +52,10 @@ import numpy as np
 import pandas as pd
 from pandas.errors import OutOfBoundsDatetime
 
-from accuracy_checks import frames as F
-from accuracy_checks.codes import combined_codes_and_space, duplicated_codes
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
+from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.codes import combined_codes_and_space, duplicated_codes
 
 _PARQUET = {".parquet", ".pq"}
 _CSV = {".csv", ".txt", ".tsv"}

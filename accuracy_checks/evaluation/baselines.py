@@ -2,8 +2,8 @@
 the in-sample scales of MASE and MSIS, each in one vectorised pass.
 
 :class:`ActualsIndex` numbers the series of the actuals (``0 … n_series − 1``) and places every
-actual at its integer position on the period grid (:mod:`accuracy_checks.grid`). Lookups are
-then integer arithmetic:
+actual at its integer position on the period grid (:mod:`accuracy_checks.evaluation.grid`). Lookups
+are then integer arithmetic:
 
 - ``values_at(series, position)``: the actual of a series in a period (NaN if absent);
 - ``last_value_before(series, position)``: the last non-missing actual at or before a period
@@ -15,7 +15,7 @@ Storage is a dense ``periods × series`` matrix when the actuals fill most of it
 weekly history: no sort, one scatter; time-major, so a period's actuals are contiguous), else
 the sorted ``(series, period)`` keys with binary search. Both give the same answers. Only
 actuals dated exactly on the grid are indexed; a row dated off the grid matches nothing (the
-join of :mod:`accuracy_checks.evaluation` then falls back to an exact-date join for those
+join of :mod:`accuracy_checks.evaluation.join` then falls back to an exact-date join for those
 rows).
 
 What is "known at a cycle's issue date" ``d``: the actuals of periods dated before ``d``. On the
@@ -30,8 +30,8 @@ import numpy as np
 import pandas as pd
 from pandas.tseries.frequencies import to_offset
 
-from accuracy_checks import frames as F
-from accuracy_checks.grid import grid_positions
+from accuracy_checks.evaluation.grid import grid_positions
+from accuracy_checks.sources import frames as F
 
 __all__ = [
     "ActualsIndex",

@@ -19,9 +19,9 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from accuracy_checks import frames as F
 from accuracy_checks.measures.data import MeasureData, dense_codes
 from accuracy_checks.results import ALL_SERIES
+from accuracy_checks.sources import frames as F
 
 __all__ = ["worst_offenders"]
 

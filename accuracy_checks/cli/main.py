@@ -69,7 +69,7 @@ def _parser() -> argparse.ArgumentParser:
                       help="folder to write the demo into (default: ./accuracy-checks-demo)")
     demo.add_argument("--cycles", type=int, default=6, help="number of weekly cycles (default 6)")
 
-    from accuracy_checks.cli_audit import add_audit_commands
+    from accuracy_checks.cli.audit import add_audit_commands
 
     add_audit_commands(sub)  # history, breaches, waive, waivers, revoke, verify
     return p
@@ -106,14 +106,14 @@ def main(argv: list[str] | None = None) -> int:
             else:
                 print(text)
             return EXIT_PASS
-        from accuracy_checks.cli_audit import COMMANDS as AUDIT_COMMANDS
+        from accuracy_checks.cli.audit import COMMANDS as AUDIT_COMMANDS
 
         if args.command in AUDIT_COMMANDS:
-            from accuracy_checks.cli_audit import run_audit_command
+            from accuracy_checks.cli.audit import run_audit_command
 
             return run_audit_command(args)
         if args.command == "demo":
-            from accuracy_checks.demo import run_demo
+            from accuracy_checks.demo.scenario import run_demo
 
             run_demo(args.out, cycles=args.cycles)
             return EXIT_PASS

@@ -46,8 +46,8 @@ from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Literal
 
-from accuracy_checks import frames as F
 from accuracy_checks.errors import UsageError
+from accuracy_checks.sources import frames as F
 
 if TYPE_CHECKING:  # pandas loads only when a snapshot is read or written
     import pandas as pd

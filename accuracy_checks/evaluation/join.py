@@ -18,8 +18,8 @@ that reaches the measures is finite, and a non-finite sum in the measures can on
 overflow (see :func:`accuracy_checks.measures.stats.overflowed`).
 
 The join runs on integer codes: the actuals are indexed once by (series, grid position)
-(:class:`~accuracy_checks.baselines.ActualsIndex`), which also serves the baselines and the
-MASE scales; ``__series`` holds each row's series code in that index (−1: no actuals).
+(:class:`~accuracy_checks.evaluation.baselines.ActualsIndex`), which also serves the baselines and
+the MASE scales; ``__series`` holds each row's series code in that index (−1: no actuals).
 """
 
 from __future__ import annotations
@@ -29,10 +29,10 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from accuracy_checks import frames as F
-from accuracy_checks.archive import cycle_label
-from accuracy_checks.baselines import ActualsIndex
-from accuracy_checks.grid import grid_positions
+from accuracy_checks.evaluation.baselines import ActualsIndex
+from accuracy_checks.evaluation.grid import grid_positions
+from accuracy_checks.sources import frames as F
+from accuracy_checks.store.archive import cycle_label
 
 #: evaluation-frame columns of the engine's own (key columns may not start with ``__``)
 CYCLE_START = "__cycle_start"

@@ -1,7 +1,7 @@
 """Accuracy results: every measure, per lag, per segment and for all series (segment ``"*"``).
 
 For each configured lag, every requested measure is computed per segment and for all series
-together (``"*"``) from the evaluation rows of its window (:mod:`accuracy_checks.evaluation`),
+together (``"*"``) from the evaluation rows of its window (:mod:`accuracy_checks.evaluation.join`),
 through the one registry (:mod:`accuracy_checks.measures.registry`), then judged against the
 thresholds. Core measures are pooled from grouped sufficient statistics; the other families
 reduce the rows per group or per series within a group (:class:`~accuracy_checks.measures.
@@ -18,7 +18,7 @@ Rules:
   breach that chance explains (coverage's binomial test);
 - every breached (warn/fail) result lists its worst offenders as ``examples``: the series
   contributing most to the segment's absolute error, or to its bias for bias-type measures
-  (:mod:`accuracy_checks.offenders`);
+  (:mod:`accuracy_checks.checks.offenders`);
 - a plugin measure that raises gives its results the status ``error`` with the plugin's
   message; everything else still runs;
 - a figure whose sums exceed the float64 range (an error or actual of absurd size, e.g. an
@@ -41,16 +41,17 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from accuracy_checks import frames as F
-from accuracy_checks.baselines import (
+from accuracy_checks.checks.judge import ThresholdBook, breaks
+from accuracy_checks.checks.offenders import worst_offenders
+from accuracy_checks.config import Config
+from accuracy_checks.evaluation.baselines import (
     ActualsIndex,
     default_seasonal_period,
     known_through,
     naive_forecast,
     seasonal_naive_forecast,
 )
-from accuracy_checks.config import Config
-from accuracy_checks.evaluation import IN_TRACKING, IN_WINDOW, SERIES
+from accuracy_checks.evaluation.join import IN_TRACKING, IN_WINDOW, SERIES
 from accuracy_checks.measures.data import (
     SCALE_OK,
     SCALE_TOO_FEW_ROWS,
@@ -67,10 +68,9 @@ from accuracy_checks.measures.registry import (
     registered_measures,
 )
 from accuracy_checks.measures.stats import overflowed
-from accuracy_checks.offenders import worst_offenders
 from accuracy_checks.outputs.wording import describe_value, format_number
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
-from accuracy_checks.thresholds import ThresholdBook, breaks
+from accuracy_checks.sources import frames as F
 
 CHECK = "accuracy"
 #: reason of a figure whose sums exceed the float64 range (judged beyond any level)
@@ -98,7 +98,7 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
                      offenders: int = 10) -> list[CheckResult]:
     """Judge every measure for every (lag, segment) of the evaluation frame.
 
-    ``frame`` is :func:`~accuracy_checks.evaluation.evaluation_frame`'s frame (rows without
+    ``frame`` is :func:`~accuracy_checks.evaluation.join.evaluation_frame`'s frame (rows without
     the ``__in_window``/``__in_tracking`` flags count in both windows); ``history`` the
     actuals index it was joined with (needed by MASE, MSIS and FVA), ``frequency`` the period
     grid (needed with ``history``), ``tracking`` the tracking window's periods, ``offenders``
@@ -700,8 +700,8 @@ def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *
                  book: ThresholdBook) -> list[CheckResult]:
     """The accuracy results of a run: evaluation frame → measures → judged results, plus a
     warning for each rejected measure plugin."""
-    from accuracy_checks.evaluation import evaluation_frame
-    from accuracy_checks.plugins import rejected_plugins
+    from accuracy_checks.evaluation.join import evaluation_frame
+    from accuracy_checks.measures.plugins import rejected_plugins
 
     keys = list(config.forecast.keys)
     measures = measures_to_report(config)

@@ -329,7 +329,7 @@ def drift_measures(config: Config, results: Sequence[CheckResult]) -> list[str]:
         return reported
     if drift.measures:
         return [m for m in drift.measures if m in reported]
-    from accuracy_checks.thresholds import ThresholdBook
+    from accuracy_checks.checks.judge import ThresholdBook
 
     book = ThresholdBook(config)
     return [m for m in reported if book.has_threshold(m)]
