@@ -15,10 +15,11 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from conftest import Project
 
 import accuracy_checks
 from accuracy_checks import load_config
+from tests.support.paths import REPO
+from tests.support.project import Project
 
 
 def test_root_import_loads_neither_gx_nor_pandas() -> None:
@@ -27,7 +28,7 @@ def test_root_import_loads_neither_gx_nor_pandas() -> None:
             "assert 'pandas' not in sys.modules, 'pandas imported'; "
             "assert callable(accuracy_checks.evaluation_frame)")
     done = subprocess.run([sys.executable, "-c", code], capture_output=True, text=True,
-                          check=False, cwd=Path(__file__).resolve().parents[1])
+                          check=False, cwd=REPO)
     assert done.returncode == 0, done.stderr
 
 

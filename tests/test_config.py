@@ -10,6 +10,7 @@ import pytest
 
 from accuracy_checks.config import json_schema, load_config, parse_config
 from accuracy_checks.errors import ConfigError
+from tests.support.paths import REPO
 
 BASE = """\
 version: 1
@@ -42,7 +43,7 @@ def test_minimal_config_resolves_paths_against_the_config_folder() -> None:
 
 
 def test_the_product_contract_example_is_valid(tmp_path: Path) -> None:
-    text = (Path(__file__).parent.parent / "fixtures" / "contract-example.yaml").read_text()
+    text = (REPO / "fixtures" / "contract-example.yaml").read_text()
     cfg = parse_config(text, source=tmp_path / "c.yaml")
     assert cfg.forecast.quantiles == {0.1: "p10", 0.9: "p90"}
     assert cfg.thresholds.segments["seasonal-plants"]["wape"].warn == 40
@@ -139,7 +140,7 @@ def test_json_schema_validates_the_contract_example() -> None:
 
     schema = json_schema()
     json.dumps(schema)
-    text = (Path(__file__).parent.parent / "fixtures" / "contract-example.yaml").read_text()
+    text = (REPO / "fixtures" / "contract-example.yaml").read_text()
     jsonschema.validate(yaml.safe_load(text), schema)
     with pytest.raises(jsonschema.ValidationError):
         jsonschema.validate({"version": 1, "forecast": {}, "bogus": 1}, schema)

@@ -11,10 +11,10 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 import pytest
-from conftest import CURRENT, EARLIER, Project, actuals_frame, forecast_frame
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.results import CheckResult, RunReport
+from tests.support.project import CURRENT, EARLIER, Project, actuals_frame, forecast_frame
 
 
 def find(report: RunReport, check: str, segment: str = "*", measure: str | None = None,
