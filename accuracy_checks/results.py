@@ -43,7 +43,7 @@ DISPLAY_ORDER: dict[str, int] = {
 
 @dataclass(frozen=True)
 class CheckResult:
-    """One judged figure. Field names follow the JSON contract in PRODUCT.md."""
+    """One judged figure. Field names follow the JSON contract, docs/results.md."""
 
     check: str
     status: Status
@@ -134,7 +134,7 @@ class RunReport:
         return out
 
     def to_dict(self) -> dict[str, Any]:
-        """The ``--json`` document (PRODUCT.md contract, plus run metadata keys)."""
+        """The ``--json`` document (docs/results.md, plus run metadata keys)."""
         return {
             "status": self.status,
             "run_id": self.run_id,

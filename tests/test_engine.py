@@ -1,7 +1,7 @@
 """End-to-end runs of the engine on the small hand-built project (tests/conftest.py).
 
 Expected figures are recomputed here directly from the files with numpy and the formulas of
-METRICS.md (Bias % = 100·Σe/Σ|y|, WAPE = 100·Σ|e|/Σ|y|, e = actual − forecast).
+docs/measures.md (Bias % = 100·Σe/Σ|y|, WAPE = 100·Σ|e|/Σ|y|, e = actual − forecast).
 """
 
 from __future__ import annotations

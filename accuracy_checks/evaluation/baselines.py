@@ -9,7 +9,7 @@ are then integer arithmetic:
 - ``last_value_before(series, position)``: the last non-missing actual at or before a period
   (the naive forecast);
 - ``scales(m, before)``: per series, ``s = mean |y_t − y_{t−m}|`` over the periods before
-  ``before`` where both actuals exist (METRICS.md 9).
+  ``before`` where both actuals exist (docs/measures.md §9).
 
 Storage is a dense ``periods × series`` matrix when the actuals fill most of it (a retailer's
 weekly history: no sort, one scatter; time-major, so a period's actuals are contiguous), else
@@ -52,7 +52,7 @@ def default_seasonal_period(frequency: str) -> int:
     """The seasonal period m for a pandas frequency: 52 weekly, 12 monthly, 4 quarterly,
     7 daily, 24 hourly, 1 otherwise (and for multiples such as ``2W``).
 
-    M4 used 12 monthly, 4 quarterly, 24 hourly and 1 otherwise (METRICS.md 9); 52 weekly and
+    M4 used 12 monthly, 4 quarterly, 24 hourly and 1 otherwise (docs/measures.md §9); 52 weekly and
     7 daily are this project's choices (a year of weeks, a week of days).
 
     >>> [default_seasonal_period(f) for f in ("W-MON", "MS", "ME", "QS", "D", "h", "YS", "2W")]
@@ -303,7 +303,7 @@ class ActualsIndex:
         """Per series: ``s = mean |y_t − y_{t−m}|`` over the pairs of non-missing actuals with
         both positions ``< before``, and the number of pairs (0: ``s`` is NaN).
 
-        With a gap-free history of N periods there are N − m pairs: METRICS.md 9's
+        With a gap-free history of N periods there are N − m pairs: docs/measures.md §9's
         ``Σ_{t=m+1..N} |y_t − y_{t−m}| / (N − m)``.
         """
         if m < 1:
@@ -338,7 +338,7 @@ class ActualsIndex:
 def naive_forecast(index: ActualsIndex, series: np.ndarray, known: np.ndarray) -> np.ndarray:
     """The naive baseline of each row: the last actual known at its cycle's issue date.
 
-    ``known`` is :func:`known_through` of the row's issue date (METRICS.md 12).
+    ``known`` is :func:`known_through` of the row's issue date (docs/measures.md §12).
     """
     return index.last_value_before(series, known)
 
@@ -349,7 +349,7 @@ def seasonal_naive_forecast(index: ActualsIndex, series: np.ndarray, target: np.
 
     For a target position ``t`` and last known position ``K``, the value at
     ``t − m·⌈(t − K)/m⌉`` (the same season in the last known cycle of ``m`` periods); NaN when
-    that actual is missing (METRICS.md 12).
+    that actual is missing (docs/measures.md §12).
     """
     steps = np.maximum((target - known + m - 1) // m, 1)
     return index.values_at(series, target - m * steps)

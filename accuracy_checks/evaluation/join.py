@@ -1,6 +1,6 @@
 """The evaluation frame: earlier cycles' forecasts joined with the actuals that arrived since.
 
-Lag (PRODUCT.md): where a target period sits in its cycle's horizon, counted on the period
+Lag (docs/measures.md): where a target period sits in its cycle's horizon, counted on the period
 grid. Lag 1 is the first period the cycle forecasts for any series, lag k the (k−1)-th grid
 period after it:  ``lag = position(period) − position(first period of the cycle) + 1``.
 

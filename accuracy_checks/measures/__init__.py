@@ -1,7 +1,7 @@
 """Accuracy measures: reference functions, grouped statistics, the families and the registry.
 
 - :mod:`~accuracy_checks.measures.functions`: readable reference implementations of every
-  measure (``METRICS.md`` 1–15), one series or one pooled set of rows at a time.
+  measure (docs/measures.md §1–15), one series or one pooled set of rows at a time.
 - :mod:`~accuracy_checks.measures.stats`: :func:`error_stats`, :func:`merge_stats`,
   :func:`total_stats`, the mergeable per-group statistics of the core measures (the hot path).
 - :mod:`~accuracy_checks.measures.data`: :class:`MeasureData`, what a measure computes on.

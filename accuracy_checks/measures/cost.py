@@ -7,7 +7,7 @@ over-forecast (``e < 0``: stock left over) costs ``c_over``:
 
 pooled over the group's rows, in money (``costs.currency``). Since
 ``c_under·max(u, 0) + c_over·max(−u, 0) = (c_under + c_over)·ρ_τ(u)`` with the pinball loss
-``ρ_τ`` at ``τ* = c_under / (c_under + c_over)`` (METRICS.md 14), the cost is a pinball loss
+``ρ_τ`` at ``τ* = c_under / (c_under + c_over)`` (docs/measures.md §14), the cost is a pinball loss
 at the cost-optimal quantile, scaled to money: the forecast that minimises the expected cost is
 the τ* quantile of demand (the newsvendor's critical fractile). The details report τ* and that
 pinball loss in data units. Segment ``"*"`` adds the money of every segment, each at its own
@@ -91,5 +91,6 @@ register_measure(Measure(
     needs=frozenset({"costs"}),
     description="Σ c_under·max(e, 0) + c_over·max(−e, 0) in money (costs.currency), pooled; "
     "= (c_under + c_over) × the pinball loss at τ* = c_under/(c_under + c_over). Segment * "
-    "adds every segment's money at its own unit costs (project choice; pinball: METRICS.md 14).",
+    "adds every segment's money at its own unit costs (project choice; pinball: "
+    "docs/measures.md §14).",
 ))

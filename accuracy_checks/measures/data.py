@@ -332,7 +332,7 @@ class MeasureData:
     def per_unit_mean(self, units: Units, value: np.ndarray, defined: np.ndarray
                       ) -> tuple[np.ndarray, np.ndarray]:
         """Per group: the unweighted mean of the defined per-unit values, and how many units
-        were defined (the per-series-then-mean aggregation of METRICS.md)."""
+        were defined (the per-series-then-mean aggregation of docs/measures.md)."""
         count = np.bincount(units.group[defined], minlength=self.n_groups).astype(np.float64)
         total = np.bincount(units.group[defined], weights=value[defined],
                             minlength=self.n_groups)

@@ -1,11 +1,11 @@
-"""Reference implementations of the accuracy measures (``METRICS.md`` 1–15).
+"""Reference implementations of the accuracy measures (docs/measures.md §1–15).
 
 Each function works on one series (or one pooled set of rows) given as 1-D array-likes of
 the same length, written for reading, not speed: the engine computes the same figures from
 grouped statistics and vectorised group reductions (:mod:`accuracy_checks.measures.stats`,
 the measure families and the registry), and the tests hold the two to the same values.
 
-Conventions (``METRICS.md``):
+Conventions (docs/measures.md):
 
 - ``e = actual − forecast``; a positive error is an **under-forecast**.
 - Rows where the actual or the forecast is NaN are dropped first; ``±inf`` is not dropped.
@@ -73,7 +73,7 @@ def mean_error(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 1; common practice, no source. Reference:
+    docs/measures.md §1; common practice, no source. Reference:
     ``statsmodels.tools.eval_measures.bias(actual, forecast)``.
 
     Examples
@@ -106,7 +106,7 @@ def bias_pct(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 2; common practice, no source. Reference:
+    docs/measures.md §2; common practice, no source. Reference:
     ``100 * statsmodels.tools.eval_measures.bias(y, f) / np.mean(np.abs(y))``.
 
     Examples
@@ -136,7 +136,7 @@ def mean_absolute_error(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 3; common practice (Brown, 1959, used MAD as the noise measure).
+    docs/measures.md §3; common practice (Brown, 1959, used MAD as the noise measure).
     Reference: ``sklearn.metrics.mean_absolute_error`` = ``statsmodels ... meanabs``.
 
     Examples
@@ -167,7 +167,7 @@ def mape(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 4; common practice, critiqued by Hyndman & Koehler (2006). Reference:
+    docs/measures.md §4; common practice, critiqued by Hyndman & Koehler (2006). Reference:
     ``100 * sklearn.metrics.mean_absolute_percentage_error`` only when no actual is 0 (sklearn
     divides by ~2.2e-16 instead).
 
@@ -201,7 +201,7 @@ def mape_nonzero(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 4 (``mape_nonzero``; check value E4 = 75 %).
+    docs/measures.md §4 (``mape_nonzero``; check value E4 = 75 %).
 
     Examples
     --------
@@ -234,7 +234,7 @@ def wape(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 5; Kolassa & Schütz (2007), "Advantages of the MAD/MEAN ratio over the
+    docs/measures.md §5; Kolassa & Schütz (2007), "Advantages of the MAD/MEAN ratio over the
     MAPE", Foresight 6:40–43. Reference:
     ``100 * sklearn.metrics.mean_absolute_error(y, f) / np.mean(np.abs(y))``.
 
@@ -267,7 +267,7 @@ def rmse(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 7; common practice, Hyndman & Koehler (2006). Reference:
+    docs/measures.md §7; common practice, Hyndman & Koehler (2006). Reference:
     ``sklearn.metrics.root_mean_squared_error`` = ``statsmodels ... rmse``.
 
     Examples
@@ -298,7 +298,7 @@ def sde(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 8; common practice, no source. Reference:
+    docs/measures.md §8; common practice, no source. Reference:
     ``statsmodels.tools.eval_measures.stde(y, f, ddof=1)`` (its default ``ddof=0`` is not this)
     = ``np.std(e, ddof=1)``.
 
@@ -332,7 +332,7 @@ def smape(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 6; Makridakis, Spiliotis & Assimakopoulos (2020), "The M4
+    docs/measures.md §6; Makridakis, Spiliotis & Assimakopoulos (2020), "The M4
     Competition", IJF 36(1):54–74. No library reference (checked with exact fractions).
 
     Examples
@@ -382,7 +382,7 @@ def mase(actual: ArrayLike, forecast: ArrayLike, history: ArrayLike, m: int = 1)
 
     Notes
     -----
-    ``METRICS.md`` entry 9; Hyndman & Koehler (2006), "Another look at measures of forecast
+    docs/measures.md §9; Hyndman & Koehler (2006), "Another look at measures of forecast
     accuracy", IJF 22(4):679–688; seasonal form as in M4. Reference:
     ``sklearn.metrics.mean_absolute_error(y, f) / mean_absolute_error(h[m:], h[:-m])``.
 
@@ -403,7 +403,7 @@ def tracking_signal(actual: ArrayLike, forecast: ArrayLike) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 10; Brown (1959). Reference:
+    docs/measures.md §10; Brown (1959). Reference:
     ``n * statsmodels.tools.eval_measures.bias(y, f) / meanabs(y, f)``.
 
     Examples
@@ -429,7 +429,7 @@ def trigg_signal(actual: ArrayLike, forecast: ArrayLike, alpha: float = 0.1) -> 
 
     Notes
     -----
-    ``METRICS.md`` entry 11; Trigg (1964), "Monitoring a forecasting system", Operational
+    docs/measures.md §11; Trigg (1964), "Monitoring a forecasting system", Operational
     Research Quarterly 15(3):271–274. Reference: ``scipy.signal.lfilter([α], [1, α − 1], e,
     zi=[(1 − α)·E_0])`` and the same on |e| with ``M_0``, ratio at the last row.
 
@@ -486,7 +486,7 @@ def forecast_value_added(actual: ArrayLike, forecast: ArrayLike,
 
     Notes
     -----
-    ``METRICS.md`` entry 12; Gilliland (2010), *The Business Forecasting Deal*; relative MAE
+    docs/measures.md §12; Gilliland (2010), *The Business Forecasting Deal*; relative MAE
     from Davydenko & Fildes (2013), IJF 29(3):510–522. Reference: two
     ``sklearn.metrics.mean_absolute_error`` calls.
 
@@ -512,7 +512,7 @@ def interval_coverage(actual: ArrayLike, lower: ArrayLike, upper: ArrayLike) -> 
 
     Notes
     -----
-    ``METRICS.md`` entry 13; common practice; the shortfall is tested with
+    docs/measures.md §13; common practice; the shortfall is tested with
     ``scipy.stats.binomtest(k, n, p=1 − α)`` (Christoffersen 1998).
 
     Examples
@@ -535,7 +535,7 @@ def pinball_loss(actual: ArrayLike, quantile: ArrayLike, tau: float) -> float:
 
     Notes
     -----
-    ``METRICS.md`` entry 14; Koenker & Bassett (1978), "Regression quantiles", Econometrica
+    docs/measures.md §14; Koenker & Bassett (1978), "Regression quantiles", Econometrica
     46(1):33–50. Reference: ``sklearn.metrics.mean_pinball_loss(y, q, alpha=τ)``.
 
     Examples
@@ -558,7 +558,7 @@ def interval_score(actual: ArrayLike, lower: ArrayLike, upper: ArrayLike, alpha:
 
     Notes
     -----
-    ``METRICS.md`` entry 15; Gneiting & Raftery (2007), "Strictly proper scoring rules,
+    docs/measures.md §15; Gneiting & Raftery (2007), "Strictly proper scoring rules,
     prediction, and estimation", JASA 102(477):359–378. Reference:
     ``(2/α)·(mean_pinball_loss(y, L, alpha=α/2) + mean_pinball_loss(y, U, alpha=1 − α/2))``.
 
@@ -583,7 +583,7 @@ def msis(actual: ArrayLike, lower: ArrayLike, upper: ArrayLike, alpha: float,
 
     Notes
     -----
-    ``METRICS.md`` entry 15; MSIS from the M4 Competition (2020), which used α = 0.05.
+    docs/measures.md §15; MSIS from the M4 Competition (2020), which used α = 0.05.
 
     Examples
     --------

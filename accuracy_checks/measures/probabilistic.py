@@ -1,4 +1,4 @@
-"""Measures of quantile and interval forecasts (METRICS.md 13–15).
+"""Measures of quantile and interval forecasts (docs/measures.md §13–15).
 
 Quantile forecasts come from ``forecast.quantiles``; every pair of levels ``τ`` and ``1 − τ``
 forms a central interval of nominal coverage ``1 − 2τ`` (``α = 2τ``). Each measure gives one
@@ -214,7 +214,7 @@ register_measure(Measure(
     breach_counts=_coverage_breach_counts,
     description="100·mean(1{L ≤ actual ≤ U}) in percent for each central interval, pooled, "
     "judged by its distance from the nominal level (pp) and the one-sided binomial test "
-    "(as scipy.stats.binomtest). METRICS.md 13 (Christoffersen 1998).",
+    "(as scipy.stats.binomtest). docs/measures.md §13 (Christoffersen 1998).",
 ))
 register_measure(Measure(
     id="pinball",
@@ -224,7 +224,7 @@ register_measure(Measure(
     compute=pinball_from_data,
     needs=frozenset({"quantiles"}),
     description="Mean pinball loss of each quantile forecast, pooled, in data units; at τ = 0.5 "
-    "it is MAE/2. METRICS.md 14 (Koenker & Bassett 1978).",
+    "it is MAE/2. docs/measures.md §14 (Koenker & Bassett 1978).",
 ))
 register_measure(Measure(
     id="mis",
@@ -234,7 +234,7 @@ register_measure(Measure(
     compute=mis_from_data,
     needs=frozenset({"intervals"}),
     description="Mean interval score (U − L) + (2/α)·(miss below L or above U), pooled, in data "
-    "units. METRICS.md 15 (Gneiting & Raftery 2007).",
+    "units. docs/measures.md §15 (Gneiting & Raftery 2007).",
 ))
 register_measure(Measure(
     id="msis",
@@ -244,5 +244,5 @@ register_measure(Measure(
     compute=msis_from_data,
     needs=frozenset({"intervals", "history"}),
     description="Mean interval score / s per series (s as for MASE), then the unweighted mean. "
-    "METRICS.md 15 (M4, 2020).",
+    "docs/measures.md §15 (M4, 2020).",
 ))

@@ -10,7 +10,7 @@ families (:mod:`~accuracy_checks.measures.scaled`, ``signals``, ``value_added``,
 are vectorised over the groups. Thresholds read ``direction`` and ``unit``; outputs read
 ``label`` and ``description``.
 
-Rules (``METRICS.md``): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0`` →
+Rules (docs/measures.md): ``n = 0`` → ``no_data`` for every measure; ``Σ|y| = 0`` →
 ``zero_denominator`` (Bias %, WAPE); any zero actual → ``zero_actual`` (MAPE, which then reports
 ``mape_nonzero``); ``n < 2`` → ``too_few_rows`` (SDE). Percentages are in percent. A figure
 whose sums exceed the float64 range is ``overflow`` (set by :mod:`accuracy_checks.checks.accuracy`,
@@ -354,7 +354,7 @@ for _measure in (
         from_stats=_me,
         bias_type=True,
         description="Σe/n with e = actual − forecast; positive = under-forecast. "
-        "METRICS.md 1 (common practice).",
+        "docs/measures.md §1 (common practice).",
     ),
     Measure(
         id="bias_pct",
@@ -364,7 +364,7 @@ for _measure in (
         from_stats=_bias_pct,
         bias_type=True,
         description="100·Σe/Σ|actual| in percent, pooled (volume-weighted); positive = "
-        "under-forecast. Undefined if Σ|actual| = 0. METRICS.md 2 (common practice).",
+        "under-forecast. Undefined if Σ|actual| = 0. docs/measures.md §2 (common practice).",
     ),
     Measure(
         id="mae",
@@ -372,7 +372,7 @@ for _measure in (
         unit="units",
         direction="lower",
         from_stats=_mae,
-        description="Mean absolute error Σ|e|/n in data units (MAD). METRICS.md 3 "
+        description="Mean absolute error Σ|e|/n in data units (MAD). docs/measures.md §3 "
         "(common practice; Brown 1959).",
     ),
     Measure(
@@ -382,7 +382,7 @@ for _measure in (
         direction="lower",
         from_stats=_mape,
         description="100·mean(|e|/|actual|) in percent, pooled over rows. Undefined if any "
-        "actual is 0; then mape_nonzero covers the nonzero rows. METRICS.md 4 "
+        "actual is 0; then mape_nonzero covers the nonzero rows. docs/measures.md §4 "
         "(common practice; critiqued by Hyndman & Koehler 2006).",
     ),
     Measure(
@@ -392,7 +392,7 @@ for _measure in (
         direction="lower",
         from_stats=_wape,
         description="100·Σ|e|/Σ|actual| in percent (MAD/mean ratio), pooled. Undefined if "
-        "Σ|actual| = 0. METRICS.md 5 (Kolassa & Schütz 2007).",
+        "Σ|actual| = 0. docs/measures.md §5 (Kolassa & Schütz 2007).",
     ),
     Measure(
         id="rmse",
@@ -400,7 +400,7 @@ for _measure in (
         unit="units",
         direction="lower",
         from_stats=_rmse,
-        description="√(Σe²/n) in data units, pooled. METRICS.md 7 "
+        description="√(Σe²/n) in data units, pooled. docs/measures.md §7 "
         "(common practice; Hyndman & Koehler 2006).",
     ),
     Measure(
@@ -410,7 +410,7 @@ for _measure in (
         direction="lower",
         from_stats=_sde,
         description="√(Σ(e − ME)²/(n − 1)) in data units, pooled. Undefined if n < 2. "
-        "METRICS.md 8 (common practice).",
+        "docs/measures.md §8 (common practice).",
     ),
 ):
     register_measure(_measure)

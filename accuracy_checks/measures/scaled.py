@@ -1,4 +1,4 @@
-"""Scale-free measures averaged per series: sMAPE (M4 form) and MASE (METRICS.md 6 and 9).
+"""Scale-free measures averaged per series: sMAPE (M4 form) and MASE (docs/measures.md §6 and 9).
 
 Both are computed per series within each group (lag × segment), then averaged without weights
 over the series whose value is defined, as the M4 competition did; the count of series used
@@ -79,7 +79,7 @@ register_measure(Measure(
     direction="lower",
     compute=smape_from_data,
     description="100·mean(2|e|/(|actual|+|forecast|)) in percent (0–200), per series then "
-    "the unweighted mean (M4). y = f = 0 scores 0. METRICS.md 6 (Makridakis, Spiliotis & "
+    "the unweighted mean (M4). y = f = 0 scores 0. docs/measures.md §6 (Makridakis, Spiliotis & "
     "Assimakopoulos 2020).",
 ))
 register_measure(Measure(
@@ -91,5 +91,5 @@ register_measure(Measure(
     needs=frozenset({"history"}),
     description="MAE / s per series, s = mean|y_t − y_{t−m}| of the actuals before the issue "
     "date of the earliest cycle evaluated; then the unweighted mean. Below 1 beats the "
-    "in-sample (seasonal) naive forecast. METRICS.md 9 (Hyndman & Koehler 2006; M4).",
+    "in-sample (seasonal) naive forecast. docs/measures.md §9 (Hyndman & Koehler 2006; M4).",
 ))

@@ -1,4 +1,4 @@
-"""Sustained-bias signals: the tracking signal and Trigg's smoothed signal (METRICS.md 10–11).
+"""Sustained-bias signals: tracking signal and Trigg's smoothed signal (docs/measures.md §10–11).
 
 Both work on a segment's series *summed by period* (the error of the sum is the sum of the
 errors) over the tracking window: the ``evaluation.tracking_window`` most recent periods that
@@ -32,11 +32,11 @@ from accuracy_checks.measures.registry import Levels, Measure, register_measure
 
 __all__ = ["scaled_limit", "tracking_signal_from_data", "trigg_from_data"]
 
-#: SD / MAD of normal errors, rounded as in METRICS.md 10 (√(π/2) = 1.2533)
+#: SD / MAD of normal errors, rounded as in docs/measures.md §10 (√(π/2) = 1.2533)
 SD_PER_MAD = 1.25
 #: default z of the scaled limit: a nominal 5 % two-sided false-alarm rate
 DEFAULT_Z = 1.96
-#: the practitioner's constant limit (METRICS.md 10: ±4; texts vary from ±3 to ±8)
+#: the practitioner's constant limit (docs/measures.md §10: ±4; texts vary from ±3 to ±8)
 DEFAULT_CONSTANT = 4.0
 
 
@@ -137,7 +137,7 @@ register_measure(Measure(
     bias_type=True,
     description="Σe / MAD over the tracking window on the segment's series summed by period; "
     "positive = sustained under-forecast. Limit z·1.25·√n (default z = 1.96) or a constant. "
-    "METRICS.md 10 (Brown 1959).",
+    "docs/measures.md §10 (Brown 1959).",
 ))
 register_measure(Measure(
     id="trigg",
@@ -149,5 +149,5 @@ register_measure(Measure(
     bias_type=True,
     description="Smoothed error / smoothed absolute error (α = evaluation.trigg_alpha, "
     "E0 = 0, M0 = window MAD) at the last period, in [−1, 1]; positive = under-forecast. "
-    "Simulated 95 %/99 % points of |T|: 0.54/0.67 at α = 0.1. METRICS.md 11 (Trigg 1964).",
+    "Simulated 95 %/99 % points of |T|: 0.54/0.67 at α = 0.1. docs/measures.md §11 (Trigg 1964).",
 ))

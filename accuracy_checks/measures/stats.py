@@ -4,7 +4,7 @@
 per group (segment × lag …). Every accuracy measure of the registry is a vectorised formula on
 those rows, so the per-row work happens once, whatever the number of measures.
 
-Conventions (``METRICS.md``): ``e = actual − forecast`` (positive = under-forecast); a row where
+Conventions (docs/measures.md): ``e = actual − forecast`` (positive = under-forecast); a row where
 the actual or the forecast is NaN is dropped and counted in ``n_dropped``; ``±inf`` is *not*
 dropped (it propagates to ``inf``/NaN sums; the evaluation frame turns every infinite input
 into NaN before, and the checks name those rows). Rows whose group key is missing belong to no

@@ -1,4 +1,4 @@
-"""Forecast value added against naive baselines (METRICS.md 12).
+"""Forecast value added against naive baselines (docs/measures.md §12).
 
 ``FVA = WAPE(baseline) − WAPE(forecast)`` in percentage points, pooled over the rows where the
 forecast, the actual and the baseline all exist (positive: the forecast adds value), with the
@@ -67,7 +67,7 @@ register_measure(Measure(
     needs=frozenset({"history"}),
     description="WAPE(naive) − WAPE(forecast) in percentage points, pooled; naive = the last "
     "actual before each cycle's issue date. > 0: the forecast adds value. Relative skill "
-    "1 − MAE(f)/MAE(naive) in details. METRICS.md 12 (Gilliland 2010; Davydenko & Fildes "
+    "1 − MAE(f)/MAE(naive) in details. docs/measures.md §12 (Gilliland 2010; Davydenko & Fildes "
     "2013).",
 ))
 register_measure(Measure(
@@ -78,5 +78,5 @@ register_measure(Measure(
     compute=_compute("seasonal_naive"),
     needs=frozenset({"history"}),
     description="WAPE(seasonal naive) − WAPE(forecast) in percentage points, pooled; the "
-    "baseline repeats the last m actuals before each cycle's issue date. METRICS.md 12.",
+    "baseline repeats the last m actuals before each cycle's issue date. docs/measures.md §12.",
 ))

@@ -1,6 +1,6 @@
 """The ``--json`` document: :meth:`RunReport.to_dict` written atomically.
 
-Contract (PRODUCT.md): ``{"status", "run_id", "cycle", "results": [{"check", "segment", "lag",
+Contract (docs/results.md): ``{"status", "run_id", "cycle", "results": [{"check", "segment", "lag",
 "measure", "value", "warn", "fail", "status", "n_series", "n_obs", "message", "examples"}, …]}``
 plus the run metadata keys and the result extras ``reason``, ``unit``, ``details``.
 

@@ -61,7 +61,7 @@ MAX_TABLE_ROWS = 100
 MAX_SEGMENT_ROWS = 50
 
 _ATTENTION = ("fail", "error", "warn", "waived")
-#: Canonical column order of measures (PRODUCT.md identifiers); others follow by name.
+#: Canonical column order of measures (docs/results.md); others follow by name.
 _MEASURE_ORDER = (
     "me",
     "bias_pct",

@@ -253,7 +253,7 @@ def _describe_bound(bound: Any, direction: str, suffix: str) -> str:
 def describe_threshold(result: CheckResult) -> str:
     """The thresholds a result was judged against, in words.
 
-    A threshold is exceeded when the value is strictly beyond it (PRODUCT.md).
+    A threshold is exceeded when the value is strictly beyond it (docs/checks.md).
 
     >>> describe_threshold(CheckResult("accuracy", "pass", measure="wape", warn=25, fail=40))
     'warn > 25 %, fail > 40 %'

@@ -1,5 +1,5 @@
 """Property: every segment's (and "*"'s) accuracy results equal a direct numpy computation of
-the METRICS.md formulas on the same rows, for random evaluation frames."""
+the docs/measures.md formulas on the same rows, for random evaluation frames."""
 
 from __future__ import annotations
 
@@ -28,7 +28,7 @@ CONFIG = parse_config(
 
 
 def direct(y: np.ndarray, f: np.ndarray) -> dict[str, float | None]:
-    """METRICS.md entries 1–8 written out with numpy (NaN rows dropped first)."""
+    """docs/measures.md §1–8 written out with numpy (NaN rows dropped first)."""
     keep = ~(np.isnan(y) | np.isnan(f))
     y, f = y[keep], f[keep]
     e = y - f

@@ -9,7 +9,7 @@ Rules under test (issue 10, item 3):
   is judged beyond its level (reason ``overflow``), never "undefined (no_data)";
 - no output prints ``nan`` or ``inf``.
 
-Expected figures are recomputed here from the files with numpy (METRICS.md: e = actual −
+Expected figures are recomputed here from the files with numpy (docs/measures.md: e = actual −
 forecast, Bias % = 100·Σe/Σ|y|, WAPE = 100·Σ|e|/Σ|y|, MAE = mean|e|, RMSE = √mean e²).
 """
 

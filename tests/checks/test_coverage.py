@@ -1,6 +1,6 @@
 """Coverage checks: missing and unexpected series, horizon completeness, series count change.
 
-Expected values are hand-computed from the definitions in PRODUCT.md and the module docstring
+Expected values are hand-computed from the definitions in docs/checks.md and the module docstring
 of ``accuracy_checks.checks.coverage`` (project rules, no outside source): e.g. 1 missing of
 4 active series is 100 · 1 / 4 = 25 %.
 """

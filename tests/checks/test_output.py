@@ -1,7 +1,7 @@
 """Output checks (pandera): duplicates, invalid and negative values, quantile order, issue dates.
 
 Every expected count below is hand-counted from the small frames built here (no outside
-source: these checks are rules of this project, see PRODUCT.md "Is the output whole?").
+source: these checks are rules of this project, see docs/checks.md).
 """
 
 from __future__ import annotations

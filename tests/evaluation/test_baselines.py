@@ -1,6 +1,6 @@
 """The actuals index behind the join, the naive baselines and the MASE scales: both storages
 (dense matrix, sorted keys) agree with a direct computation, and baselines use only the
-actuals known at each cycle's issue date (METRICS.md 12: "using only data known at the
+actuals known at each cycle's issue date (docs/measures.md §12: "using only data known at the
 origin")."""
 
 from __future__ import annotations
@@ -77,14 +77,14 @@ def test_lookups_and_scales_agree_with_direct_computation(seed: int, storage: st
     want = [direct_value(actuals, s, p, d) for s, p, d in
             zip(queries["store"], queries["product"], queries["period"], strict=True)]
     np.testing.assert_array_equal(got, np.array(want))
-    # naive: the last non-missing actual before the issue date (METRICS.md 12)
+    # naive: the last non-missing actual before the issue date (docs/measures.md §12)
     known = known_through(queries["issued"], "W-MON")
     naive = naive_forecast(index, codes, known)
     for i, (s, p, d) in enumerate(zip(queries["store"], queries["product"], queries["issued"],
                                       strict=True)):
         h = history_of(actuals, s, p, d, weeks)
         assert naive[i] == pytest.approx(fn.naive_baseline(h, 1)[0], nan_ok=True)
-    # scales (METRICS.md 9) for every series, before week 20, m = 1 and 4
+    # scales (docs/measures.md §9) for every series, before week 20, m = 1 and 4
     for m in (1, 4):
         scale, pairs = index.scales(m, before=int(index.positions(pd.Series([weeks[20]]))[0]))
         for i in range(40):
@@ -97,7 +97,8 @@ def test_lookups_and_scales_agree_with_direct_computation(seed: int, storage: st
 
 
 def test_seasonal_naive_repeats_the_last_known_season() -> None:
-    # METRICS.md E5: h = 12 quarters of a season of 4; the seasonal naive forecast of the next 4
+    # docs/measures.md E5: h = 12 quarters of a season of 4; the seasonal naive forecast of the
+    # next 4
     # periods is the last 4 actuals, [135, 90, 70, 160], and repeats after that.
     h = [120, 80, 60, 140, 130, 85, 65, 150, 135, 90, 70, 160]
     dates = pd.date_range("2020-01-06", periods=20, freq="W-MON")
@@ -146,7 +147,7 @@ def test_known_through_and_default_seasonal_periods() -> None:
     assert weekly.tolist() == [monday[0] + 1, monday[0] + 2]
     monthly = known_through(pd.Series(pd.to_datetime(["2026-03-01", "2026-03-15"])), "MS")
     assert monthly[1] - monthly[0] == 1
-    # METRICS.md 9 (M4: 12 monthly, 4 quarterly, 24 hourly, 1 otherwise); 52 weekly and 7
+    # docs/measures.md §9 (M4: 12 monthly, 4 quarterly, 24 hourly, 1 otherwise); 52 weekly and 7
     # daily are this project's choices
     assert [default_seasonal_period(f) for f in ("W-SUN", "MS", "QE", "D", "h", "YE", "min")] \
         == [52, 12, 4, 7, 24, 1, 1]

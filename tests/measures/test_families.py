@@ -1,9 +1,9 @@
-"""The scaled, smoothed, probabilistic, value-added and cost measures against METRICS.md.
+"""The scaled, smoothed, probabilistic, value-added and cost measures against docs/measures.md.
 
 Every measure is checked on two paths: the readable reference functions
 (``measures/functions.py``) and the engine path (evaluation rows → ``accuracy_results`` with
-the actuals index), on the METRICS.md check values E1–E8 (table rounded to 6 significant
-digits → rel 1e-5), the library references METRICS.md names (scikit-learn, statsmodels,
+the actuals index), on the docs/measures.md check values E1–E8 (table rounded to 6 significant
+digits → rel 1e-5), the library references docs/measures.md names (scikit-learn, statsmodels,
 scipy) and the relations it states.
 """
 
@@ -28,7 +28,7 @@ from accuracy_checks.results import CheckResult
 
 NAN = float("nan")
 
-# METRICS.md "Check values": history h, actual y, forecast f, 80 % interval lo/hi (q0.1/q0.9).
+# docs/measures.md "Check values": history h, actual y, forecast f, 80 % interval lo/hi (q0.1/q0.9).
 # E7's interval is f ± 8. m = 1 with a naive baseline, except E5 (m = 4, seasonal naive).
 CASES: dict[str, tuple[list[float], ...]] = {
     "E1": ([95, 105, 100, 90, 120], [80, 105, 115, 90, 110], [100] * 5, [85] * 5, [115] * 5),
@@ -49,7 +49,7 @@ CASES: dict[str, tuple[list[float], ...]] = {
 IDS = list(CASES)
 SEASON = {"E5": 4}
 
-# The METRICS.md table rows of these families (NaN = "undef"); rel 1e-5 (6 significant digits).
+# The docs/measures.md table rows of these families (NaN = "undef"); rel 1e-5 (6 digits).
 TABLE: dict[str, list[float]] = {
     "smape": [12.2208, 60, 1.00253, 116.667, 4.01153, 22.2222, 9.62603, 10.9162],
     "scale": [13.75, 50, 500, 2.85714, 6.875, 8.5, 3, 1.66667],
@@ -122,7 +122,7 @@ def engine_values() -> dict[tuple[str, str, str | None], CheckResult]:
 
 
 def present(*arrays: list[float]) -> list[np.ndarray]:
-    """The rows where no input is NaN (sklearn raises on NaN: METRICS.md says filter first)."""
+    """The rows where no input is NaN (sklearn raises on NaN: filter first, docs/measures.md)."""
     arr = [np.asarray(a, dtype=float) for a in arrays]
     keep = np.all([~np.isnan(a) for a in arr], axis=0)
     return [a[keep] for a in arr]
@@ -133,7 +133,7 @@ def present(*arrays: list[float]) -> list[np.ndarray]:
 
 @pytest.mark.parametrize("case", IDS)
 def test_reference_functions_match_the_table(case: str) -> None:
-    # Source: METRICS.md check-value table (6 significant digits → rel 1e-5).
+    # Source: docs/measures.md check-value table (6 significant digits → rel 1e-5).
     h, y, f, lo, hi = CASES[case]
     m = SEASON.get(case, 1)
     approx = {"rel": 1e-5, "abs": 1e-12}
@@ -160,7 +160,7 @@ def test_reference_functions_match_the_table(case: str) -> None:
 def test_engine_matches_the_table(
     case: str, engine_values: dict[tuple[str, str, str | None], CheckResult]
 ) -> None:
-    # Source: METRICS.md check-value table (6 significant digits → rel 1e-5).
+    # Source: docs/measures.md check-value table (6 significant digits → rel 1e-5).
     def value(measure: str, variant: str | None = None) -> float:
         result = engine_values[(case, measure, variant)]
         assert result.value is not None, (measure, result.message)
@@ -186,14 +186,14 @@ def test_engine_matches_the_table(
 
 def test_e8_drops_nan_rows(engine_values: dict[tuple[str, str, str | None], CheckResult]
                            ) -> None:
-    # METRICS.md E8: rows 2–3 dropped, n_used = 3 (for every measure).
+    # docs/measures.md E8: rows 2–3 dropped, n_used = 3 (for every measure).
     for measure, variant in [("smape", None), ("mase", None), ("fva_naive", None),
                              ("interval_coverage", "80%"), ("mis", "80%"), ("msis", "80%")]:
         assert engine_values[("E8", measure, variant)].n_obs == 3, measure
 
 
 def test_e5_with_the_wrong_season() -> None:
-    # METRICS.md E5 note: with the wrong m = 1, s = 42.7273 and MASE = 0.117021.
+    # docs/measures.md E5 note: with the wrong m = 1, s = 42.7273 and MASE = 0.117021.
     h, y, f, _, _ = CASES["E5"]
     assert fn.mase_scale(h, 1) == pytest.approx(42.7273, rel=1e-5)
     assert fn.mase(y, f, h, 1) == pytest.approx(0.117021, rel=1e-5)
@@ -202,7 +202,7 @@ def test_e5_with_the_wrong_season() -> None:
 
 
 def test_e5_seasonal_naive_baseline_scores_mase_0_8() -> None:
-    # METRICS.md E5 note: the seasonal naive baseline has MASE 0.8.
+    # docs/measures.md E5 note: the seasonal naive baseline has MASE 0.8.
     h, y, _, _, _ = CASES["E5"]
     baseline = fn.seasonal_naive_baseline(h, len(y), 4)
     assert baseline.tolist() == [135, 90, 70, 160]
@@ -210,7 +210,7 @@ def test_e5_seasonal_naive_baseline_scores_mase_0_8() -> None:
 
 
 def test_e2_e3_pooled_as_one_segment() -> None:
-    # METRICS.md note: E2 and E3 pooled as one segment give mean per-series MASE 1.1
+    # docs/measures.md note: E2 and E3 pooled as one segment give mean per-series MASE 1.1
     # (per series, then the mean: 2 and 0.2), never a MASE pooled across scales.
     results = engine(["E2", "E3"], measures=["mase", "smape"])
     (mase,) = [r for r in results if r.segment == "*" and r.measure == "mase"]
@@ -221,7 +221,7 @@ def test_e2_e3_pooled_as_one_segment() -> None:
 
 
 def test_e4_smape_rows_with_zero_actuals() -> None:
-    # METRICS.md 6: y = 0 ≠ f scores 200 %, y = f = 0 scores 0 (project convention), so E4's
+    # docs/measures.md §6: y = 0 ≠ f scores 200 %, y = f = 0 scores 0 (project convention), so E4's
     # rows score 200, 66.67, 0, 200 → 116.667 %. Checked with exact fractions (no library ref).
     from fractions import Fraction
 
@@ -230,7 +230,7 @@ def test_e4_smape_rows_with_zero_actuals() -> None:
 
 
 def test_e7_running_tracking_signal() -> None:
-    # METRICS.md E7: running TS = 1, −0.4, 1.5, 2.85714, 4.11765, 5.26531, 6.38235, 7.47253;
+    # docs/measures.md E7: running TS = 1, −0.4, 1.5, 2.85714, 4.11765, 5.26531, 6.38235, 7.47253;
     # first breach of ±4 at row 5.
     _, y, f, _, _ = CASES["E7"]
     running = [fn.tracking_signal(y[:k], f[:k]) for k in range(1, len(y) + 1)]
@@ -242,7 +242,7 @@ def test_e7_running_tracking_signal() -> None:
 def test_e7_coverage_shortfall_binomial_p_value(
     engine_values: dict[tuple[str, str, str | None], CheckResult]
 ) -> None:
-    # METRICS.md 13 / E7: 3 of 8 inside vs 0.8 nominal, scipy.stats.binomtest p = 0.0104.
+    # docs/measures.md §13 / E7: 3 of 8 inside vs 0.8 nominal, scipy.stats.binomtest p = 0.0104.
     from scipy.stats import binomtest
 
     result = engine_values[("E7", "interval_coverage", "80%")]
@@ -270,14 +270,14 @@ def test_library_references(case: str,
         assert value is not None
         return value
 
-    # METRICS.md 9: sklearn mean_absolute_error(y, f) / mean_absolute_error(h[m:], h[:-m])
+    # docs/measures.md §9: sklearn mean_absolute_error(y, f) / mean_absolute_error(h[m:], h[:-m])
     mase = sk.mean_absolute_error(yy, ff) / sk.mean_absolute_error(hist[m:], hist[:-m])
     assert got("mase") == pytest.approx(mase, rel=1e-12)
     assert fn.mase(y, f, h, m) == pytest.approx(mase, rel=1e-12)
-    # METRICS.md 10: n * statsmodels bias(y, f) / meanabs(y, f)
+    # docs/measures.md §10: n * statsmodels bias(y, f) / meanabs(y, f)
     ts = len(yy) * float(sm.bias(yy, ff)) / float(sm.meanabs(yy, ff))
     assert got("tracking_signal") == pytest.approx(ts, rel=1e-12, abs=1e-12)
-    # METRICS.md 11: scipy.signal.lfilter([a], [1, a − 1], e, zi=[(1 − a)·E0]) on e and |e|
+    # docs/measures.md §11: scipy.signal.lfilter([a], [1, a − 1], e, zi=[(1 − a)·E0]) on e and |e|
     from scipy.signal import lfilter
 
     a, e = 0.1, yy - ff
@@ -285,7 +285,7 @@ def test_library_references(case: str,
     m0 = np.mean(np.abs(e))
     smoothed_abs = lfilter([a], [1, a - 1], np.abs(e), zi=[(1 - a) * m0])[0][-1]
     assert got("trigg") == pytest.approx(smoothed / smoothed_abs, rel=1e-12, abs=1e-15)
-    # METRICS.md 12: two sklearn mean_absolute_error calls
+    # docs/measures.md §12: two sklearn mean_absolute_error calls
     baseline = (fn.seasonal_naive_baseline(h, len(y), m) if m > 1
                 else fn.naive_baseline(h, len(y)))
     yb, fb, bb = present(y, f, baseline)
@@ -293,12 +293,12 @@ def test_library_references(case: str,
     wape_f = 100 * sk.mean_absolute_error(yb, fb) / np.mean(np.abs(yb))
     fva_id = "fva_seasonal_naive" if m > 1 else "fva_naive"
     assert got(fva_id) == pytest.approx(wape_b - wape_f, rel=1e-12, abs=1e-12)
-    # METRICS.md 14: sklearn mean_pinball_loss(y, q, alpha=τ)
+    # docs/measures.md §14: sklearn mean_pinball_loss(y, q, alpha=τ)
     yq, lq, fq, uq = present(y, lo, f, hi)
     for tau, q in (("0.1", lq), ("0.5", fq), ("0.9", uq)):
         ref = sk.mean_pinball_loss(yq, q, alpha=float(tau))
         assert got("pinball", f"q{tau}") == pytest.approx(ref, rel=1e-12, abs=1e-12)
-    # METRICS.md 15: (2/α)(mean_pinball_loss(y, L, α/2) + mean_pinball_loss(y, U, 1 − α/2))
+    # docs/measures.md §15: (2/α)(mean_pinball_loss(y, L, α/2) + mean_pinball_loss(y, U, 1 − α/2))
     alpha = 0.2
     mis = (2 / alpha) * (sk.mean_pinball_loss(yy, ll, alpha=alpha / 2)
                          + sk.mean_pinball_loss(yy, uu, alpha=1 - alpha / 2))
@@ -308,7 +308,7 @@ def test_library_references(case: str,
 
 
 def test_elec_equip_seasonal_naive_mase_regression() -> None:
-    # METRICS.md "Offline datasets": statsmodels.datasets.elec_equip, last 12 months held out,
+    # docs/measures.md "Offline datasets": statsmodels.datasets.elec_equip, last 12 months held out,
     # seasonal naive forecast (m = 12): MASE 0.414970, s = 7.00652 (6 significant digits).
     from statsmodels.datasets import elec_equip
 
@@ -340,7 +340,7 @@ def test_elec_equip_seasonal_naive_mase_regression() -> None:
 
 @pytest.mark.parametrize("case", IDS)
 def test_mae_is_twice_the_median_pinball_loss(case: str) -> None:
-    # METRICS.md 14: τ = 0.5 gives MAE/2.
+    # docs/measures.md §14: τ = 0.5 gives MAE/2.
     _, y, f, _, _ = CASES[case]
     assert fn.mean_absolute_error(y, f) == pytest.approx(2 * fn.pinball_loss(y, f, 0.5),
                                                          rel=1e-12)
@@ -348,7 +348,7 @@ def test_mae_is_twice_the_median_pinball_loss(case: str) -> None:
 
 @pytest.mark.parametrize("m", [1, 4, 12])
 def test_in_sample_seasonal_naive_scores_mase_exactly_one(m: int) -> None:
-    # METRICS.md 9: "The in-sample seasonal naive forecast scores exactly 1."
+    # docs/measures.md §9: "The in-sample seasonal naive forecast scores exactly 1."
     from statsmodels.datasets import elec_equip
 
     h = elec_equip.load_pandas().data.iloc[:, 0].to_numpy(dtype=float)
@@ -357,7 +357,7 @@ def test_in_sample_seasonal_naive_scores_mase_exactly_one(m: int) -> None:
 
 @pytest.mark.parametrize("case", [c for c in IDS if c != "E6"])
 def test_rmse_me_sde_relation(case: str) -> None:
-    # METRICS.md 7: RMSE² = ME² + (n − 1)/n · SDE².
+    # docs/measures.md §7: RMSE² = ME² + (n − 1)/n · SDE².
     _, y, f, _, _ = CASES[case]
     (yy,) = present(y, f)[:1]
     n = yy.size
@@ -368,7 +368,7 @@ def test_rmse_me_sde_relation(case: str) -> None:
 @pytest.mark.parametrize("case", IDS)
 def test_error_cost_is_a_pinball_loss_at_the_critical_fractile(case: str) -> None:
     # Cost = (c_under + c_over) · n · pinball at τ* = c_under/(c_under + c_over): the pinball
-    # loss of METRICS.md 14 (Koenker & Bassett 1978) scaled to money; reference
+    # loss of docs/measures.md §14 (Koenker & Bassett 1978) scaled to money; reference
     # sklearn.metrics.mean_pinball_loss.
     _, y, f, _, _ = CASES[case]
     yy, ff = present(y, f)
@@ -410,7 +410,7 @@ def test_error_cost_without_costs_for_a_segment_is_not_configured() -> None:
 
 
 def test_trigg_edge_cases_from_the_table() -> None:
-    # METRICS.md edge-case table: TS/Trigg are 0 when every e = 0; n = 1 gives sign(e) and
+    # docs/measures.md edge-case table: TS/Trigg are 0 when every e = 0; n = 1 gives sign(e) and
     # α·sign(e).
     assert fn.tracking_signal([5, 5], [5, 5]) == 0.0
     assert fn.trigg_signal([5, 5], [5, 5]) == 0.0
@@ -419,7 +419,7 @@ def test_trigg_edge_cases_from_the_table() -> None:
 
 
 def test_mase_undefined_cases() -> None:
-    # METRICS.md 9: N ≤ m → too_few_rows; s = 0 → zero_scale (edge-case table: undefined if
+    # docs/measures.md §9: N ≤ m → too_few_rows; s = 0 → zero_scale (edge-case table: undefined if
     # the history is all zero).
     assert math.isnan(fn.mase([1, 2], [1, 1], [5, 6, 7], m=4))
     assert math.isnan(fn.mase([1, 2], [1, 1], [0, 0, 0]))

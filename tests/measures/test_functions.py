@@ -1,4 +1,4 @@
-"""Measures against the METRICS.md check values and the sklearn/statsmodels references.
+"""Measures against the docs/measures.md check values and the sklearn/statsmodels references.
 
 Every measure is checked on both paths: the reference functions (``functions.py``) and the
 engine path (``error_stats`` → registry ``from_stats``).
@@ -22,7 +22,7 @@ from accuracy_checks.measures.stats import error_stats, total_stats
 
 NAN = float("nan")
 
-# Check-value inputs E1–E8, copied from METRICS.md "Check values" (y = actual, f = forecast).
+# Check-value inputs E1–E8, copied from docs/measures.md "Check values" (y = actual, f = forecast).
 CASES: dict[str, tuple[list[float], list[float]]] = {
     "E1": ([80, 105, 115, 90, 110], [100] * 5),
     "E2": ([200] * 4, [100, 300, 100, 100]),
@@ -34,8 +34,8 @@ CASES: dict[str, tuple[list[float], list[float]]] = {
     "E8": ([10, NAN, 12, 8, 9], [9, 11, NAN, 10, 9]),
 }
 
-# The METRICS.md check-value table, rows ME … SDE (NaN = "undef"). The table is rounded to
-# 6 significant digits, so values are compared with rel=1e-5 (as METRICS.md prescribes).
+# The docs/measures.md check-value table, rows ME … SDE (NaN = "undef"). The table is rounded to
+# 6 significant digits, so values are compared with rel=1e-5 (as docs/measures.md prescribes).
 TABLE: dict[str, list[float]] = {
     "me": [0, 50, 50, 0.5, 3.5, 10, 10.625, -0.333333],
     "bias_pct": [0, 25, 0.5, 40, 2.93501, 20, 8.99471, -3.7037],
@@ -76,7 +76,7 @@ def case_stats() -> pd.DataFrame:
 
 
 def _filtered(name: str) -> tuple[np.ndarray, np.ndarray]:
-    """The case's rows with NaN dropped: sklearn raises on NaN, so filter first (METRICS.md)."""
+    """The case's rows with NaN dropped (sklearn raises on NaN: filter first, docs/measures.md)."""
     y = np.asarray(CASES[name][0], dtype=float)
     f = np.asarray(CASES[name][1], dtype=float)
     keep = ~(np.isnan(y) | np.isnan(f))
@@ -90,7 +90,7 @@ def test_table_covers_every_core_measure() -> None:
 @pytest.mark.parametrize("case", CASE_IDS)
 @pytest.mark.parametrize("measure", list(TABLE))
 def test_function_matches_check_value(measure: str, case: str) -> None:
-    # Source: METRICS.md check-value table (rounded to 6 significant digits → rel=1e-5).
+    # Source: docs/measures.md check-value table (rounded to 6 significant digits → rel=1e-5).
     expected = TABLE[measure][CASE_IDS.index(case)]
     got = FUNCTIONS[measure](*CASES[case])
     if math.isnan(expected):
@@ -102,7 +102,7 @@ def test_function_matches_check_value(measure: str, case: str) -> None:
 @pytest.mark.parametrize("case", CASE_IDS)
 @pytest.mark.parametrize("measure", list(TABLE))
 def test_registry_matches_check_value(measure: str, case: str, case_stats: pd.DataFrame) -> None:
-    # Source: METRICS.md check-value table (rounded to 6 significant digits → rel=1e-5).
+    # Source: docs/measures.md check-value table (rounded to 6 significant digits → rel=1e-5).
     expected = TABLE[measure][CASE_IDS.index(case)]
     result = get_measure(measure).from_stats(case_stats).loc[case]
     if math.isnan(expected):
@@ -114,14 +114,14 @@ def test_registry_matches_check_value(measure: str, case: str, case_stats: pd.Da
 
 
 def test_exact_values(case_stats: pd.DataFrame) -> None:
-    # METRICS.md: "E1: ME = 0 while MAE = 12; the errors −20, 5, 15, −10, 10 cancel", and E2's
+    # docs/measures.md: "E1: ME = 0 while MAE = 12; the errors −20, 5, 15, −10, 10 cancel", and E2's
     # |e| = 100 on every row; these are exact in binary floating point.
     assert fn.mean_error(*CASES["E1"]) == 0.0
     assert fn.mean_absolute_error(*CASES["E1"]) == 12.0
     assert fn.mean_absolute_error(*CASES["E2"]) == 100.0
     assert fn.rmse(*CASES["E2"]) == 100.0
     assert fn.mean_error(*CASES["E6"]) == 10.0
-    assert fn.mape_nonzero(*CASES["E4"]) == 75.0  # METRICS.md: E4 mape_nonzero = 75 %
+    assert fn.mape_nonzero(*CASES["E4"]) == 75.0  # docs/measures.md: E4 mape_nonzero = 75 %
     values = {m: get_measure(m).from_stats(case_stats)["value"] for m in CORE_MEASURES}
     assert values["me"]["E1"] == 0.0
     assert values["mae"]["E1"] == 12.0
@@ -131,7 +131,7 @@ def test_exact_values(case_stats: pd.DataFrame) -> None:
 
 
 def test_e4_mape_nonzero_and_counts(case_stats: pd.DataFrame) -> None:
-    # METRICS.md E4: MAPE undefined (zero actuals), mape_nonzero = 75 %, 2 rows excluded.
+    # docs/measures.md E4: MAPE undefined (zero actuals), mape_nonzero = 75 %, 2 rows excluded.
     out = get_measure("mape").from_stats(case_stats).loc["E4"]
     assert math.isnan(out["value"])
     assert out["reason"] == "zero_actual"
@@ -140,13 +140,13 @@ def test_e4_mape_nonzero_and_counts(case_stats: pd.DataFrame) -> None:
 
 
 def test_e8_counts_dropped_rows(case_stats: pd.DataFrame) -> None:
-    # METRICS.md E8: rows 2–3 dropped, n_used = 3.
+    # docs/measures.md E8: rows 2–3 dropped, n_used = 3.
     assert case_stats.loc["E8", "n"] == 3
     assert case_stats.loc["E8", "n_dropped"] == 2
 
 
 def test_sklearn_mape_blows_up_on_zero_actuals() -> None:
-    # METRICS.md E4: sklearn's raw MAPE returns about 1.1259e17 % (it divides by ~2.2e-16);
+    # docs/measures.md E4: sklearn's raw MAPE returns about 1.1259e17 % (it divides by ~2.2e-16);
     # ours is undefined instead. This is why sklearn is only a reference without zero actuals.
     y, f = _filtered("E4")
     assert 100 * sk.mean_absolute_percentage_error(y, f) == pytest.approx(1.1259e17, rel=1e-4)
@@ -157,25 +157,26 @@ def test_sklearn_mape_blows_up_on_zero_actuals() -> None:
 
 
 def _references(y: np.ndarray, f: np.ndarray) -> dict[str, float]:
-    """The reference call for each measure, as named in METRICS.md entries 1–8."""
+    """The reference call for each measure, as named in docs/measures.md §1–8."""
     refs = {
-        # METRICS.md 1: statsmodels.tools.eval_measures.bias(y, f) = mean(y − f)
+        # docs/measures.md §1: statsmodels.tools.eval_measures.bias(y, f) = mean(y − f)
         "me": float(sm.bias(y, f)),
-        # METRICS.md 3: sklearn.metrics.mean_absolute_error (= statsmodels meanabs, below)
+        # docs/measures.md §3: sklearn.metrics.mean_absolute_error (= statsmodels meanabs, below)
         "mae": sk.mean_absolute_error(y, f),
-        # METRICS.md 7: sklearn.metrics.root_mean_squared_error (= statsmodels rmse, below)
+        # docs/measures.md §7: sklearn.metrics.root_mean_squared_error (= statsmodels rmse, below)
         "rmse": sk.root_mean_squared_error(y, f),
     }
     if np.abs(y).sum() > 0:
-        # METRICS.md 2: 100 * statsmodels bias(y, f) / mean|y|
+        # docs/measures.md §2: 100 * statsmodels bias(y, f) / mean|y|
         refs["bias_pct"] = 100 * float(sm.bias(y, f)) / np.mean(np.abs(y))
-        # METRICS.md 5: 100 * sklearn mean_absolute_error(y, f) / mean|y|
+        # docs/measures.md §5: 100 * sklearn mean_absolute_error(y, f) / mean|y|
         refs["wape"] = 100 * sk.mean_absolute_error(y, f) / np.mean(np.abs(y))
     if np.all(y != 0):
-        # METRICS.md 4: 100 * sklearn mean_absolute_percentage_error, only without zero actuals
+        # docs/measures.md §4: 100 * sklearn mean_absolute_percentage_error, only without zero
+        # actuals
         refs["mape"] = 100 * sk.mean_absolute_percentage_error(y, f)
     if y.size >= 2:
-        # METRICS.md 8: statsmodels.tools.eval_measures.stde(y, f, ddof=1) (default ddof=0 is
+        # docs/measures.md §8: statsmodels.tools.eval_measures.stde(y, f, ddof=1) (default ddof=0 is
         # not the spec's SDE)
         refs["sde"] = float(sm.stde(y, f, ddof=1))
     return refs
@@ -185,7 +186,7 @@ def _references(y: np.ndarray, f: np.ndarray) -> dict[str, float]:
 def test_against_sklearn_and_statsmodels(case: str, case_stats: pd.DataFrame) -> None:
     y, f = _filtered(case)
     refs = _references(y, f)
-    # statsmodels meanabs/rmse agree with the sklearn calls (METRICS.md 3 and 7).
+    # statsmodels meanabs/rmse agree with the sklearn calls (docs/measures.md §3 and 7).
     assert float(sm.meanabs(y, f)) == pytest.approx(refs["mae"], rel=1e-12)
     assert float(sm.rmse(y, f)) == pytest.approx(refs["rmse"], rel=1e-12)
     for measure, ref in refs.items():
@@ -199,7 +200,8 @@ def test_against_sklearn_and_statsmodels(case: str, case_stats: pd.DataFrame) ->
 
 
 def test_e2_e3_pooled_as_one_segment(case_stats: pd.DataFrame) -> None:
-    # METRICS.md, note under the check values: E2 and E3 pooled as one segment give WAPE 1.96078 %
+    # docs/measures.md, note under the check values: E2 and E3 pooled as one segment give
+    # WAPE 1.96078 %
     # and Bias % 0.980392, but pooled MAPE 25.5 % (the mean of the per-series WAPEs 50 and 1).
     expected = {"wape": 1.96078, "bias_pct": 0.980392, "mape": 25.5}
     y = CASES["E2"][0] + CASES["E3"][0]
@@ -216,7 +218,7 @@ def test_e2_e3_pooled_as_one_segment(case_stats: pd.DataFrame) -> None:
 
 @pytest.mark.parametrize("case", [c for c in CASE_IDS if c != "E6"])
 def test_rmse_me_sde_relation(case: str, case_stats: pd.DataFrame) -> None:
-    # METRICS.md 7: RMSE² = ME² + (n−1)/n·SDE² (the variance decomposition of the mean square).
+    # docs/measures.md §7: RMSE² = ME² + (n−1)/n·SDE² (variance decomposition of the mean square).
     n = int(case_stats.loc[case, "n"])
     me, rmse, sde = (fn.mean_error(*CASES[case]), fn.rmse(*CASES[case]), fn.sde(*CASES[case]))
     assert rmse**2 == pytest.approx(me**2 + (n - 1) / n * sde**2, rel=1e-12)
@@ -227,7 +229,7 @@ def test_rmse_me_sde_relation(case: str, case_stats: pd.DataFrame) -> None:
 
 
 def test_elec_equip_seasonal_naive_regression() -> None:
-    # METRICS.md "Offline datasets": statsmodels.datasets.elec_equip, last 12 months held out,
+    # docs/measures.md "Offline datasets": statsmodels.datasets.elec_equip, last 12 months held out,
     # seasonal naive forecast (m = 12): WAPE 2.83290 %, ME 2.88417 (6 significant digits).
     from statsmodels.datasets import elec_equip
 
@@ -241,8 +243,8 @@ def test_elec_equip_seasonal_naive_regression() -> None:
         2.83290, rel=1e-5
     )
     assert get_measure("me").from_stats(stats)["value"].iloc[0] == pytest.approx(2.88417, rel=1e-5)
-    # Same figures from the references: statsmodels bias (METRICS.md 1) and
-    # 100 * sklearn mean_absolute_error / mean|y| (METRICS.md 5).
+    # Same figures from the references: statsmodels bias (docs/measures.md §1) and
+    # 100 * sklearn mean_absolute_error / mean|y| (docs/measures.md §5).
     assert fn.mean_error(y, f) == pytest.approx(float(sm.bias(y, f)), rel=1e-12)
     assert fn.wape(y, f) == pytest.approx(
         100 * sk.mean_absolute_error(y, f) / np.mean(np.abs(y)), rel=1e-12

@@ -1,4 +1,4 @@
-"""Property tests: every registered measure equals a direct computation of its METRICS.md
+"""Property tests: every registered measure equals a direct computation of its docs/measures.md
 formula, on random data with zero, negative and missing values.
 
 1. The core measures from ``error_stats`` (and from merged partitions) against numpy per group.
@@ -31,7 +31,7 @@ NAN = float("nan")
 
 # ---------------------------------------------------------------------------- 1. core, pooled
 
-# Direct numpy formulas from METRICS.md entries 1–8 on one group's rows (NaN rows already
+# Direct numpy formulas from docs/measures.md §1–8 on one group's rows (NaN rows already
 # dropped). Each returns (value, reason, absolute tolerance scale).
 Direct = Callable[[np.ndarray, np.ndarray], tuple[float, str | None, float]]
 
@@ -71,7 +71,7 @@ def _rmse(y: np.ndarray, e: np.ndarray) -> tuple[float, str | None, float]:
 def _sde(y: np.ndarray, e: np.ndarray) -> tuple[float, str | None, float]:
     if e.size < 2:
         return NAN, "too_few_rows", 0.0
-    # np.std(ddof=1) = statsmodels stde(ddof=1), METRICS.md 8
+    # np.std(ddof=1) = statsmodels stde(ddof=1), docs/measures.md §8
     return float(np.std(e, ddof=1)), None, float(np.max(np.abs(e)))
 
 
@@ -232,7 +232,7 @@ def d_trigg(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:
         return {"": NAN}
     a = cfg.trigg_alpha
     smoothed, smoothed_abs = 0.0, sum(abs(x) for x in e) / len(e)
-    for x in e:  # the recursion of METRICS.md 11, row by row
+    for x in e:  # the recursion of docs/measures.md §11, row by row
         smoothed = a * x + (1 - a) * smoothed
         smoothed_abs = a * abs(x) + (1 - a) * smoothed_abs
     return {"": smoothed / smoothed_abs if smoothed_abs > 0 else 0.0}

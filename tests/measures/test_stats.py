@@ -253,7 +253,8 @@ def test_bad_arguments() -> None:
 
 def test_large_mean_small_spread_keeps_sde_accurate() -> None:
     # Catastrophic cancellation test: errors near 1e9 with a spread of ~1e-3. The reference is
-    # np.std(e, ddof=1) (= statsmodels stde ddof=1, METRICS.md 8), which centres before squaring.
+    # np.std(e, ddof=1) (= statsmodels stde ddof=1, docs/measures.md §8), which centres before
+    # squaring.
     rng = np.random.default_rng(7)
     rows = 5_000
     forecast = rng.uniform(50.0, 150.0, rows).round(2)
@@ -316,7 +317,7 @@ def test_perfect_forecast_scores_zero() -> None:
         }
     )
     out = _all_measures(error_stats(frame, ["segment"]).set_index("segment"))
-    # undefined only by zero denominators / zero actuals (METRICS.md edge-case table)
+    # undefined only by zero denominators / zero actuals (docs/measures.md edge-case table)
     undefined = {
         ("mape", "normal"): "zero_actual",
         ("mape", "zeros"): "zero_actual",
@@ -337,7 +338,7 @@ def test_perfect_forecast_scores_zero() -> None:
 
 
 def test_sign_convention_under_forecast_is_positive() -> None:
-    # PRODUCT.md: e = actual − forecast; positive = under-forecast.
+    # docs/measures.md: e = actual − forecast; positive = under-forecast.
     frame = pd.DataFrame({"actual": [10.0, 20.0], "forecast": [8.0, 15.0]})
     out = _all_measures(error_stats(frame, []))
     assert out["me"]["value"].iloc[0] == 3.5

@@ -2,7 +2,7 @@
 recomputed directly from the files with numpy, per-lag results, limits and judging, worst
 offenders, the lag-by-segment tables, and the bad inputs of issue 3.
 
-Formulas as in METRICS.md (9 MASE, 10 tracking signal, 12 FVA, 13 coverage, 14 pinball);
+Formulas as in docs/measures.md (9 MASE, 10 tracking signal, 12 FVA, 13 coverage, 14 pinball);
 e = actual − forecast.
 """
 
@@ -65,7 +65,7 @@ def test_every_measure_in_a_run_equals_numpy_on_the_files(
     y, f = j["units_sold"].to_numpy(), j["units"].to_numpy()
     e = y - f
 
-    # MASE (METRICS.md 9): per series MAE / s, s from the actuals before the earliest cycle
+    # MASE (docs/measures.md §9): per series MAE / s, s from the actuals before the earliest cycle
     # evaluated (2026-02-16), then the unweighted mean over the series.
     earliest = j["issued_on"].min()
     per_series = []
@@ -75,17 +75,17 @@ def test_every_measure_in_a_run_equals_numpy_on_the_files(
         scale = np.mean(np.abs(np.diff(h)))
         per_series.append(np.mean(np.abs(rows["units_sold"] - rows["units"])) / scale)
     assert find(report, "mase").value == pytest.approx(np.mean(per_series), rel=1e-12)
-    # sMAPE (METRICS.md 6): per series, then the mean
+    # sMAPE (docs/measures.md §6): per series, then the mean
     smape = j.assign(t=200 * np.abs(e) / (np.abs(y) + np.abs(f))).groupby(
         ["store", "product"])["t"].mean().mean()
     assert find(report, "smape").value == pytest.approx(smape, rel=1e-12)
-    # FVA vs naive (METRICS.md 12): the last actual before each cycle's issue date
+    # FVA vs naive (docs/measures.md §12): the last actual before each cycle's issue date
     last = [actuals[(actuals["store"] == r.store) & (actuals["product"] == r.product)
                     & (actuals["week"] < r.issued_on)].sort_values("week")["units_sold"].iloc[-1]
             for r in j.itertuples()]
     fva = 100 * (np.abs(y - np.array(last)).sum() - np.abs(e).sum()) / np.abs(y).sum()
     assert find(report, "fva_naive").value == pytest.approx(fva, rel=1e-12)
-    # coverage, pinball (METRICS.md 13, 14)
+    # coverage, pinball (docs/measures.md §13, 14)
     inside = (j["p10"] <= y) & (y <= j["p90"])
     assert find(report, "interval_coverage", variant="80%").value == pytest.approx(
         100 * inside.mean(), rel=1e-12)
@@ -96,7 +96,7 @@ def test_every_measure_in_a_run_equals_numpy_on_the_files(
     cost = find(report, "error_cost")
     assert cost.value == pytest.approx(np.sum(3 * np.maximum(e, 0) + np.maximum(-e, 0)))
     assert cost.unit == "EUR" and cost.details["tau_star"] == pytest.approx(0.75)
-    # tracking signal (METRICS.md 10): the segment's errors summed by period
+    # tracking signal (docs/measures.md §10): the segment's errors summed by period
     by_week = pd.Series(e).groupby(j["week"].to_numpy()).sum().to_numpy()
     ts = find(report, "tracking_signal")
     assert ts.value == pytest.approx(by_week.sum() / np.mean(np.abs(by_week)), rel=1e-12)

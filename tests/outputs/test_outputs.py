@@ -154,7 +154,7 @@ def _mixed_report() -> RunReport:
     ],
 )
 def test_bias_is_worded_with_the_sign_convention(measure: str, value: float, expected: str) -> None:
-    # e = actual − forecast: positive = under-forecast (PRODUCT.md, Terms).
+    # e = actual − forecast: positive = under-forecast (docs/measures.md).
     unit = {"bias_pct": "%", "me": "units", "tracking_signal": None}[measure]
     result = CheckResult("accuracy", "pass", measure=measure, value=value, unit=unit)
     assert describe_value(result) == expected

@@ -3,7 +3,7 @@ cycle left out, never an older attempt in its place), and an archive that cannot
 (exit 2 before the checks, nothing recorded, nothing archived, no half file).
 
 Expected figures are recomputed here from the files with numpy (WAPE = 100·Σ|e|/Σ|y|,
-e = actual − forecast, METRICS.md).
+e = actual − forecast, docs/measures.md).
 """
 
 from __future__ import annotations
