@@ -18,7 +18,7 @@ from typing import TypeVar
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.checks.accuracy import actuals_span, evaluation_span, run_accuracy
+from accuracy_checks.checks.accuracy import run_accuracy
 from accuracy_checks.checks.actuals import actuals_checks
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.judge import ThresholdBook
@@ -26,6 +26,7 @@ from accuracy_checks.checks.output import output_checks
 from accuracy_checks.checks.plugins import run_check_plugins
 from accuracy_checks.config import Config
 from accuracy_checks.evaluation.join import prune_earlier, window_periods
+from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources import read as sources

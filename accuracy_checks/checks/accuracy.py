@@ -46,7 +46,6 @@ from accuracy_checks.checks.offenders import worst_offenders
 from accuracy_checks.config import Config
 from accuracy_checks.evaluation.baselines import (
     ActualsIndex,
-    default_seasonal_period,
     known_through,
     naive_forecast,
     seasonal_naive_forecast,
@@ -56,17 +55,12 @@ from accuracy_checks.measures.data import (
     SCALE_OK,
     SCALE_TOO_FEW_ROWS,
     SCALE_ZERO,
-    CostTable,
     MeasureData,
     MeasureSettings,
     dense_codes,
 )
-from accuracy_checks.measures.registry import (
-    CORE_MEASURES,
-    Measure,
-    get_measure,
-    registered_measures,
-)
+from accuracy_checks.measures.registry import Measure, get_measure
+from accuracy_checks.measures.selection import measure_settings, measures_to_report, unmet_needs
 from accuracy_checks.measures.stats import overflowed
 from accuracy_checks.outputs.wording import describe_value, format_number
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
@@ -138,7 +132,7 @@ def _measure_all(job: _Job, defs: list[Measure], *, window: Sequence[pd.Timestam
     """Every measure of ``defs`` on every grouping of ``job``, judged."""
     out: list[CheckResult] = []
     for measure in defs:
-        missing = _unmet_needs(measure, job.settings, job.history)
+        missing = unmet_needs(measure, job.settings, job.history)
         windows = {"evaluation": window, "tracking": tracking if tracking else window}
         measure_span = _span(windows[measure.window])
         for grouping in job.groupings:
@@ -324,21 +318,6 @@ class _Job:
                 raise ValueError(f"unknown baseline {kind!r}; use 'naive' or 'seasonal_naive'")
             self._baselines[key] = values
         return self._baselines[key]
-
-
-#: stands for "an actuals history will be there" when choosing the measures to report
-_FED_HISTORY: Any = object()
-
-
-def _unmet_needs(measure: Measure, settings: MeasureSettings,
-                 history: ActualsIndex | Any | None) -> list[str]:
-    have = {
-        "history": history is not None,
-        "quantiles": bool(settings.quantiles),
-        "intervals": bool(settings.intervals),
-        "costs": settings.costs is not None,
-    }
-    return [need for need in sorted(measure.needs) if not have.get(need, True)]
 
 
 def _checked(measure: Measure, values: Any, data: MeasureData) -> pd.DataFrame:
@@ -634,66 +613,7 @@ def _plain(value: object) -> object:
     return value
 
 
-# --------------------------------------------------------------------------- from the config
-
-
-def measure_settings(config: Config) -> MeasureSettings:
-    """The measure settings of a config (``evaluation`` and ``costs`` sections)."""
-    ev = config.evaluation
-    costs = None
-    if config.costs is not None:
-        c = config.costs
-        costs = CostTable(
-            currency=c.currency,
-            default=(c.default.under, c.default.over) if c.default is not None else None,
-            segments={name: (u.under, u.over) for name, u in c.segments.items()},
-        )
-    return MeasureSettings(
-        seasonal_period=ev.seasonal_period or default_seasonal_period(config.frequency),
-        tracking_window=ev.tracking_window,
-        tracking_limit=ev.tracking_limit,
-        trigg_alpha=ev.trigg_alpha,
-        quantiles=tuple(config.forecast.quantiles),
-        coverage_test_level=ev.coverage_test_level,
-        costs=costs,
-    )
-
-
-def measures_to_report(config: Config) -> list[str]:
-    """The core measures, every measure a threshold names, and those of
-    ``evaluation.measures`` (``all``: every registered measure the config can feed)."""
-    registry = registered_measures()
-    named = set(config.thresholds.default)
-    for levels in config.thresholds.segments.values():
-        named |= set(levels)
-    asked = set(config.evaluation.measures)
-    settings = measure_settings(config)
-    if "all" in asked:
-        fed = {m.id for m in registry.values()
-               if not _unmet_needs(m, settings, _FED_HISTORY)}
-        asked |= fed
-    extra = [m for m in registry if (m in named or m in asked) and m not in CORE_MEASURES]
-    return [*CORE_MEASURES, *extra]
-
-
-def evaluation_span(config: Config) -> int:
-    """How many of the most recent periods with actuals the evaluation reads: the window, or
-    the tracking window when a tracking measure is reported and it is longer."""
-    measures = measures_to_report(config)
-    tracking = any(get_measure(m).window == "tracking" for m in measures)
-    window = config.evaluation.window
-    return max(window, config.evaluation.tracking_window) if tracking else window
-
-
-def actuals_span(config: Config) -> int | None:
-    """How many of the most recent periods with actuals a run needs (the coverage window and
-    the evaluation span), or ``None`` when a reported measure needs the whole history (MASE's
-    scale, the value-added baselines) or comes from a plugin."""
-    for m in measures_to_report(config):
-        measure = get_measure(m)
-        if "history" in measure.needs or measure.origin != "built-in":
-            return None
-    return max(config.coverage.active_periods, evaluation_span(config))
+# --------------------------------------------------------------------------- a run
 
 
 def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *,

@@ -22,11 +22,12 @@ import numpy as np
 import pandas as pd
 from pydantic import ValidationError
 
-from accuracy_checks.checks.accuracy import measures_to_report, run_accuracy
+from accuracy_checks.checks.accuracy import run_accuracy
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.judge import BUILTIN_DEFAULTS, ThresholdBook
 from accuracy_checks.config import Config, Level
 from accuracy_checks.gx.batch import ROW_KIND, select_rows
+from accuracy_checks.measures.selection import measures_to_report
 from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources import frames as F
 from accuracy_checks.store.archive import cycle_label

@@ -42,7 +42,6 @@ from great_expectations.expectations.row_conditions import (
 
 from accuracy_checks import __version__
 from accuracy_checks.api import read_config
-from accuracy_checks.checks.accuracy import measures_to_report
 from accuracy_checks.checks.judge import BUILTIN_DEFAULTS
 from accuracy_checks.checks.output import (
     DUPLICATE_ROWS,
@@ -62,6 +61,7 @@ from accuracy_checks.gx.expectations import (
     ExpectStableSeriesCount,
     ExpectThresholdSegmentsPresent,
 )
+from accuracy_checks.measures.selection import measures_to_report
 from accuracy_checks.sources import frames as F
 
 __all__ = ["FINITE_MAX", "suite_from_config", "suite_from_json", "suite_to_json"]

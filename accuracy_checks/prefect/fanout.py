@@ -143,8 +143,8 @@ def merge_partition_stats(parts: Sequence[pd.DataFrame]) -> pd.DataFrame:
 
 def stats_measures(config: Config) -> list[str]:
     """The measures a run of ``config`` reports that have a ``from_stats`` formula."""
-    from accuracy_checks.checks.accuracy import measures_to_report
     from accuracy_checks.measures.registry import get_measure
+    from accuracy_checks.measures.selection import measures_to_report
 
     return [m for m in measures_to_report(config) if get_measure(m).from_stats is not None]
 
