@@ -8,37 +8,159 @@ results and the verdict, which is the worst status among them.
 
 from __future__ import annotations
 
+import datetime as _dt
 import math
 from dataclasses import asdict, dataclass, field
+from enum import StrEnum
 from typing import Any, Literal
 
-Status = Literal["pass", "warn", "fail", "skipped", "waived", "error"]
+__all__ = [
+    "ALL_SERIES",
+    "BREACHED",
+    "DISPLAY_ORDER",
+    "FAILING",
+    "JUDGED",
+    "NEEDS_ATTENTION",
+    "OPEN_FINDINGS",
+    "Bound",
+    "CheckResult",
+    "Reason",
+    "RunReport",
+    "Status",
+    "StatusName",
+    "Verdict",
+    "json_value",
+    "sort_for_display",
+    "worst_status",
+]
+
+
+class Status(StrEnum):
+    """The status of one result (docs/results.md, "Statuses and the verdict"), in display order:
+    failures first. A member equals its text (``Status.FAIL == "fail"``), so results, JSON and
+    the audit store hold plain strings.
+
+    >>> [str(s) for s in Status]
+    ['fail', 'error', 'warn', 'waived', 'skipped', 'pass']
+    >>> Status("warn").severity, Status.ERROR.severity, Status.WAIVED.severity
+    (1, 2, 0)
+    """
+
+    FAIL = "fail"
+    ERROR = "error"
+    WARN = "warn"
+    WAIVED = "waived"
+    SKIPPED = "skipped"
+    PASS = "pass"
+
+    @property
+    def severity(self) -> int:
+        """Its weight in the verdict: 2 fails the gate (``fail``, and ``error``: a check that
+        did not run cannot pass), 1 warns, 0 passes (``pass``, ``skipped``, ``waived``)."""
+        return _SEVERITY[self]
+
+
+_SEVERITY = {Status.FAIL: 2, Status.ERROR: 2, Status.WARN: 1}
+_SEVERITY.update({s: 0 for s in Status if s not in _SEVERITY})
+
+#: The status texts (what a :class:`CheckResult` accepts); the type checker's view of
+#: :class:`Status` for call sites that pass text.
+StatusName = Literal["fail", "error", "warn", "waived", "skipped", "pass"]
+#: A run's verdict: ``pass``, ``warn`` or ``fail``.
 Verdict = Literal["pass", "warn", "fail"]
+
+#: Order of results in outputs (failures first): status text → rank.
+DISPLAY_ORDER: dict[str, int] = {s.value: i for i, s in enumerate(Status)}
+#: Statuses of a figure compared with its levels (``waived`` was a breach, then covered).
+JUDGED: frozenset[str] = frozenset({Status.PASS, Status.WARN, Status.FAIL, Status.WAIVED})
+#: Statuses of a figure beyond a level (``waived`` included: the breach happened).
+BREACHED: frozenset[str] = frozenset({Status.WARN, Status.FAIL, Status.WAIVED})
+#: Statuses that fail the gate.
+FAILING: frozenset[str] = frozenset({Status.FAIL, Status.ERROR})
+#: Findings nobody has waived: they fail the gate or warn.
+OPEN_FINDINGS: frozenset[str] = frozenset({*FAILING, Status.WARN})
+#: Statuses an output lists as findings (the rest are counted): open ones and waived ones.
+NEEDS_ATTENTION: frozenset[str] = frozenset({*OPEN_FINDINGS, Status.WAIVED})
+
+
+class Reason(StrEnum):
+    """Why a value is undefined or a result skipped (``CheckResult.reason``, docs/results.md).
+
+    >>> Reason.ZERO_ACTUAL == "zero_actual"
+    True
+    """
+
+    #: an actual is 0 (MAPE divides by each actual)
+    ZERO_ACTUAL = "zero_actual"
+    #: the sum a ratio divides by is 0 (WAPE, bias %)
+    ZERO_DENOMINATOR = "zero_denominator"
+    #: fewer rows than the measure or ``min_obs`` needs
+    TOO_FEW_ROWS = "too_few_rows"
+    #: every series' scale is 0 or unknown (MASE, MSIS)
+    ZERO_SCALE = "zero_scale"
+    #: no row at all
+    NO_DATA = "no_data"
+    #: the config does not feed the measure (quantiles, costs, the actuals history)
+    NOT_CONFIGURED = "not_configured"
+    #: sums beyond the float64 range: judged beyond the worst level set
+    OVERFLOW = "overflow"
+    #: too few earlier cycles for a drift rule
+    TOO_FEW_CYCLES = "too_few_cycles"
+    #: the forecast has no quantile columns
+    NO_QUANTILES = "no_quantiles"
+
+
 #: A threshold level: a bound on the value (or on its absolute value for centred measures),
 #: or an asymmetric ``[low, high]`` pair.
 Bound = float | tuple[float, float]
 
 ALL_SERIES = "*"
 
-# How much each status weighs in the verdict. skipped and waived do not move the verdict;
-# an error (a check that could not run) fails the gate: a check that did not run cannot pass.
-_SEVERITY: dict[str, int] = {
-    "pass": 0,
-    "skipped": 0,
-    "waived": 0,
-    "warn": 1,
-    "fail": 2,
-    "error": 2,
-}
-# Order of results in outputs: failures first.
-DISPLAY_ORDER: dict[str, int] = {
-    "fail": 0,
-    "error": 1,
-    "warn": 2,
-    "waived": 3,
-    "skipped": 4,
-    "pass": 5,
-}
+
+def json_value(value: Any, *, infinity: Literal["null", "text"] = "null",
+               dates: Literal["day", "iso"] = "day") -> Any:
+    """``value`` as a plain JSON value: the one conversion of numpy and pandas scalars.
+
+    numpy scalars → Python ``bool``/``int``/``float``; NaN, ``pd.NA``, ``NaT`` → ``None``;
+    ±inf → ``None``, or ``"infinity"``/``"-infinity"`` with ``infinity="text"`` (an offending
+    row's value, where the infinity is the point; strict JSON has none); datetimes (a
+    ``pd.Timestamp``, ``np.datetime64``) → ISO text, the date alone at midnight unless
+    ``dates="iso"``; dates → ISO text; anything else is returned as it is. Needs neither numpy
+    nor pandas imported.
+
+    >>> import numpy as np
+    >>> json_value(np.int64(3)), json_value(np.float64("nan")), json_value(np.bool_(True))
+    (3, None, True)
+    >>> json_value(float("-inf")), json_value(float("-inf"), infinity="text")
+    (None, '-infinity')
+    >>> json_value(np.datetime64("2026-03-02")), json_value(_dt.datetime(2026, 3, 2, 6))
+    ('2026-03-02', '2026-03-02T06:00:00')
+    >>> json_value(_dt.datetime(2026, 3, 2), dates="iso"), json_value("a")
+    ('2026-03-02T00:00:00', 'a')
+    """
+    if value is None or type(value).__name__ in ("NAType", "NaTType"):
+        return None
+    if type(value).__module__ == "numpy":
+        kind = getattr(getattr(value, "dtype", None), "kind", "")
+        if kind in ("m", "M"):
+            if value != value:  # NaT
+                return None
+            # in microseconds, .item() gives a datetime (in nanoseconds, an int)
+            value = value.astype("datetime64[us]" if kind == "M" else "timedelta64[us]")
+        value = value.item()
+    if isinstance(value, float):
+        if math.isnan(value):
+            return None
+        if math.isinf(value):
+            return ("infinity" if value > 0 else "-infinity") if infinity == "text" else None
+        return value
+    if isinstance(value, _dt.datetime):
+        if dates == "day" and value.tzinfo is None and value.time() == _dt.time(0):
+            return value.date().isoformat()
+        return value.isoformat()
+    if isinstance(value, _dt.date):
+        return value.isoformat()
+    return value
 
 
 @dataclass(frozen=True)
@@ -46,7 +168,8 @@ class CheckResult:
     """One judged figure. Field names follow the JSON contract, docs/results.md."""
 
     check: str
-    status: Status
+    #: a :class:`Status` or its text; stored as the plain text
+    status: Status | StatusName
     segment: str | None = None
     lag: int | None = None
     measure: str | None = None
@@ -63,6 +186,12 @@ class CheckResult:
     unit: str | None = None
     #: small extra facts (cycles and attempts used, counts of dropped rows …)
     details: dict[str, Any] = field(default_factory=dict)
+
+    def __post_init__(self) -> None:
+        # one vocabulary: an unknown status is a ValueError here, not a KeyError in an output
+        object.__setattr__(self, "status", Status(self.status).value)
+        if isinstance(self.reason, Reason):
+            object.__setattr__(self, "reason", self.reason.value)
 
     def to_dict(self) -> dict[str, Any]:
         """JSON-ready dict; NaN/inf never leak (they become ``None``)."""
@@ -94,8 +223,8 @@ def worst_status(statuses: list[str] | tuple[str, ...]) -> Verdict:
     >>> worst_status([])
     'pass'
     """
-    level = max((_SEVERITY[s] for s in statuses), default=0)
-    return ("pass", "warn", "fail")[level]  # type: ignore[return-value]
+    level = max((Status(s).severity for s in statuses), default=0)
+    return (Status.PASS, Status.WARN, Status.FAIL)[level].value  # type: ignore[return-value]
 
 
 def sort_for_display(results: list[CheckResult]) -> list[CheckResult]:

@@ -63,12 +63,17 @@ from accuracy_checks.measures.registry import Measure, get_measure
 from accuracy_checks.measures.selection import measure_settings, measures_to_report, unmet_needs
 from accuracy_checks.measures.stats import overflowed
 from accuracy_checks.outputs.wording import describe_value, format_number
-from accuracy_checks.results import ALL_SERIES, CheckResult, Status
+from accuracy_checks.results import (
+    ALL_SERIES,
+    BREACHED,
+    CheckResult,
+    Reason,
+    StatusName,
+    json_value,
+)
 from accuracy_checks.sources import frames as F
 
 CHECK = "accuracy"
-#: reason of a figure whose sums exceed the float64 range (judged beyond any level)
-OVERFLOW = "overflow"
 _FLOAT_MAX = "1.8e308"
 
 _NEEDS_TEXT = {
@@ -383,17 +388,17 @@ def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job
                                    "n_negative_actuals": int(negative[g])}
         if variant is not None:
             details["variant"] = variant
-        details.update({c: _plain(rec[c]) for c in extras})
+        details.update({c: json_value(rec[c]) for c in extras})
         reason = rec.get("reason")
         reason = reason if isinstance(reason, str) else None
         if reason is None and n_obs > 0 and (
                 overflow[g] or _infinite(rec["value"])
                 or any(_infinite(rec[c]) for c in extras)):
-            value, reason = None, OVERFLOW
+            value, reason = None, Reason.OVERFLOW
         row = _Row(g, int(lags[g]), str(segments[g]), variant, value, reason,
                    n_obs, int(series[g]), _unit(rec.get("unit"), measure), details)
         result = _judge_row(measure, row, book, data.settings, min_obs, span)
-        if result.status in ("warn", "fail"):
+        if result.status in BREACHED:
             breached[g] = measure.bias_type
             pending.append((g, result))
         else:
@@ -418,17 +423,17 @@ def _judge_row(measure: Measure, row: _Row, book: ThresholdBook, settings: Measu
                                   unit=row.unit, n_obs=row.n_obs, n_series=row.n_series,
                                   warn=warn, fail=fail, details=row.details)
     if row.n_obs == 0:
-        return CheckResult(CHECK, "skipped", reason="no_data",
+        return CheckResult(CHECK, "skipped", reason=Reason.NO_DATA,
                            message=f"{label} not measured: no forecast with an actual at lag "
                                    f"{row.lag} in {span}.", **common)
     if row.n_obs < min_obs:
-        return CheckResult(CHECK, "skipped", reason="too_few_rows",
+        return CheckResult(CHECK, "skipped", reason=Reason.TOO_FEW_ROWS,
                            message=(f"{label} not judged: only {row.n_obs} forecast(s) with an "
                                     f"actual at lag {row.lag} in {span} (min_obs is "
                                     f"{min_obs})."), **common)
-    status: Status
+    status: StatusName
     note = ""
-    if row.reason == OVERFLOW:
+    if row.reason == Reason.OVERFLOW:
         # a figure beyond the float64 range is beyond any level: the worst level set breaks
         status = "fail" if fail is not None else "warn" if warn is not None else "skipped"
     elif row.value is None:
@@ -447,7 +452,7 @@ def _judge_row(measure: Measure, row: _Row, book: ThresholdBook, settings: Measu
             status = "pass"
             note = " The gap may be chance (binomial test), so it is not held against it."
     result = CheckResult(CHECK, status, value=row.value,
-                         reason=None if row.value is not None else (row.reason or "no_data"),
+                         reason=None if row.value is not None else (row.reason or Reason.NO_DATA),
                          **common)
     return _with_message(result, label, span, measure.id, note)
 
@@ -485,7 +490,7 @@ def _not_configured(measure: Measure, data: MeasureData, missing: list[str],
         level = book.level(measure.id, segment)
         out.append(CheckResult(
             CHECK, "skipped", segment=segment, lag=lag, measure=measure.id,
-            unit=measure.unit or None, reason="not_configured", n_obs=0, n_series=0,
+            unit=measure.unit or None, reason=Reason.NOT_CONFIGURED, n_obs=0, n_series=0,
             warn=level.warn if level else None, fail=level.fail if level else None,
             message=f"{measure.label} not measured: it needs {need}."))
     return out
@@ -505,7 +510,7 @@ def _no_data(segment: str, lag: int, measure: str, book: ThresholdBook,
              reason: str) -> CheckResult:
     level = book.level(measure, segment)
     return CheckResult(CHECK, "skipped", segment=segment, lag=lag, measure=measure,
-                       unit=book.unit(measure) or None, reason="no_data", n_obs=0, n_series=0,
+                       unit=book.unit(measure) or None, reason=Reason.NO_DATA, n_obs=0, n_series=0,
                        warn=level.warn if level else None, fail=level.fail if level else None,
                        message=f"{get_measure(measure).label} not measured: {reason}.")
 
@@ -522,20 +527,20 @@ def _with_message(result: CheckResult, label: str, span: str, measure: str,
     basis = (f"over {result.n_obs:,} forecasts of {result.n_series:,} series at lag "
              f"{result.lag} ({span})")
     if result.value is None:
-        if result.reason == OVERFLOW:
+        if result.reason == Reason.OVERFLOW:
             level = result.fail if result.status == "fail" else result.warn
             judged = (f", so it is judged beyond the {result.status} level {_bound(level)}"
-                      if result.status in ("warn", "fail") else ", so it cannot be computed")
+                      if result.status in BREACHED else ", so it cannot be computed")
             text = (f"{label} {basis} is beyond the floating-point range: the errors are too "
                     f"large to sum (beyond ±{_FLOAT_MAX}){judged}. Look for a forecast or an "
                     "actual of absurd size.")
-        elif result.reason == "zero_actual" and result.details.get("mape_nonzero") is not None:
+        elif result.reason == Reason.ZERO_ACTUAL and result.details.get("mape_nonzero") is not None:
             nz = result.details["mape_nonzero"]
             text = (f"{label} is undefined: {result.details.get('n_zero_actual')} actual(s) are 0 "
                     f"{basis}; over the non-zero actuals it is {nz:.3g} %.")
         else:
             text = f"{label} is undefined ({result.reason}) {basis}."
-    elif result.status in ("warn", "fail"):
+    elif result.status in BREACHED:
         level = result.fail if result.status == "fail" else result.warn
         text = f"{lead} {basis}, beyond the {result.status} level {_bound(level)}."
     else:
@@ -603,14 +608,6 @@ def _float(value: object) -> float | None:
     except (TypeError, ValueError):
         return None
     return number if math.isfinite(number) else None
-
-
-def _plain(value: object) -> object:
-    if isinstance(value, np.generic):
-        value = value.item()
-    if isinstance(value, float) and not math.isfinite(value):
-        return None
-    return value
 
 
 # --------------------------------------------------------------------------- a run

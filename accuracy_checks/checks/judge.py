@@ -24,8 +24,9 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
-from accuracy_checks.config import Bound, Config, Direction, Level, measure_directions
-from accuracy_checks.results import Status
+from accuracy_checks.config import Bound, Config, Direction, Level
+from accuracy_checks.measures.catalogue import measure_directions
+from accuracy_checks.results import StatusName
 
 #: Levels that apply when the config sets none for the measure (a config's
 #: ``thresholds.default`` replaces them measure by measure). Count checks: ``0`` means any.
@@ -39,7 +40,7 @@ BUILTIN_DEFAULTS: dict[str, Level] = {
 
 @dataclass(frozen=True)
 class Judgement:
-    status: Status
+    status: StatusName
     warn: Bound | None
     fail: Bound | None
 
@@ -68,7 +69,7 @@ class ThresholdBook:
         self._default = {**BUILTIN_DEFAULTS, **config.thresholds.default}
         self._segments = config.thresholds.segments
         self._directions = measure_directions()
-        self._undefined: Status = config.evaluation.undefined_status
+        self._undefined: StatusName = config.evaluation.undefined_status
 
     def direction(self, measure: str) -> Direction:
         return self._directions[measure][0]
@@ -91,7 +92,7 @@ class ThresholdBook:
             return Judgement(self._undefined if level else "skipped", warn, fail)
         direction = self.direction(measure)
         if fail is not None and breaks(value, fail, direction):
-            status: Status = "fail"
+            status: StatusName = "fail"
         elif warn is not None and breaks(value, warn, direction):
             status = "warn"
         else:
@@ -104,7 +105,7 @@ class ThresholdBook:
         level = self.level(measure, segment)
         warn = level.warn if level else None
         fail = level.fail if level else None
-        status: Status = "fail" if fail is not None else "warn" if warn is not None \
+        status: StatusName = "fail" if fail is not None else "warn" if warn is not None \
             else "skipped"
         return Judgement(status, warn, fail)
 

@@ -39,6 +39,8 @@ from typing import TYPE_CHECKING, Any, Literal
 import numpy as np
 import pandas as pd
 
+from accuracy_checks.results import Reason
+
 if TYPE_CHECKING:
     from accuracy_checks.measures.data import MeasureData, MeasureSettings
 
@@ -57,15 +59,16 @@ __all__ = [
 #: ``lower``: lower is better; ``centered``: closer to 0 is better; ``higher``: higher is better.
 Direction = Literal["lower", "centered", "higher"]
 
-#: Reasons a measure value can be undefined.
-REASONS: tuple[str, ...] = (
-    "zero_actual",
-    "zero_denominator",
-    "too_few_rows",
-    "zero_scale",
-    "no_data",
-    "not_configured",
-    "overflow",
+#: Reasons a measure value can be undefined (a subset of
+#: :class:`~accuracy_checks.results.Reason`).
+REASONS: tuple[Reason, ...] = (
+    Reason.ZERO_ACTUAL,
+    Reason.ZERO_DENOMINATOR,
+    Reason.TOO_FEW_ROWS,
+    Reason.ZERO_SCALE,
+    Reason.NO_DATA,
+    Reason.NOT_CONFIGURED,
+    Reason.OVERFLOW,
 )
 
 #: ``(warn, fail)`` levels; each ``None``, a number or a ``(low, high)`` pair.
@@ -179,19 +182,20 @@ def _no_data(stats: pd.DataFrame) -> tuple[np.ndarray, np.ndarray]:
 
 def _me(stats: pd.DataFrame) -> pd.DataFrame:
     _, empty = _no_data(stats)
-    return _result(stats, _column(stats, "mean_e"), [(empty, "no_data")])
+    return _result(stats, _column(stats, "mean_e"), [(empty, Reason.NO_DATA)])
 
 
 def _bias_pct(stats: pd.DataFrame) -> pd.DataFrame:
     _, empty = _no_data(stats)
     sum_abs_y = _column(stats, "sum_abs_y")
     value = _percent(_ratio(_column(stats, "sum_e"), sum_abs_y))
-    return _result(stats, value, [(empty, "no_data"), (sum_abs_y == 0, "zero_denominator")])
+    return _result(stats, value,
+                   [(empty, Reason.NO_DATA), (sum_abs_y == 0, Reason.ZERO_DENOMINATOR)])
 
 
 def _mae(stats: pd.DataFrame) -> pd.DataFrame:
     n, empty = _no_data(stats)
-    return _result(stats, _ratio(_column(stats, "sum_abs_e"), n), [(empty, "no_data")])
+    return _result(stats, _ratio(_column(stats, "sum_abs_e"), n), [(empty, Reason.NO_DATA)])
 
 
 def _mape(stats: pd.DataFrame) -> pd.DataFrame:
@@ -203,7 +207,7 @@ def _mape(stats: pd.DataFrame) -> pd.DataFrame:
     return _result(
         stats,
         value,
-        [(empty, "no_data"), (n_zero > 0, "zero_actual")],
+        [(empty, Reason.NO_DATA), (n_zero > 0, Reason.ZERO_ACTUAL)],
         mape_nonzero=nonzero,
         n_zero_actual=n_zero,
     )
@@ -213,21 +217,22 @@ def _wape(stats: pd.DataFrame) -> pd.DataFrame:
     _, empty = _no_data(stats)
     sum_abs_y = _column(stats, "sum_abs_y")
     value = _percent(_ratio(_column(stats, "sum_abs_e"), sum_abs_y))
-    return _result(stats, value, [(empty, "no_data"), (sum_abs_y == 0, "zero_denominator")])
+    return _result(stats, value,
+                   [(empty, Reason.NO_DATA), (sum_abs_y == 0, Reason.ZERO_DENOMINATOR)])
 
 
 def _rmse(stats: pd.DataFrame) -> pd.DataFrame:
     n, empty = _no_data(stats)
     with np.errstate(invalid="ignore"):
         value = np.sqrt(_ratio(_column(stats, "sum_sq_e"), n))
-    return _result(stats, value, [(empty, "no_data")])
+    return _result(stats, value, [(empty, Reason.NO_DATA)])
 
 
 def _sde(stats: pd.DataFrame) -> pd.DataFrame:
     n, empty = _no_data(stats)
     with np.errstate(invalid="ignore"):
         value = np.sqrt(_ratio(_column(stats, "m2_e"), n - 1.0))
-    return _result(stats, value, [(empty, "no_data"), (n < 2, "too_few_rows")])
+    return _result(stats, value, [(empty, Reason.NO_DATA), (n < 2, Reason.TOO_FEW_ROWS)])
 
 
 #: Every known measure by id. Extend it with :func:`register_measure`, not by assignment.

@@ -38,7 +38,16 @@ from accuracy_checks.outputs.wording import (
     status_word,
     threshold_parts,
 )
-from accuracy_checks.results import DISPLAY_ORDER, CheckResult, RunReport, sort_for_display
+from accuracy_checks.results import (
+    DISPLAY_ORDER,
+    FAILING,
+    NEEDS_ATTENTION,
+    OPEN_FINDINGS,
+    CheckResult,
+    RunReport,
+    Status,
+    sort_for_display,
+)
 
 __all__ = ["render_console"]
 
@@ -49,7 +58,6 @@ MAX_EXAMPLES = 3
 #: Segments of the lag-by-segment overview.
 MAX_OVERVIEW_ROWS = 20
 
-_ATTENTION = ("fail", "error", "warn", "waived")
 _STYLES: dict[str, str] = {
     "fail": "bold red",
     "error": "bold red",
@@ -118,7 +126,7 @@ def _results_table(results: list[CheckResult], ascii_box: bool) -> Table:
 def _lag_overview(results: list[CheckResult], ascii_box: bool) -> tuple[str, Table] | None:
     """The title and table of the lag-by-segment overview, when an accuracy result needs
     attention."""
-    if not any(r.check == "accuracy" and r.status in ("fail", "error", "warn") for r in results):
+    if not any(r.check == "accuracy" and r.status in OPEN_FINDINGS for r in results):
         return None
     overview = lag_table(results, max_rows=MAX_OVERVIEW_ROWS)
     if overview is None:
@@ -172,11 +180,11 @@ def render_console(
 def _print_report(console: Console, report: RunReport, *, verbose: bool) -> None:
     ascii_box = not console.is_terminal or not _is_tty(console.file)
     ordered = sort_for_display(report.results)
-    shown = _ATTENTION if not verbose else tuple(DISPLAY_ORDER)
+    shown = NEEDS_ATTENTION if not verbose else frozenset(DISPLAY_ORDER)
     listed = [r for r in ordered if r.status in shown]
     unlisted = [r for r in ordered if r.status not in shown]
 
-    rest = count_summary(unlisted, ("pass", "skipped"))
+    rest = count_summary(unlisted, (Status.PASS, Status.SKIPPED))
     if listed:
         console.print(_results_table(listed, ascii_box))
         if rest:
@@ -191,15 +199,15 @@ def _print_report(console: Console, report: RunReport, *, verbose: bool) -> None
         console.print(overview[1])
 
     # accuracy results say all in the tables, except the worst offenders of a failure
-    findings = [r for r in ordered if r.status in _ATTENTION
-                and (r.check != "accuracy" or (r.status == "fail" and r.examples))]
+    findings = [r for r in ordered if r.status in NEEDS_ATTENTION
+                and (r.check != "accuracy" or (r.status == Status.FAIL and r.examples))]
     for result in findings:
         console.print()
         title = Text()
         title.append(status_word(result.status), style=_STYLES[result.status])
         title.append(f" {result_label(result)}: {result.message}")
         console.print(title)
-        if result.status in ("fail", "error"):
+        if result.status in FAILING:
             for line in _example_lines(result):
                 console.print(line)
 

@@ -43,7 +43,7 @@ from accuracy_checks.outputs.wording import (
     format_example,
     result_label,
 )
-from accuracy_checks.results import CheckResult, RunReport, sort_for_display
+from accuracy_checks.results import FAILING, CheckResult, RunReport, sort_for_display
 
 __all__ = ["MAX_EXAMPLES", "to_junit_xml", "write_junit"]
 
@@ -113,7 +113,7 @@ def _add_case(suite: ET.Element, result: CheckResult, name: str, fam: str) -> No
         {"classname": f"accuracy_checks.{_clean(fam)}", "name": _clean(name), "time": "0"},
     )
     status = result.status
-    if status in ("fail", "error"):
+    if status in FAILING:
         failure = ET.SubElement(
             case, "failure", {"message": _clean(_summary(result)), "type": status}
         )
@@ -134,7 +134,7 @@ def _add_case(suite: ET.Element, result: CheckResult, name: str, fam: str) -> No
 def _suite_counts(results: list[CheckResult], *, with_skipped: bool = True) -> dict[str, str]:
     """The count attributes of a ``<testsuite>`` (``with_skipped=False``: of ``<testsuites>``,
     where the schema has no ``skipped``)."""
-    failures = sum(r.status in ("fail", "error") for r in results)
+    failures = sum(r.status in FAILING for r in results)
     skipped = sum(r.status in ("skipped", "waived") for r in results)
     counts = {"tests": str(len(results)), "failures": str(failures), "errors": "0"}
     if with_skipped:

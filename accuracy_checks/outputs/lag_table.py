@@ -13,13 +13,12 @@ import math
 from dataclasses import dataclass
 
 from accuracy_checks.outputs.wording import describe_value, format_number, status_word, unit_of
-from accuracy_checks.results import ALL_SERIES, DISPLAY_ORDER, CheckResult
+from accuracy_checks.results import ALL_SERIES, DISPLAY_ORDER, OPEN_FINDINGS, CheckResult
 
 __all__ = ["LagTable", "lag_table", "measure_name"]
 
 #: Order in which the headline measure is chosen.
 HEADLINE_ORDER = ("wape", "mae", "bias_pct", "me", "mape", "smape", "rmse", "sde", "mase")
-_ATTENTION = ("fail", "error", "warn")
 #: Measures named in a cell before "…".
 _MAX_NAMED = 3
 
@@ -97,7 +96,7 @@ def lag_table(results: list[CheckResult], max_rows: int = 50) -> LagTable | None
                          not r.details.get("variant")), None)
             text = _value(head)
             worst = min((r.status for r in cell), key=lambda s: DISPLAY_ORDER[s], default="pass")
-            if worst in _ATTENTION:
+            if worst in OPEN_FINDINGS:
                 named = sorted({measure_name(r) for r in cell if r.status == worst})
                 more = "…" if len(named) > _MAX_NAMED else ""
                 text += f" {status_word(worst)} {', '.join(named[:_MAX_NAMED])}{more}"

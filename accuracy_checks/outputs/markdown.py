@@ -42,7 +42,16 @@ from accuracy_checks.outputs.wording import (
     unit_of,
     unit_suffix,
 )
-from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport, sort_for_display
+from accuracy_checks.results import (
+    ALL_SERIES,
+    FAILING,
+    NEEDS_ATTENTION,
+    OPEN_FINDINGS,
+    CheckResult,
+    RunReport,
+    Status,
+    sort_for_display,
+)
 
 __all__ = [
     "MAX_EXAMPLES",
@@ -60,7 +69,6 @@ MAX_TABLE_ROWS = 100
 #: Segments of the accuracy-by-segment table before it is cut.
 MAX_SEGMENT_ROWS = 50
 
-_ATTENTION = ("fail", "error", "warn", "waived")
 #: Canonical column order of measures (docs/results.md); others follow by name.
 _MEASURE_ORDER = (
     "me",
@@ -117,7 +125,7 @@ def _table(header: Sequence[str], rows: Iterable[Sequence[str]], align: Sequence
 
 def _status_cell(status: str) -> str:
     word = status_word(status)
-    return f"**{word}**" if status in ("fail", "error") else word
+    return f"**{word}**" if status in FAILING else word
 
 
 def _attention_section(results: list[CheckResult]) -> list[str]:
@@ -202,7 +210,7 @@ def _lag_section(results: list[CheckResult]) -> list[str]:
 
 
 def _examples_section(results: list[CheckResult]) -> list[str]:
-    with_examples = [r for r in results if r.status in ("fail", "error", "warn") and r.examples]
+    with_examples = [r for r in results if r.status in OPEN_FINDINGS and r.examples]
     if not with_examples:
         return []
     noun = "result" if len(with_examples) == 1 else "results"
@@ -240,7 +248,7 @@ def render_markdown(report: RunReport) -> str:
         "",
         f"**{escape_cell(headline(report))}**",
     ]
-    attention = [r for r in ordered if r.status in _ATTENTION]
+    attention = [r for r in ordered if r.status in NEEDS_ATTENTION]
     if attention:
         lines += ["", *_attention_section(attention)]
     segment_lines = _segment_section(ordered)
@@ -249,7 +257,7 @@ def render_markdown(report: RunReport) -> str:
     lag_lines = _lag_section(ordered)
     if lag_lines:
         lines += ["", *lag_lines]
-    rest = count_summary(ordered, ("pass", "skipped"))
+    rest = count_summary(ordered, (Status.PASS, Status.SKIPPED))
     if rest:
         lines += ["", escape_cell(f"{rest[0].upper()}{rest[1:]}.")]
     example_lines = _examples_section(ordered)

@@ -27,7 +27,7 @@ import math
 from collections.abc import Iterable, Mapping, Sequence
 from typing import Any
 
-from accuracy_checks.results import CheckResult, RunReport
+from accuracy_checks.results import CheckResult, Reason, RunReport
 
 __all__ = [
     "CENTRED_MEASURES",
@@ -214,7 +214,7 @@ def describe_value(result: CheckResult) -> str:
     """
     value = result.value
     if not _is_defined(value):
-        if result.reason == "overflow":
+        if result.reason == Reason.OVERFLOW:
             return "beyond the floating-point range"
         return f"undefined ({result.reason})" if result.reason else "undefined"
     assert value is not None

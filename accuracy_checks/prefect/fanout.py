@@ -36,7 +36,7 @@ from prefect.cache_policies import NO_CACHE
 from accuracy_checks.config import Config
 from accuracy_checks.measures.stats import error_stats, merge_stats, overflowed, total_stats
 from accuracy_checks.outputs.wording import describe_value
-from accuracy_checks.results import ALL_SERIES, CheckResult, Status
+from accuracy_checks.results import ALL_SERIES, CheckResult, Reason, StatusName
 from accuracy_checks.sources import frames as F
 
 __all__ = [
@@ -68,11 +68,13 @@ def evaluation_rows(config: Config, *, forecast_path: Path | None = None,
     """Read the inputs as the gate does and return the rows the accuracy checks measure
     (earlier forecasts of the configured lags joined with actuals, in the window). Raises
     ``UsageError`` on an unusable config or input; writes nothing."""
-    from accuracy_checks.engine import load_inputs
+    from accuracy_checks.engine import archived_cycles
     from accuracy_checks.evaluation.join import IN_WINDOW, evaluation_frame
+    from accuracy_checks.sources.load import load_inputs
 
     keys = list(config.forecast.keys)
-    inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path)
+    inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
+                         archive=archived_cycles(config))
     ev = evaluation_frame(inputs.earlier, inputs.actuals, keys=keys, frequency=config.frequency,
                           lags=list(config.evaluation.lags), window=config.evaluation.window)
     frame = ev.frame
@@ -179,16 +181,16 @@ def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the windo
                 n_obs=n, n_series=int(n_series[i]), warn=level.warn if level else None,
                 fail=level.fail if level else None)
             if n == 0 or n < min_obs:
-                skip = "no_data" if n == 0 else "too_few_rows"
+                skip = Reason.NO_DATA if n == 0 else Reason.TOO_FEW_ROWS
                 out.append(CheckResult("accuracy", "skipped", reason=skip,
                                        message=f"{measure.label} not judged ({skip}) at lag "
                                                f"{lag} in {window}.", **common))
                 continue
             value = float(values[i]) if np.isfinite(values[i]) else None
-            status: Status = book.judge(measure_id, segment, value).status
-            reason = None if value is not None else str(reasons[i] or "no_data")
+            status: StatusName = book.judge(measure_id, segment, value).status
+            reason = None if value is not None else str(reasons[i] or Reason.NO_DATA)
             if overflow[i] and reasons[i] is None:
-                value, reason = None, "overflow"
+                value, reason = None, Reason.OVERFLOW
                 status = book.judge_overflow(measure_id, segment).status
             result = CheckResult("accuracy", status, value=value, reason=reason, **common)
             text = (f"{measure.label} {describe_value(result)} over {n:,} forecasts of "
