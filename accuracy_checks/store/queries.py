@@ -1,4 +1,5 @@
-"""Read-side queries of the audit store: run history and current breaches.
+"""Read-side queries of the audit store: run history, current breaches, and the trail of
+figures the drift checks judge a run against (:func:`trail_of_figures`).
 
 Every query is built with SQLAlchemy Core and bound parameters: a segment named
 ``x'); DROP TABLE runs;--`` is a value like any other.
@@ -11,7 +12,7 @@ from collections.abc import Sequence
 from datetime import UTC, date, datetime, time, timedelta
 from typing import Any
 
-from sqlalchemy import ColumnElement, Connection, and_, case, func, select
+from sqlalchemy import ColumnElement, Connection, and_, case, false, func, or_, select
 
 from accuracy_checks.store.schema import results, runs
 
@@ -204,4 +205,60 @@ def breaches(conn: Connection, *, segment: str | None = None,
             "fail": _json(r["fail"]),
             "waiver_id": r["waiver_id"],
         })
+    return out
+
+
+#: the fields of each row of :func:`trail_of_figures`, in order
+TRAIL_COLUMNS = ("check", "segment", "measure", "lag", "variant", "cycle", "status", "value")
+
+
+def trail_of_figures(conn: Connection, *, before: str | None, cycles: int,
+                     accuracy_measures: Sequence[str] | None = None,
+                     breached: Sequence[tuple[str, str]] = ()) -> list[tuple[Any, ...]]:
+    """Recorded results of the last attempt of each of the ``cycles`` latest cycles before
+    ``before`` (a cycle label; ``None``: every recorded cycle), one plain tuple each with the
+    fields :data:`TRAIL_COLUMNS`, in the order the store returns them.
+
+    Only what the drift checks need is read: ``accuracy`` results of ``accuracy_measures``
+    (every accuracy measure when ``None``) and results of the (check, measure) pairs in
+    ``breached``; results without a measure never. ``variant`` is the ``variant`` of the
+    result's details (``""`` when none). Two queries, every value bound.
+    """
+    found = conn.execute(
+        select(runs.c.id, runs.c.cycle, runs.c.attempt).where(runs.c.cycle.is_not(None))
+    ).all()
+    last: dict[str, tuple[int, int]] = {}
+    for pk, cyc, attempt in found:
+        key = (int(attempt or 0), int(pk))
+        if (before is None or cyc < before) and (cyc not in last or key > last[cyc]):
+            last[cyc] = key
+    chosen = sorted(last)[-cycles:] if cycles > 0 else []
+    pk_cycle = {last[c][1]: c for c in chosen}
+    wanted = []
+    if accuracy_measures is None:
+        wanted.append(results.c.check_name == "accuracy")
+    elif accuracy_measures:
+        wanted.append(and_(results.c.check_name == "accuracy",
+                           results.c.measure.in_(list(accuracy_measures))))
+    wanted += [and_(results.c.check_name == check, results.c.measure == measure)
+               for check, measure in sorted(set(breached))]
+    if not pk_cycle or not wanted:
+        return []
+    has_variant = results.c.details.like('%"variant"%')
+    rows = conn.execute(
+        select(results.c.run_pk, results.c.check_name, results.c.segment, results.c.measure,
+               results.c.lag, results.c.status, results.c.value,
+               case((has_variant, results.c.details), else_=None))
+        .where(results.c.run_pk.in_(list(pk_cycle)), results.c.measure.is_not(None),
+               or_(false(), *wanted))
+    ).all()
+    variants: dict[str, str] = {}  # one parse per distinct details text
+    out = []
+    for run_pk, check, segment, measure, lag, status, value, details in rows:
+        variant = ""
+        if details is not None:
+            if details not in variants:
+                variants[details] = str((json.loads(details) or {}).get("variant") or "")
+            variant = variants[details]
+        out.append((check, segment, measure, lag, variant, pk_cycle[run_pk], status, value))
     return out
