@@ -42,12 +42,13 @@ __all__ = [
 
 if TYPE_CHECKING:
     from accuracy_checks.api import evaluation_frame
-    from accuracy_checks.config import load_config
     from accuracy_checks.engine import run_checks
     from accuracy_checks.measures import Measure, MeasureData, register_measure
+    from accuracy_checks.measures.catalogue import load_config
 
-_LAZY = {"load_config": "accuracy_checks.config", "run_checks": "accuracy_checks.engine",
-         "evaluation_frame": "accuracy_checks.api", "Measure": "accuracy_checks.measures",
+_LAZY = {"load_config": "accuracy_checks.measures.catalogue",
+         "run_checks": "accuracy_checks.engine", "evaluation_frame": "accuracy_checks.api",
+         "Measure": "accuracy_checks.measures",
          "MeasureData": "accuracy_checks.measures",
          "register_measure": "accuracy_checks.measures"}
 

@@ -31,9 +31,9 @@ from pathlib import Path
 if __package__ in (None, ""):  # run as a script: make the repository's packages importable
     sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 
-from accuracy_checks.config import load_config
 from accuracy_checks.engine import run_checks
 from accuracy_checks.errors import UsageError
+from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.outputs import (
     headline,
     render_console,

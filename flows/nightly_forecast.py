@@ -44,8 +44,8 @@ from prefect.cache_policies import NO_CACHE
 from prefect.futures import wait
 from prefect.states import State
 
-from accuracy_checks.config import load_config
 from accuracy_checks.errors import GateFailed, UsageError
+from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.outputs.wording import headline
 from accuracy_checks.prefect import (
     check_forecast,

@@ -118,7 +118,7 @@ def _open(args: argparse.Namespace, *, create: bool) -> Store | None:
     from accuracy_checks.store.urls import default_store_url, sqlite_file
 
     if args.config is not None:
-        from accuracy_checks.config import load_config
+        from accuracy_checks.measures.catalogue import load_config
 
         url = default_store_url(load_config(args.config))
     else:

@@ -83,14 +83,14 @@ def main(argv: list[str] | None = None) -> int:
         if args.command == "report":
             return _report(args)
         if args.command == "validate":
-            from accuracy_checks.config import load_config
+            from accuracy_checks.measures.catalogue import load_config
 
             cfg = load_config(args.config)
             print(f"{args.config}: valid (forecast {cfg.forecast.path}, horizon {cfg.horizon}, "
                   f"frequency {cfg.frequency})")
             return EXIT_PASS
         if args.command == "schema":
-            from accuracy_checks.config import json_schema
+            from accuracy_checks.measures.catalogue import json_schema
 
             text = json.dumps(json_schema(), indent=2)
             if args.out:
@@ -134,8 +134,8 @@ def main(argv: list[str] | None = None) -> int:
 
 
 def _run(args: argparse.Namespace) -> int:
-    from accuracy_checks.config import load_config
     from accuracy_checks.engine import run_checks
+    from accuracy_checks.measures.catalogue import load_config
     from accuracy_checks.outputs import render_console, write_json, write_junit, write_markdown
 
     config = load_config(args.config)
@@ -174,7 +174,8 @@ def _report_day(text: str) -> date:
 
 def _report(args: argparse.Namespace) -> int:
     """``accuracy-checks report``: the HTML report of a config's (or a URL's) audit store."""
-    from accuracy_checks.config import Config, load_config
+    from accuracy_checks.config import Config
+    from accuracy_checks.measures.catalogue import load_config
     from accuracy_checks.report import write_report
 
     target: Config | str = load_config(args.config) if args.config is not None else args.store

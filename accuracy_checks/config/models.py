@@ -1,42 +1,53 @@
-"""The YAML config: pydantic v2 models, safe loading and messages a user can act on.
+"""The config's pydantic models: declarations of sources, sections, thresholds and drift.
 
-The models are declarations only (no pandas, no I/O beyond reading the file itself). Every
-problem is raised as :class:`~accuracy_checks.errors.ConfigError` naming the file, the key path
-and, for a misspelt key, the closest valid key.
+Declarations only: no pandas, no I/O, no import of the measures. Each model checks its own
+structure (types, ranges, keys, the date formats, how sections fit together); the names that
+depend on the measure catalogue (measure ids, which way a level must point, a measure's inputs,
+the frequency) are checked against the :class:`~accuracy_checks.config.catalogue.Catalogue`
+handed in through pydantic's validation context, and left unchecked without one.
 """
 
 from __future__ import annotations
 
-import difflib
-import json
 import re
-import typing
 from pathlib import Path
-from typing import Annotated, Any, Literal
+from typing import Annotated, Literal
 
-import yaml
 from pydantic import (
     BaseModel,
     ConfigDict,
     Field,
     PrivateAttr,
-    ValidationError,
+    ValidationInfo,
     field_validator,
     model_validator,
 )
 
-from accuracy_checks.errors import ConfigError
+from accuracy_checks.config.catalogue import (
+    catalogue_of,
+    check_frequency,
+    check_measure_list,
+    has_central_interval,
+    unknown_measure,
+    unmet_inputs,
+)
+from accuracy_checks.config.levels import Bound, check_level
 
-Direction = Literal["lower", "centered", "higher"]
-
-#: Measures a threshold can name, with the way that is better. Accuracy measures come from the
-#: measure registry; the rest are figures of the coverage checks.
-CHECK_MEASURES: dict[str, tuple[Direction, str]] = {
-    "missing_series_pct": ("lower", "%"),
-    "unexpected_series": ("lower", "count"),
-    "incomplete_series": ("lower", "count"),
-    "series_count_change_pct": ("centered", "%"),
-}
+__all__ = [
+    "MAX_HORIZON",
+    "RESERVED_COLUMNS",
+    "ActualsSource",
+    "Config",
+    "Costs",
+    "Coverage",
+    "Drift",
+    "Evaluation",
+    "ForecastSource",
+    "Level",
+    "Segments",
+    "Thresholds",
+    "UnitCosts",
+]
 
 #: The longest horizon a config may give (periods).
 MAX_HORIZON = 1000
@@ -47,25 +58,8 @@ RESERVED_COLUMNS = frozenset(
 )
 
 
-def measure_directions() -> dict[str, tuple[Direction, str]]:
-    """Every measure id a threshold may name → (direction, unit).
-
-    Accuracy measures come from the registry, plugins (entry points) included.
-    """
-    from accuracy_checks.measures.registry import registered_measures
-
-    out: dict[str, tuple[Direction, str]] = {
-        m.id: (m.direction, m.unit) for m in registered_measures().values()
-    }
-    out.update(CHECK_MEASURES)
-    return out
-
-
 class _Strict(BaseModel):
     model_config = ConfigDict(extra="forbid", frozen=True)
-
-
-Bound = float | tuple[float, float]
 
 
 class Level(_Strict):
@@ -234,8 +228,8 @@ class Evaluation(_Strict):
 
     @field_validator("measures")
     @classmethod
-    def _measures(cls, measures: list[str]) -> list[str]:
-        return _measure_list(measures)
+    def _measures(cls, measures: list[str], info: ValidationInfo) -> list[str]:
+        return check_measure_list(measures, catalogue_of(info))
 
 
 class UnitCosts(_Strict):
@@ -291,8 +285,8 @@ class Drift(_Strict):
 
     @field_validator("measures")
     @classmethod
-    def _measures(cls, measures: list[str]) -> list[str]:
-        return _measure_list(measures)
+    def _measures(cls, measures: list[str], info: ValidationInfo) -> list[str]:
+        return check_measure_list(measures, catalogue_of(info))
 
     @model_validator(mode="after")
     def _counts(self) -> Drift:
@@ -367,19 +361,11 @@ class Config(_Strict):
 
     @field_validator("frequency")
     @classmethod
-    def _frequency(cls, frequency: str) -> str:
-        import pandas as pd
-
-        try:
-            pd.tseries.frequencies.to_offset(frequency)
-        except ValueError as exc:
-            raise ValueError(
-                f"{frequency!r} is not a pandas offset alias (e.g. D, W-MON, MS, QS)"
-            ) from exc
-        return frequency
+    def _frequency(cls, frequency: str, info: ValidationInfo) -> str:
+        return check_frequency(frequency, catalogue_of(info))
 
     @model_validator(mode="after")
-    def _cross_field(self) -> Config:
+    def _cross_field(self, info: ValidationInfo) -> Config:
         if self.actuals.keys is not None and len(self.actuals.keys) != len(self.forecast.keys):
             raise ValueError(
                 f"actuals.keys {self.actuals.keys} has {len(self.actuals.keys)} column(s) but "
@@ -392,346 +378,37 @@ class Config(_Strict):
             raise ValueError(
                 f"evaluation.lags {beyond} lie beyond the horizon of {self.horizon} periods"
             )
-        known = measure_directions()
-        levels = [("thresholds.default", self.thresholds.default)] + [
-            (f"thresholds.segments.{name}", lv) for name, lv in self.thresholds.segments.items()
-        ]
-        for where, by_measure in levels:
+        catalogue = catalogue_of(info)
+        if catalogue is None:
+            return self
+        for where, by_measure in self._levels():
             for measure, level in by_measure.items():
-                if measure not in known:
-                    raise ValueError(
-                        f"{where}.{measure}: unknown measure {measure!r}"
-                        + _did_you_mean(measure, known)
-                        + f"; measures: {', '.join(sorted(known))}"
-                    )
-                _check_level(f"{where}.{measure}", level, known[measure][0])
+                known = catalogue.measures.get(measure)
+                if known is None:
+                    raise ValueError(unknown_measure(f"{where}.{measure}", measure, catalogue))
+                check_level(f"{where}.{measure}", level.warn, level.fail, known.direction)
         return self
 
     @model_validator(mode="after")
-    def _measure_inputs(self) -> Config:
+    def _measure_inputs(self, info: ValidationInfo) -> Config:
         """A measure that a threshold or ``evaluation.measures`` names must have its inputs
         (unit costs, quantiles, a central interval); ``all`` only takes what is fed."""
-        from accuracy_checks.measures.data import central_intervals
-        from accuracy_checks.measures.registry import registered_measures
-
+        catalogue = catalogue_of(info)
+        if catalogue is None:
+            return self
         have = {
             "costs": self.costs is not None,
             "quantiles": bool(self.forecast.quantiles),
-            "intervals": bool(central_intervals(list(self.forecast.quantiles))),
-        }
-        what = {
-            "costs": "a `costs` section (unit costs of under- and over-forecasting)",
-            "quantiles": "quantile columns in `forecast.quantiles`",
-            "intervals": "two quantile levels τ and 1 − τ in `forecast.quantiles` "
-                         "(e.g. 0.1 and 0.9)",
+            "intervals": has_central_interval(self.forecast.quantiles),
         }
         named = [("evaluation.measures", m) for m in self.evaluation.measures]
-        named += [("thresholds.default", m) for m in self.thresholds.default]
-        named += [(f"thresholds.segments.{s}", m)
-                  for s, lv in self.thresholds.segments.items() for m in lv]
-        registry = registered_measures()
-        for where, measure in named:
-            needs = registry[measure].needs if measure in registry else frozenset()
-            for need in sorted(needs):
-                if not have.get(need, True):
-                    raise ValueError(f"{where} names {measure!r}, which needs {what[need]}")
+        named += [(where, m) for where, by_measure in self._levels() for m in by_measure]
+        unmet_inputs(named, have, catalogue)
         return self
 
-
-def _as_pair(bound: Bound, direction: Direction) -> tuple[float, float]:
-    if isinstance(bound, tuple):
-        return bound
-    return (-bound, bound) if direction == "centered" else (bound, bound)
-
-
-def _check_level(where: str, level: Level, direction: Direction) -> None:
-    for name in ("warn", "fail"):
-        bound = getattr(level, name)
-        if isinstance(bound, tuple):
-            if direction != "centered":
-                raise ValueError(
-                    f"{where}.{name}: a [low, high] pair only suits measures judged by their "
-                    f"distance from 0 (me, bias_pct, series_count_change_pct); give one number"
-                )
-            if bound[0] > bound[1]:
-                raise ValueError(f"{where}.{name}: low {bound[0]} is above high {bound[1]}")
-        elif bound is not None and direction == "centered" and bound < 0:
-            raise ValueError(
-                f"{where}.{name}: {bound} bounds the absolute value and cannot be negative; "
-                "use a [low, high] pair for asymmetric bounds"
-            )
-    if level.warn is None or level.fail is None:
-        return
-    w, f = level.warn, level.fail
-    if direction == "centered":
-        (wl, wh), (fl, fh) = _as_pair(w, direction), _as_pair(f, direction)
-        if not (fl <= wl and wh <= fh):
-            raise ValueError(
-                f"{where}: the warn level {_show(w)} must lie inside the fail level {_show(f)} "
-                "(warn comes before fail)"
-            )
-    elif direction == "lower" and w > f:  # type: ignore[operator]
-        raise ValueError(
-            f"{where}: warn {_show(w)} is beyond fail {_show(f)}; for this measure lower is "
-            f"better, so warn must be ≤ fail (e.g. warn: {_show(f)}, fail: {_show(w)})"
-        )
-    elif direction == "higher" and w < f:  # type: ignore[operator]
-        raise ValueError(
-            f"{where}: warn {_show(w)} is below fail {_show(f)}; for this measure higher is "
-            "better, so warn must be ≥ fail"
-        )
-
-
-def _show(bound: Bound) -> str:
-    if isinstance(bound, tuple):
-        return f"[{bound[0]:g}, {bound[1]:g}]"
-    return f"{bound:g}"
-
-
-def _measure_list(measures: list[str]) -> list[str]:
-    """Measure ids (or ``all``) named in a list key, each known, without repeats."""
-    known = measure_directions()
-    for measure in measures:
-        if measure != "all" and measure not in known:
-            raise ValueError(
-                f"unknown measure {measure!r}" + _did_you_mean(measure, known)
-                + f"; measures: all, {', '.join(sorted(known))}"
-            )
-    return list(dict.fromkeys(measures))
-
-
-def _did_you_mean(word: str, candidates: typing.Iterable[str]) -> str:
-    match = difflib.get_close_matches(word, list(candidates), n=1, cutoff=0.6)
-    return f" — did you mean {match[0]!r}?" if match else ""
-
-
-# --------------------------------------------------------------------------- loading
-
-
-class _UniqueKeyLoader(yaml.SafeLoader):
-    """Safe loader that rejects a key given twice in one mapping (YAML keeps the last silently)."""
-
-
-def _construct_mapping(loader: _UniqueKeyLoader, node: yaml.MappingNode) -> dict[Any, Any]:
-    seen: set[Any] = set()
-    for key_node, _ in node.value:
-        key = loader.construct_object(key_node)
-        if key in seen:
-            raise yaml.constructor.ConstructorError(
-                None, None, f"key {key!r} is given twice", key_node.start_mark
-            )
-        seen.add(key)
-    return loader.construct_mapping(node)
-
-
-_UniqueKeyLoader.add_constructor(
-    yaml.resolver.BaseResolver.DEFAULT_MAPPING_TAG,
-    _construct_mapping,  # type: ignore[arg-type]
-)
-
-
-def load_config(path: str | Path, **overrides: Any) -> Config:
-    """Read, validate and resolve a config file.
-
-    ``overrides`` replace top-level sections after loading (used by the CLI's path options).
-    Raises :class:`ConfigError` with a message naming the file and key.
-    """
-    path = Path(path)
-    try:
-        text = path.read_text(encoding="utf-8")
-    except FileNotFoundError:
-        raise ConfigError(
-            f"Config file {path} does not exist. Pass the path of your YAML config with "
-            "--config (see the README's config reference)."
-        ) from None
-    except (OSError, UnicodeDecodeError) as exc:
-        raise ConfigError(f"Config file {path} cannot be read: {exc}.") from exc
-    return parse_config(text, source=path, **overrides)
-
-
-def parse_config(text: str, *, source: Path | None = None, **overrides: Any) -> Config:
-    """Validate config text (YAML). Relative paths resolve against ``source``'s folder."""
-    name = str(source) if source else "<config>"
-    try:
-        raw = yaml.load(text, Loader=_UniqueKeyLoader)
-    except yaml.YAMLError as exc:
-        mark = getattr(exc, "problem_mark", None)
-        where = f" at line {mark.line + 1}, column {mark.column + 1}" if mark else ""
-        problem = getattr(exc, "problem", None) or str(exc)
-        raise ConfigError(f"Config file {name} is not valid YAML{where}: {problem}.") from None
-    if raw is None:
-        raise ConfigError(f"Config file {name} is empty; see the README's config reference.")
-    if not isinstance(raw, dict):
-        raise ConfigError(
-            f"Config file {name} must be a mapping of keys (version, forecast, actuals, …); "
-            f"it holds a {type(raw).__name__}."
-        )
-    raw.update(overrides)
-    try:
-        config = Config.model_validate(raw)
-    except ValidationError as exc:
-        raise ConfigError(_explain(exc, name)) from None
-    base = source.resolve().parent if source else Path.cwd()
-    config = _resolve_paths(config, base)
-    config._source = source.resolve() if source else None
-    config._text = text
-    return config
-
-
-def _resolve_paths(config: Config, base: Path) -> Config:
-    def res(p: Path) -> Path:
-        p = p.expanduser()
-        return p if p.is_absolute() else (base / p)
-
-    history = config.history
-    if isinstance(history, list):
-        history = [res(p) for p in history]
-    elif history is not None:
-        history = res(history)
-    store = config.store
-    prefix = "sqlite:///"
-    if store and store.startswith(prefix) and not store.startswith(prefix + "/"):
-        rest = store[len(prefix) :]
-        if rest and rest != ":memory:":
-            store = prefix + str(res(Path(rest)))
-    mapping = config.segments.mapping
-    return config.model_copy(
-        update={
-            "forecast": config.forecast.model_copy(update={"path": res(config.forecast.path)}),
-            "actuals": config.actuals.model_copy(update={"path": res(config.actuals.path)}),
-            "history": history,
-            "archive": res(config.archive),
-            "store": store,
-            "segments": config.segments.model_copy(
-                update={"mapping": res(mapping) if mapping else None}
-            ),
-        }
-    )
-
-
-def _explain(exc: ValidationError, name: str) -> str:
-    lines = []
-    for err in exc.errors():
-        loc = tuple(err["loc"])
-        key = ".".join(str(p) for p in loc if not _is_union_tag(p)) or "(top level)"
-        kind = err["type"]
-        if kind == "extra_forbidden":
-            parent = tuple(p for p in loc[:-1] if not _is_union_tag(p))
-            valid = _fields_at(parent)
-            hint = _did_you_mean(str(loc[-1]), valid)
-            allowed = f" Valid keys here: {', '.join(valid)}." if valid else ""
-            lines.append(f"unknown key `{key}`{hint}.{allowed}")
-        elif kind == "missing":
-            lines.append(f"`{key}` is required but missing.")
-        else:
-            msg = err["msg"].removeprefix("Value error, ")
-            value = err.get("input")
-            shown = (
-                f" (got {json.dumps(value, default=str)[:80]})"
-                if not isinstance(value, dict | list)
-                else ""
-            )
-            lines.append(f"`{key}`: {msg}{shown}.")
-    unique = list(dict.fromkeys(lines))
-    return f"Config file {name} is invalid: " + " ".join(unique)
-
-
-def _is_union_tag(part: Any) -> bool:
-    # pydantic inserts the member type's name into the location of union errors
-    return isinstance(part, str) and (
-        part in {"float", "tuple[float, float]", "bool", "list[str]", "list[Path]", "Path"}
-        or part.startswith(("function-", "tuple[", "list["))
-    )
-
-
-def _fields_at(loc: tuple[Any, ...]) -> list[str]:
-    """The valid keys of the model found at ``loc`` (for "did you mean")."""
-    tp: Any = Config
-    for part in loc:
-        tp = _unwrap(tp)
-        if isinstance(tp, type) and issubclass(tp, BaseModel):
-            field = tp.model_fields.get(str(part))
-            if field is None:
-                return []
-            tp = field.annotation
-        elif typing.get_origin(tp) is dict:
-            tp = typing.get_args(tp)[1]
-        else:
-            return []
-    tp = _unwrap(tp)
-    if isinstance(tp, type) and issubclass(tp, BaseModel):
-        return list(tp.model_fields)
-    return []
-
-
-def _unwrap(tp: Any) -> Any:
-    origin = typing.get_origin(tp)
-    if origin is Annotated:
-        return _unwrap(typing.get_args(tp)[0])
-    if origin in (typing.Union, getattr(__import__("types"), "UnionType", None)):
-        models = [a for a in typing.get_args(tp) if a is not type(None)]
-        return _unwrap(models[0]) if len(models) == 1 else tp
-    return tp
-
-
-def json_schema() -> dict[str, Any]:
-    """The config's JSON Schema (for editors: yaml-language-server, VS Code).
-
-    Built at call time from :func:`measure_directions`, so plugin measures are included. It
-    rejects what :func:`parse_config` rejects for a name: an unknown key anywhere, an unknown
-    measure as a threshold key (``thresholds.default.<measure>``,
-    ``thresholds.segments.<segment>.<measure>``) or in ``evaluation.measures`` /
-    ``drift.measures`` (which also take ``all``); and it lists the valid measures for
-    completion (one property per measure, with its label, unit and direction).
-    """
-    schema = Config.model_json_schema()
-    schema["$schema"] = "https://json-schema.org/draft/2020-12/schema"
-    schema["title"] = "accuracy-checks config"
-    _add_measure_names(schema)
-    return schema
-
-
-def _measure_description(measure: str) -> str:
-    """One line for an editor's completion list: label, unit, which way is better."""
-    from accuracy_checks.measures.registry import registered_measures
-
-    direction, unit = measure_directions()[measure]
-    better = {
-        "lower": "lower is better",
-        "higher": "higher is better",
-        "centered": "levels bound its distance from its target",
-    }[direction]
-    registered = registered_measures().get(measure)
-    label = registered.label if registered is not None else "coverage check figure"
-    return f"{label} ({unit}; {better})" if unit else f"{label} ({better})"
-
-
-def _add_measure_names(schema: dict[str, Any]) -> None:
-    """Constrain the measure names of ``schema`` (from :meth:`Config.model_json_schema`) in
-    place: ``$defs/MeasureLevels`` (one property per measure, no other key) for the threshold
-    maps, ``$defs/MeasureName`` (an enum with ``all``) for the measure lists."""
-    known = sorted(measure_directions())
-    defs = schema["$defs"]
-    defs["MeasureLevels"] = {
-        "title": "Levels by measure",
-        "description": "warn and fail levels keyed by measure id",
-        "type": "object",
-        "properties": {
-            m: {"$ref": "#/$defs/Level", "description": _measure_description(m)} for m in known
-        },
-        "additionalProperties": False,
-    }
-    defs["MeasureName"] = {
-        "title": "Measure",
-        "description": "a measure id, or `all` for every measure whose inputs the config has",
-        "enum": ["all", *known],
-    }
-    thresholds = defs["Thresholds"]["properties"]
-    thresholds["default"] = {"$ref": "#/$defs/MeasureLevels"}
-    thresholds["segments"] = {
-        "title": "Levels by segment",
-        "type": "object",
-        "additionalProperties": {"$ref": "#/$defs/MeasureLevels"},
-    }
-    for model in ("Evaluation", "Drift"):
-        defs[model]["properties"]["measures"]["items"] = {"$ref": "#/$defs/MeasureName"}
+    def _levels(self) -> list[tuple[str, dict[str, Level]]]:
+        """``(where, levels by measure)`` of ``thresholds.default`` and each segment."""
+        return [("thresholds.default", self.thresholds.default)] + [
+            (f"thresholds.segments.{name}", levels)
+            for name, levels in self.thresholds.segments.items()
+        ]

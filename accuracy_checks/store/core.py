@@ -244,7 +244,8 @@ class Store:
         """Grant a waiver of ``segment`` × ``measure`` (× ``lag``) through ``until`` (UTC,
         inclusive). Raises :class:`StoreError` for a past ``until``, an empty reason, an
         unknown measure or a lag below 1."""
-        from accuracy_checks.config import _did_you_mean, measure_directions
+        from accuracy_checks.config import did_you_mean as _did_you_mean
+        from accuracy_checks.measures.catalogue import measure_directions
 
         now = datetime.now(UTC)
         today = today or now.date()

@@ -8,8 +8,8 @@ from pathlib import Path
 import jsonschema
 import pytest
 
-from accuracy_checks.config import json_schema, load_config, parse_config
 from accuracy_checks.errors import ConfigError
+from accuracy_checks.measures.catalogue import json_schema, load_config, parse_config
 from tests.support.paths import REPO
 
 BASE = """\

@@ -17,8 +17,8 @@ import pytest
 import yaml
 
 from accuracy_checks.cli.main import main
-from accuracy_checks.config import json_schema, measure_directions, parse_config
 from accuracy_checks.errors import ConfigError
+from accuracy_checks.measures.catalogue import json_schema, measure_directions, parse_config
 from accuracy_checks.measures.plugins import GROUP, reset_plugins
 from accuracy_checks.measures.registry import Measure
 from tests.support.paths import REPO

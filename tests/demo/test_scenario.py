@@ -154,7 +154,7 @@ def test_forecast_schema_and_quantile_order(scenario: Scenario, which: str) -> N
 
 
 def test_config_matches_the_files(scenario: Scenario) -> None:
-    from accuracy_checks.config import load_config
+    from accuracy_checks.measures.catalogue import load_config
 
     config = load_config(scenario.config_path)
     assert config.forecast.path == scenario.forecast_paths[0].resolve()

@@ -20,9 +20,9 @@ from statsmodels.tools import eval_measures as sm
 
 from accuracy_checks.checks.accuracy import accuracy_results
 from accuracy_checks.checks.judge import ThresholdBook
-from accuracy_checks.config import parse_config
 from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.measures import functions as fn
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.measures.data import CostTable, MeasureSettings
 from accuracy_checks.results import CheckResult
 

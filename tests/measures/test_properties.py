@@ -21,8 +21,8 @@ from hypothesis import strategies as st
 
 from accuracy_checks.checks.accuracy import accuracy_results
 from accuracy_checks.checks.judge import ThresholdBook
-from accuracy_checks.config import parse_config
 from accuracy_checks.evaluation.baselines import ActualsIndex
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.measures.data import CostTable, MeasureSettings
 from accuracy_checks.measures.registry import MEASURES, registered_measures
 from accuracy_checks.measures.stats import error_stats, merge_stats

@@ -32,8 +32,8 @@ from prefect.states import State
 from prefect.testing.utilities import prefect_test_harness
 
 from accuracy_checks.cli.main import main as cli_main
-from accuracy_checks.config import load_config
 from accuracy_checks.errors import GateFailed, InputError
+from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.prefect import WARNED_STATE_NAME
 from accuracy_checks.store import open_store
 from flows.nightly_forecast import main as nightly_main
