@@ -29,9 +29,8 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.checks.output import json_value, plural, verb
+from accuracy_checks.checks.examples import count_series, plural, row_examples, verb
 from accuracy_checks.results import ALL_SERIES, CheckResult, Status
-from accuracy_checks.sources.codes import combined_codes
 from accuracy_checks.sources.frames import ACTUAL, PERIOD
 
 __all__ = ["INVALID_ACTUALS", "actuals_checks"]
@@ -58,7 +57,7 @@ def actuals_checks(actuals: pd.DataFrame, *, keys: list[str], column: str | None
     left_out = ~np.isfinite(values)
     what = f"`{column}`" if column else "value"
     if not left_out.any():
-        return [CheckResult(INVALID_ACTUALS, "pass", segment=ALL_SERIES, value=0, n_obs=0,
+        return [CheckResult(INVALID_ACTUALS, Status.PASS, segment=ALL_SERIES, value=0, n_obs=0,
                             n_series=0, unit="count", details={"infinite": 0, "missing": 0},
                             message=f"Every actual {what} read is a finite number.")]
     missing = np.isnan(values)
@@ -69,14 +68,14 @@ def actuals_checks(actuals: pd.DataFrame, *, keys: list[str], column: str | None
                                   details={"infinite": n_inf, "missing": n_missing})
     order = np.concatenate([np.flatnonzero(infinite), np.flatnonzero(missing)])
     examples = _examples(actuals, order[:max(int(max_examples), 0)], keys, values)
-    n_series = _n_series(actuals, keys, left_out)
+    n_series = count_series(actuals, keys, left_out)
     missing_text = (f"{plural(n_missing, 'row')} {verb(n_missing, 'has', 'have')} no actual "
                     f"{what} (an empty cell): read as not arrived yet and left out of the "
                     "figures")
     status: Status
     if n_inf:
         rows = verb(n_inf, "that row is", "those rows are")
-        n_inf_series = _n_series(actuals, keys, infinite)
+        n_inf_series = count_series(actuals, keys, infinite)
         shown = _first(examples, "infinity", "-infinity")
         text = (f"{plural(n_inf, 'actual')} {verb(n_inf, 'is', 'are')} infinite in the actuals' "
                 f"{what} column ({plural(n_inf_series, 'series', 'series')}; first: {shown}). "
@@ -85,36 +84,26 @@ def actuals_checks(actuals: pd.DataFrame, *, keys: list[str], column: str | None
                 "empty cell for a value not known yet).")
         if n_missing:
             text += f" Besides, {missing_text}."
-        status = "fail"
+        status = Status.FAIL
     else:
         text = f"{missing_text[0].upper()}{missing_text[1:]} (first: {_first(examples)})."
-        status = "pass"
+        status = Status.PASS
     return [CheckResult(INVALID_ACTUALS, status, n_series=n_series, examples=examples,
                         message=text, **common)]
 
 
 def _examples(actuals: pd.DataFrame, positions: np.ndarray, keys: list[str],
               values: np.ndarray) -> list[dict[str, Any]]:
-    if positions.size == 0:
-        return []
-    rows = actuals.iloc[positions]
-    cells = {c: rows[c].tolist() for c in [*keys, PERIOD]}
-    out = []
-    for i, position in enumerate(positions):
-        example: dict[str, Any] = {c: json_value(cells[c][i]) for c in [*keys, PERIOD]}
+    examples = row_examples(actuals, positions, [*keys, PERIOD])
+    for example, position in zip(examples, positions, strict=True):
         example["actual"] = _word(float(values[position]))
-        out.append(example)
-    return out
+    return examples
 
 
 def _word(value: float) -> str:
     if np.isnan(value):
         return "missing"
     return "infinity" if value > 0 else "-infinity"
-
-
-def _n_series(actuals: pd.DataFrame, keys: list[str], mask: np.ndarray) -> int:
-    return int(np.unique(combined_codes(actuals, keys, mask)).size) if mask.any() else 0
 
 
 def _first(examples: list[dict[str, Any]], *words: str, n: int = 3) -> str:

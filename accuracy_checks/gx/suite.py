@@ -43,7 +43,7 @@ from great_expectations.expectations.row_conditions import (
 from accuracy_checks import __version__
 from accuracy_checks.api import read_config
 from accuracy_checks.checks.judge import BUILTIN_DEFAULTS
-from accuracy_checks.checks.output import (
+from accuracy_checks.checks.output_schema import (
     DUPLICATE_ROWS,
     INVALID_VALUES,
     ISSUE_DATES,

@@ -8,7 +8,6 @@ of ``accuracy_checks.checks.coverage`` (project rules, no outside source): e.g. 
 from __future__ import annotations
 
 import json
-from collections.abc import Iterable, Sequence
 
 import numpy as np
 import pandas as pd
@@ -19,122 +18,17 @@ from accuracy_checks.checks.coverage import (
     MISSING_SERIES,
     SERIES_COUNT,
     UNEXPECTED_SERIES,
-    coverage_checks,
 )
-from accuracy_checks.checks.judge import ThresholdBook
-from accuracy_checks.config import parse_config
 from accuracy_checks.errors import InputError
-from accuracy_checks.results import CheckResult
-
-KEYS = ["store", "product"]
-CYCLE = pd.Timestamp("2026-03-02")  # a Monday: the first forecast week
-ISSUED = pd.Timestamp("2026-02-27")
-Series = tuple[str, str]
-
-CONFIG = """\
-version: 1
-forecast: {{path: f.csv, keys: [store, product], period: week, value: units, issued: issued_on}}
-actuals: {{path: a.csv, period: week, value: units_sold}}
-frequency: {frequency}
-horizon: {horizon}
-thresholds:
-{thresholds}
-"""
-
-
-def book(
-    thresholds: str = "  default: {}", *, frequency: str = "W-MON", horizon: int = 3
-) -> ThresholdBook:
-    text = CONFIG.format(frequency=frequency, horizon=horizon, thresholds=thresholds)
-    return ThresholdBook(parse_config(text))
-
-
-def forecast(
-    series: dict[Series, str],
-    *,
-    periods: Iterable[pd.Timestamp] | None = None,
-    per_series: dict[Series, list[str]] | None = None,
-) -> pd.DataFrame:
-    """Canonical forecast rows: every series over ``periods`` (3 weeks from CYCLE), unless
-    ``per_series`` lists its dates."""
-    default = list(
-        periods if periods is not None else pd.date_range(CYCLE, periods=3, freq="W-MON")
-    )
-    rows = []
-    for key, segment in series.items():
-        dates = [pd.Timestamp(d) for d in (per_series or {}).get(key, default)]
-        rows += [
-            {
-                "store": key[0],
-                "product": key[1],
-                "period": d,
-                "issued": ISSUED,
-                "forecast": 1.0,
-                "segment": segment,
-            }
-            for d in dates
-        ]
-    return _typed(
-        pd.DataFrame(rows, columns=["store", "product", "period", "issued", "forecast", "segment"])
-    )
-
-
-def actuals(rows: Sequence[tuple[str, str, str, float | None, str]]) -> pd.DataFrame:
-    """Canonical actuals from (store, product, week, actual, segment)."""
-    out = pd.DataFrame(rows, columns=["store", "product", "period", "actual", "segment"])
-    out["period"] = pd.to_datetime(out["period"])
-    out["actual"] = out["actual"].astype("float64")
-    return _typed(out)
-
-
-def _typed(f: pd.DataFrame) -> pd.DataFrame:
-    for c in ["store", "product", "segment"]:
-        f[c] = f[c].astype("str")
-    f["period"] = f["period"].astype("datetime64[us]")
-    return f
-
-
-def weekly_actuals(series: dict[Series, str], weeks: int = 4, value: float = 10.0) -> pd.DataFrame:
-    """Every series has an actual in each of the ``weeks`` weeks before CYCLE."""
-    dates = pd.date_range(end=CYCLE - pd.Timedelta(days=7), periods=weeks, freq="W-MON")
-    return actuals(
-        [(s, p, d.isoformat(), value, seg) for (s, p), seg in series.items() for d in dates]
-    )
-
-
-def check(
-    fc: pd.DataFrame,
-    act: pd.DataFrame,
-    *,
-    b: ThresholdBook | None = None,
-    frequency: str = "W-MON",
-    horizon: int = 3,
-    active_periods: int = 4,
-    **kw: object,
-) -> list[CheckResult]:
-    return coverage_checks(
-        fc,
-        act,
-        keys=KEYS,
-        frequency=frequency,
-        horizon=horizon,
-        active_periods=active_periods,
-        book=b or book(frequency=frequency, horizon=horizon),
-        **kw,  # type: ignore[arg-type]
-    )
-
-
-def pick(results: list[CheckResult], name: str) -> dict[str, CheckResult]:
-    return {r.segment: r for r in results if r.check == name}  # type: ignore[misc]
-
-
-FOUR = {
-    ("S1", "P1"): "tools",
-    ("S1", "P2"): "tools",
-    ("S2", "P1"): "plants",
-    ("S2", "P2"): "plants",
-}
-
+from tests.support.coverage import (
+    FOUR,
+    actuals,
+    book,
+    check,
+    forecast,
+    pick,
+    weekly_actuals,
+)
 
 # --------------------------------------------------------------------------- missing series
 
@@ -270,84 +164,6 @@ def test_known_table_without_key_columns_is_an_input_error() -> None:
             weekly_actuals({("S1", "P1"): "*"}),
             known_series=pd.DataFrame({"sku": ["P1"]}),
         )
-
-
-# --------------------------------------------------------------------------- horizon
-
-
-def test_horizon_exactly_complete_passes() -> None:
-    series = {k: "*" for k in FOUR}
-    res = pick(check(forecast(series), weekly_actuals(series)), HORIZON)["*"]
-    assert (res.status, res.value, res.measure, res.unit) == (
-        "pass",
-        0,
-        "incomplete_series",
-        "count",
-    )
-    assert res.details["first_period"] == "2026-03-02" and res.details["series"] == 4
-
-
-def test_horizon_gap_and_off_grid_with_exact_dates() -> None:
-    per = {("S1", "P2"): ["2026-03-02", "2026-03-09", "2026-03-18"]}  # Wed instead of Mon
-    series = {("S1", "P1"): "tools", ("S1", "P2"): "plants"}
-    res = pick(check(forecast(series, per_series=per), weekly_actuals(series)), HORIZON)
-    star = res["*"]
-    assert (star.status, star.value, star.n_series) == ("fail", 1, 1)  # built-in: fail at 0
-    assert star.examples == [
-        {
-            "store": "S1",
-            "product": "P2",
-            "segment": "plants",
-            "problem": "missing 2026-03-16; off-grid 2026-03-18",
-        }
-    ]
-    assert star.details["missing_steps"] == 1 and star.details["off_grid_rows"] == 1
-    assert res["tools"].status == "pass" and res["plants"].value == 1
-
-
-def test_horizon_rows_beyond_and_late_start() -> None:
-    per = {
-        ("S1", "P1"): ["2026-03-02", "2026-03-09", "2026-03-16", "2026-03-23"],  # one extra
-        ("S1", "P2"): ["2026-03-09", "2026-03-16"],  # starts after the cycle's first period
-        ("S2", "P1"): ["2026-03-02", "2026-03-02", "2026-03-09", "2026-03-16"],  # duplicate
-    }
-    series = dict.fromkeys(per, "*")
-    res = pick(check(forecast(series, per_series=per), weekly_actuals(series)), HORIZON)["*"]
-    assert res.value == 2  # the duplicated week is the output checks' business
-    problems = {e["product"] + e["store"]: e["problem"] for e in res.examples}
-    assert problems == {"P1S1": "beyond the horizon 2026-03-23", "P2S1": "missing 2026-03-02"}
-    assert res.details["with_rows_beyond"] == 1 and res.details["with_gaps"] == 1
-    assert res.n_obs == 1
-
-
-def test_horizon_monthly_grid() -> None:
-    months = pd.date_range("2026-01-01", periods=3, freq="MS")
-    per = {("S1", "P2"): ["2026-01-01", "2026-02-01", "2026-03-15"]}
-    series = {("S1", "P1"): "*", ("S1", "P2"): "*"}
-    act = actuals([(s, p, "2025-12-01", 3.0, "*") for s, p in series])
-    res = pick(
-        check(forecast(series, periods=months, per_series=per), act, frequency="MS"), HORIZON
-    )["*"]
-    assert res.value == 1
-    assert res.examples[0]["problem"] == "missing 2026-03-01; off-grid 2026-03-15"
-
-
-def test_horizon_missing_period_date_is_reported() -> None:
-    series = {("S1", "P1"): "*"}
-    fc = forecast(series)
-    fc.loc[1, "period"] = pd.NaT
-    res = pick(check(fc, weekly_actuals(series)), HORIZON)["*"]
-    assert res.value == 1
-    assert res.examples[0]["problem"] == "missing 2026-03-09; off-grid no date"
-
-
-def test_horizon_dates_listed_are_capped() -> None:
-    series = {("S1", "P1"): "*"}
-    fc = forecast(series, per_series={("S1", "P1"): ["2026-03-02"]})
-    res = pick(check(fc, weekly_actuals(series), horizon=8), HORIZON)["*"]
-    assert res.examples[0]["problem"] == (
-        "missing 2026-03-09, 2026-03-16, 2026-03-23, 2026-03-30 (+3 more)"
-    )
 
 
 # --------------------------------------------------------------------------- series count

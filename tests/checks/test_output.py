@@ -13,59 +13,22 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
-import pandera.pandas as pa
 import pytest
 
-from accuracy_checks.checks.output import (
+from accuracy_checks.checks.output import output_checks
+from accuracy_checks.checks.output_schema import (
     DUPLICATE_ROWS,
     INVALID_VALUES,
     ISSUE_DATES,
     NEGATIVE_VALUES,
     OUTPUT_CHECKS,
     QUANTILE_ORDER,
-    output_checks,
-    output_schema,
 )
 from accuracy_checks.cli.main import main
 from accuracy_checks.errors import InputError
 from accuracy_checks.results import CheckResult
+from tests.support.output import ISSUED, KEYS, QCOLS, frame, negative_frame
 from tests.support.project import CURRENT, Project, forecast_frame
-
-KEYS = ["store", "product"]
-QCOLS = ["q0.1", "q0.9"]
-ISSUED = pd.Timestamp("2026-02-27")
-
-
-def frame(
-    series: dict[tuple[str, str], str] | None = None,
-    *,
-    periods: int = 3,
-    start: str = "2026-03-02",
-    freq: str = "W-MON",
-) -> pd.DataFrame:
-    """A clean canonical forecast frame: each series × ``periods`` periods."""
-    series = series or {("S1", "P1"): "tools", ("S1", "P2"): "plants", ("S2", "P1"): "tools"}
-    dates = pd.date_range(start, periods=periods, freq=freq)
-    rows = []
-    for i, ((store, product), segment) in enumerate(series.items()):
-        for j, d in enumerate(dates):
-            f = 10.0 * (i + 1) + j
-            rows.append(
-                {
-                    "store": store,
-                    "product": product,
-                    "period": d,
-                    "issued": ISSUED,
-                    "forecast": f,
-                    "q0.1": f * 0.8,
-                    "q0.9": f * 1.2,
-                    "segment": segment,
-                }
-            )
-    out = pd.DataFrame(rows)
-    for c in ["store", "product", "segment"]:
-        out[c] = out[c].astype("str")
-    return out
 
 
 def run(f: pd.DataFrame, **kw: Any) -> dict[str, CheckResult]:
@@ -158,16 +121,8 @@ def test_non_numeric_forecast_is_an_input_error() -> None:
         output_checks(f, keys=KEYS, quantile_columns=QCOLS)
 
 
-def _negative_frame() -> pd.DataFrame:
-    f = frame()
-    f.loc[0, "forecast"] = -1.0  # tools
-    f.loc[0, "q0.1"] = -2.0  # same row
-    f.loc[3, "q0.1"] = -0.5  # plants
-    return f
-
-
 def test_negative_values_fail_by_default() -> None:
-    r = run(_negative_frame())[NEGATIVE_VALUES]
+    r = run(negative_frame())[NEGATIVE_VALUES]
     assert r.status == "fail"
     assert (r.value, r.n_series) == (2, 2)
     assert [e["segment"] for e in r.examples] == ["tools", "plants"]
@@ -175,15 +130,15 @@ def test_negative_values_fail_by_default() -> None:
 
 
 def test_negative_values_allowed_everywhere() -> None:
-    assert run(_negative_frame(), allow_negative=True)[NEGATIVE_VALUES].status == "pass"
+    assert run(negative_frame(), allow_negative=True)[NEGATIVE_VALUES].status == "pass"
 
 
 @pytest.mark.parametrize("allowed", [{"tools"}, ["tools"], "tools"])
 def test_negative_values_allowed_per_segment(allowed: object) -> None:
-    r = run(_negative_frame(), allow_negative=allowed)[NEGATIVE_VALUES]
+    r = run(negative_frame(), allow_negative=allowed)[NEGATIVE_VALUES]
     assert (r.status, r.n_obs) == ("fail", 1)
     assert r.examples[0]["segment"] == "plants"
-    both = run(_negative_frame(), allow_negative={"tools", "plants"})[NEGATIVE_VALUES]
+    both = run(negative_frame(), allow_negative={"tools", "plants"})[NEGATIVE_VALUES]
     assert both.status == "pass"
 
 
@@ -328,7 +283,7 @@ def test_examples_are_capped() -> None:
 
 
 def test_every_result_is_json_ready() -> None:
-    f = _negative_frame()
+    f = negative_frame()
     f.loc[1, "forecast"] = np.inf
     f.loc[2, "q0.1"] = 99.0
     f.loc[7, "issued"] = pd.Timestamp("2026-01-01")
@@ -358,15 +313,6 @@ def test_missing_column_is_an_input_error() -> None:
             quantile_columns=QCOLS,
             allow_negative={"tools"},
         )
-
-
-def test_schema_is_a_pandera_schema_whose_checks_carry_the_check_ids() -> None:
-    schema = output_schema(keys=KEYS, quantile_columns=QCOLS)
-    schema.validate(frame(), lazy=True)
-    with pytest.raises(pa.errors.SchemaErrors) as caught:
-        schema.validate(_negative_frame(), lazy=True)
-    names = {e.check.name for e in caught.value.schema_errors}
-    assert names == {NEGATIVE_VALUES}
 
 
 def test_a_million_rows_run() -> None:

@@ -1,0 +1,205 @@
+"""``coverage.horizon``: does every forecast series have one row per period of the horizon?
+
+The cycle's first period is the earliest forecast period (of any series). Every series must
+have one row at each grid step 0 … horizon−1 from it. A series is incomplete when a step has
+no row (gap), a row lies beyond the last step (extra), or a period is off the grid (or
+missing). Measure ``incomplete_series`` (unit ``count``): value = number of incomplete series,
+judged per segment; examples name each incomplete series' missing, extra and off-grid dates.
+
+Three jobs, one function each: place every row on the grid (:func:`horizon_steps`, once per
+run: :func:`~accuracy_checks.evaluation.grid.grid_positions`), say what is wrong with a
+handful of series (:func:`_problems`), and judge each segment (:func:`horizon_results`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from accuracy_checks.checks.examples import example_value, plural
+from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.series_index import (
+    SegmentPart,
+    Segments,
+    SeriesIndex,
+    by_segment,
+    judged,
+    skipped,
+)
+from accuracy_checks.evaluation.grid import grid_dates, grid_positions
+from accuracy_checks.results import CheckResult
+from accuracy_checks.sources.frames import PERIOD
+
+__all__ = ["HORIZON", "HorizonSteps", "horizon_results", "horizon_steps"]
+
+HORIZON = "coverage.horizon"
+_MEASURE = "incomplete_series"
+# dates listed per problem in a horizon example before "(+n more)"
+_DATES_SHOWN = 4
+
+
+@dataclass(frozen=True)
+class HorizonSteps:
+    """Where every forecast row lies on the horizon, and the per-series counts."""
+
+    first: pd.Timestamp | None
+    step_dates: pd.DatetimeIndex
+    present: np.ndarray  # (n_series, horizon) bool: a row on the grid at that step
+    extra: np.ndarray  # per series: rows beyond the horizon
+    off_grid: np.ndarray  # per series: rows off the grid or without a period
+    row_pos: np.ndarray  # grid position of each forecast row (undated rows: -1)
+    row_on: np.ndarray  # per row: on the grid
+    row_dated: np.ndarray  # per row: has a period
+    base: int  # grid position of the first period
+
+    def row_step(self) -> np.ndarray:
+        """The horizon step of each forecast row (meaningful where on the grid and dated)."""
+        return self.row_pos - self.base
+
+
+def horizon_steps(series: SeriesIndex, forecast: pd.DataFrame, frequency: str,
+                  horizon: int) -> HorizonSteps:
+    """Place every forecast row on the ``frequency`` grid from the earliest forecast period."""
+    periods = pd.DatetimeIndex(forecast[PERIOD])
+    dated = ~np.asarray(periods.isna())
+    pos = np.full(len(forecast), -1, dtype=np.int64)
+    on = np.zeros(len(forecast), dtype=bool)
+    present = np.zeros((series.n, horizon), dtype=bool)
+    if not dated.any():
+        no_extra = np.zeros(series.n, dtype=np.int64)
+        all_off = np.bincount(series.f_ids, minlength=series.n)
+        return HorizonSteps(None, pd.DatetimeIndex([]), present, no_extra, all_off, pos, on,
+                            dated, 0)
+    pos[dated], on[dated] = grid_positions(periods[dated], frequency)
+    first_row = int(np.flatnonzero(dated)[np.argmin(periods[dated].asi8)])
+    first = periods[first_row]
+    base = int(pos[first_row])
+    step = pos - base
+    placed = on & dated
+    inside = placed & (step < horizon)
+    present.reshape(-1)[series.f_ids[inside] * horizon + step[inside]] = True
+    extra = np.bincount(series.f_ids[placed & (step >= horizon)], minlength=series.n)
+    off_grid = np.bincount(series.f_ids[~placed], minlength=series.n)
+    return HorizonSteps(first, grid_dates(first, horizon, frequency), present, extra, off_grid,
+                        pos, on, dated, base)
+
+
+# --------------------------------------------------------------------------- examples
+
+
+def _dates_text(label: str, dates: Sequence[Any]) -> str:
+    shown = ", ".join(
+        str(example_value(d)) if d is not None else "no date" for d in dates[:_DATES_SHOWN]
+    )
+    more = f" (+{len(dates) - _DATES_SHOWN} more)" if len(dates) > _DATES_SHOWN else ""
+    return f"{label} {shown}{more}"
+
+
+def _problems(steps: HorizonSteps, forecast: pd.DataFrame, series: SeriesIndex,
+              ids: np.ndarray, horizon: int) -> list[str]:
+    """What is wrong with each series in ``ids`` (a handful), with exact dates."""
+    if len(ids) == 0:
+        return []
+    rows = np.flatnonzero(np.isin(series.f_ids, ids))
+    periods = pd.DatetimeIndex(forecast[PERIOD])[rows]
+    undated = np.asarray(periods.isna())
+    row_ids = series.f_ids[rows]
+    placed = steps.row_on[rows] & steps.row_dated[rows]
+    beyond = placed & (steps.row_step()[rows] >= horizon)
+    texts = []
+    for sid in ids.tolist():
+        parts = []
+        gaps = np.flatnonzero(~steps.present[sid])
+        if len(gaps):
+            parts.append(_dates_text("missing", list(steps.step_dates[gaps])))
+        mine = row_ids == sid
+        if (beyond & mine).any():
+            parts.append(_dates_text("beyond the horizon", sorted(set(periods[beyond & mine]))))
+        if (~placed & mine).any():
+            listed: list[Any] = sorted(set(periods[~placed & mine & ~undated]))
+            if (undated & mine).any():
+                listed.append(None)
+            parts.append(_dates_text("off-grid", listed))
+        texts.append("; ".join(parts))
+    return texts
+
+
+# --------------------------------------------------------------------------- results
+
+
+def _details(part: SegmentPart, steps: HorizonSteps, gaps: np.ndarray, n_gap_steps: np.ndarray,
+             first: Any, horizon: int, frequency: str) -> dict[str, Any]:
+    """The counts behind one segment's result."""
+    in_seg = part.relevant
+    return {
+        "first_period": first,
+        "horizon": horizon,
+        "frequency": frequency,
+        "series": part.n,
+        "with_gaps": int((gaps & in_seg).sum()),
+        "with_rows_beyond": int(((steps.extra > 0) & in_seg).sum()),
+        "with_off_grid_rows": int(((steps.off_grid > 0) & in_seg).sum()),
+        "missing_steps": int(n_gap_steps[in_seg].sum()),
+        "rows_beyond": int(steps.extra[in_seg].sum()),
+        "off_grid_rows": int(steps.off_grid[in_seg].sum()),
+    }
+
+
+def _message(part: SegmentPart, details: dict[str, Any], grid: str) -> str:
+    if not part.n_bad:
+        return f"{part.subject('forecast series')} {part.verb('has', 'have')} exactly {grid}"
+    kinds = ", ".join(
+        f"{details[key]:,} {what}"
+        for key, what in (
+            ("with_gaps", "with gaps"),
+            ("with_rows_beyond", "with rows beyond the horizon"),
+            ("with_off_grid_rows", "with off-grid dates"),
+        )
+        if details[key]
+    )
+    return (
+        f"{part.subject('forecast series')} {part.verb('does', 'do')} not have exactly {grid} "
+        f"({kinds}); every series needs one row per period of the horizon"
+    )
+
+
+def horizon_results(series: SeriesIndex, segments: Segments, forecast: pd.DataFrame,
+                    keys: list[str], frequency: str, horizon: int, book: ThresholdBook,
+                    max_examples: int) -> list[CheckResult]:
+    """``coverage.horizon`` for each reported segment (``"*"`` first)."""
+    steps = horizon_steps(series, forecast, frequency, horizon)
+    gaps = series.in_forecast & ~steps.present.all(axis=1)
+    n_gap_steps = (horizon - steps.present.sum(axis=1)) * series.in_forecast
+    incomplete = gaps | (steps.extra > 0) | (steps.off_grid > 0)
+    first = example_value(steps.first) if steps.first is not None else None
+    grid = f"{plural(horizon, 'period')} from {first} on the {frequency} grid"
+    out = []
+    for part in by_segment(segments, series.in_forecast, incomplete):
+        if part.n == 0:
+            out.append(skipped(HORIZON, _MEASURE, part.segment, "count",
+                               f"The forecast has no series{part.where}"))
+            continue
+        details = _details(part, steps, gaps, n_gap_steps, first, horizon, frequency)
+        shown = part.shown(max_examples)
+        examples = series.examples(forecast, series.f_ids, shown, keys)
+        problems = _problems(steps, forecast, series, shown, horizon)
+        for example, text in zip(examples, problems, strict=True):
+            example["problem"] = text
+        out.append(judged(
+            book,
+            check=HORIZON,
+            measure=_MEASURE,
+            segment=part.segment,
+            value=part.n_bad,
+            unit="count",
+            n_series=part.n_bad,
+            n_obs=details["rows_beyond"] + details["off_grid_rows"],
+            message=_message(part, details, grid),
+            examples=examples,
+            details=details,
+        ))
+    return out
