@@ -18,7 +18,7 @@ from accuracy_checks.config import Config, load_config
 from accuracy_checks.sources import frames as F
 
 if TYPE_CHECKING:
-    from accuracy_checks.engine import Inputs
+    from accuracy_checks.sources.load import Inputs
 
 __all__ = ["evaluation_frame", "read_config"]
 
@@ -64,10 +64,12 @@ def evaluation_frame(config: str | os.PathLike[str] | Config, *,
 def _evaluation(config: Config, *, forecast_path: Path | None = None,
                 actuals_path: Path | None = None) -> tuple[pd.DataFrame, Inputs]:
     """The evaluation frame (columns ordered) and the loaded inputs."""
-    from accuracy_checks.engine import load_inputs
+    from accuracy_checks.engine import archived_cycles
     from accuracy_checks.evaluation.join import evaluation_frame as join
+    from accuracy_checks.sources.load import load_inputs
 
-    inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path)
+    inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
+                         archive=archived_cycles(config))
     keys = list(config.forecast.keys)
     ev = join(inputs.earlier, inputs.actuals, keys=keys, frequency=config.frequency,
               lags=config.evaluation.lags, window=config.evaluation.window)

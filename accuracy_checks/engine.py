@@ -1,7 +1,11 @@
 """One run of the gate: read → check → measure → judge → snapshot → report.
 
-Every input is read and validated before anything is written, so an input error (exit 2)
-leaves the archive untouched. The snapshot is written last, atomically.
+Every input is read and validated before anything is written
+(:func:`accuracy_checks.sources.load_inputs`, with the archived cycles of
+:func:`archived_cycles`), so an input error (exit 2) leaves the archive untouched;
+:func:`evaluate` computes every result (pure); :func:`run_checks` adds the drift checks and
+the waivers from the audit store, stages the snapshot and records the run in one store
+transaction (protocol in :mod:`accuracy_checks.store.archive`).
 """
 
 from __future__ import annotations
@@ -9,69 +13,53 @@ from __future__ import annotations
 import time
 import uuid
 from collections.abc import Callable, Mapping
-from dataclasses import dataclass, field
 from datetime import UTC, datetime
 from pathlib import Path
 from types import EllipsisType
-from typing import TypeVar
+from typing import TYPE_CHECKING, TypeVar
 
-import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.accuracy import run_accuracy
 from accuracy_checks.checks.actuals import actuals_checks
-from accuracy_checks.checks.coverage import coverage_checks
+from accuracy_checks.checks.coverage import SERIES_COUNT, coverage_checks
 from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.checks.plugins import run_check_plugins
 from accuracy_checks.config import Config
-from accuracy_checks.evaluation.join import prune_earlier, window_periods
-from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.sources import frames as F
-from accuracy_checks.sources import read as sources
-from accuracy_checks.sources.codes import combined_codes
+from accuracy_checks.sources.frames import cycle_label
+from accuracy_checks.sources.load import (
+    ArchivedCycles,
+    ArchiveReader,
+    Inputs,
+    Progress,
+    load_inputs,
+    quiet,
+)
 from accuracy_checks.store.archive import (
     Archive,
     Snapshot,
     SnapshotFault,
     SnapshotUnreadable,
-    cycle_label,
+    StagedSnapshot,
 )
 
-Progress = Callable[[str], None]
+if TYPE_CHECKING:
+    from accuracy_checks.store import Store
+
+__all__ = ["ARCHIVE_CHECK", "archived_cycles", "evaluate", "run_checks",
+           "unmatched_thresholds"]
+
 T = TypeVar("T")
-
-
-@dataclass
-class Inputs:
-    """The canonical frames of one run (see :mod:`accuracy_checks.sources.frames`)."""
-
-    forecast: pd.DataFrame
-    actuals: pd.DataFrame
-    earlier: pd.DataFrame
-    mapping: pd.DataFrame | None
-    previous: pd.DataFrame | None
-    previous_label: str | None
-    issued: pd.Timestamp
-    info: dict[str, object]
-    #: series the actuals know from periods older than the ones read (``None``: all were read)
-    older_series: pd.DataFrame | None = None
-    #: results about the inputs themselves, reported with the checks' (e.g. an archived
-    #: snapshot that is missing or unreadable, so its cycle was left out)
-    notes: list[CheckResult] = field(default_factory=list)
-
-    @property
-    def known_series(self) -> list[pd.DataFrame]:
-        """Tables of series known besides the actuals read: the mapping, the older actuals."""
-        return [t for t in (self.mapping, self.older_series) if t is not None]
-
-
-def _quiet(_: str) -> None:
-    pass
+ARCHIVE_CHECK = "archive.snapshot"
 
 
 class _Stage:
+    """Runs a step of :func:`evaluate`, telling ``progress`` when it starts and how long it
+    took."""
+
     def __init__(self, progress: Progress) -> None:
         self.progress = progress
 
@@ -83,135 +71,39 @@ class _Stage:
         return out
 
 
-def load_inputs(config: Config, *, forecast_path: Path | None = None,
-                actuals_path: Path | None = None, progress: Progress = _quiet,
-                recorded: Mapping[str, int] | EllipsisType | None = ...) -> Inputs:
-    """Read and validate every input (no writes). Raises InputError on unusable input.
+# ------------------------------------------------------------------ the archived cycles
 
-    Key columns come back as categoricals sharing one set of categories across every frame,
-    so joins and group-bys run on integer codes.
 
-    Earlier cycles from the archive: the last snapshot of each cycle as the audit store
-    records it (``recorded``: cycle → attempt, by default read from ``config``'s store;
-    ``None`` = no store yet, take the archive folder as it is). A cycle whose snapshot is
-    missing or unreadable is left out, never replaced by an older attempt, and an
-    ``archive.snapshot`` warning in ``Inputs.notes`` says so (if it is the previous cycle, the
-    series count is not compared with an older one either).
+def archived_cycles(config: Config,
+                    recorded: Mapping[str, int] | EllipsisType | None = ...) -> ArchiveReader:
+    """The reader of ``config``'s archived earlier cycles that :func:`load_inputs` calls.
+
+    It reads the last snapshot of each cycle as the audit store records it (``recorded``:
+    cycle → attempt, by default read from ``config``'s store; ``None`` = no store yet, take
+    the archive folder as it is). A cycle whose snapshot is missing, unreadable or unrecorded
+    is left out, never replaced by an older attempt, and an ``archive.snapshot`` warning in
+    ``Inputs.notes`` says so (if it is the previous cycle, the series count is not compared
+    with an older one either).
     """
-    keys = list(config.forecast.keys)
-    seg_cols = list(config.segments.columns)
-    mapping = sources.read_mapping(config)
+    def read(issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
+             prune: Callable[[pd.DataFrame], pd.DataFrame]) -> ArchivedCycles:
+        attempts = recorded
+        if isinstance(attempts, EllipsisType):
+            from accuracy_checks.store.core import archived_attempts
 
-    t0 = time.perf_counter()
-    forecast = sources.read_forecast(config, forecast_path, segment_columns=seg_cols)
-    progress(f"read forecast: {len(forecast):,} rows in {time.perf_counter() - t0:.1f} s")
-    issued = pd.Timestamp(forecast[F.ISSUED].max())
+            attempts = archived_attempts(config)
+        return _read_archive(config, issued, history_cycles, attempts, prune)
 
-    t0 = time.perf_counter()
-    # actuals: only the recent periods the checks use, unless a measure needs the whole
-    # history; the series the older rows know are kept for the unexpected-series check
-    needed = actuals_span(config)
-    periods = sources.actual_periods(config, actuals_path) if needed is not None else None
-    older: pd.DataFrame | None = None
-    if needed is not None and periods is not None and len(periods) > needed:
-        actuals = sources.read_actuals(config, actuals_path, periods=list(periods[-needed:]))
-        older = sources.actual_series(config, actuals_path)
-        progress(f"read actuals: {len(actuals):,} rows of the last {needed} periods "
-                 f"(older rows: {len(older):,} series known) in "
-                 f"{time.perf_counter() - t0:.1f} s")
-    else:
-        actuals = sources.read_actuals(config, actuals_path)
-        progress(f"read actuals: {len(actuals):,} rows in {time.perf_counter() - t0:.1f} s")
-
-    t0 = time.perf_counter()
-    # earlier forecasts: only rows of a configured lag inside the evaluation span are ever
-    # used, so they are cut right at reading (Parquet: filtered while reading)
-    span = window_periods(actuals, evaluation_span(config))
-    lags = list(config.evaluation.lags)
-    history = []
-    history_cycles: set[pd.Timestamp] = set()
-    for p in config.history_paths:
-        starts = sources.cycle_starts(p, config)
-        part = sources.read_forecast(config, p, role="history", key="history",
-                                     segment_columns=seg_cols, allow_empty=True,
-                                     periods=span if starts is not None else None)
-        if starts is None:
-            starts = part.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
-        history_cycles |= {pd.Timestamp(t) for t in starts.index}
-        part = part.loc[part[F.ISSUED] < issued]
-        history.append(prune_earlier(part, periods=span, lags=lags,
-                                     frequency=config.frequency, starts=starts))
-    snaps, archived_parts, previous, previous_label, notes = _read_archive(
-        config, issued, history_cycles, recorded,
-        lambda frame: prune_earlier(frame, periods=span, lags=lags, frequency=config.frequency))
-
-    singles = {"forecast": forecast, "actuals": actuals, "mapping": mapping,
-               "previous": previous, "older": older}
-    present = {name: f for name, f in singles.items() if f is not None}
-    unified = sources.unify_categories([*present.values(), *history, *archived_parts],
-                                       [*keys, *seg_cols, F.SEGMENT])
-    got = dict(zip(present, unified, strict=False))
-    history = unified[len(present):len(present) + len(history)]
-    archived_parts = unified[len(present) + len(history):]
-    forecast, actuals = got["forecast"], got["actuals"]
-    mapping, previous, older = got.get("mapping"), got.get("previous"), got.get("older")
-
-    forecast = sources.assign_segments(forecast, config, mapping, role="forecast")
-    history = [sources.assign_segments(h, config, mapping, role="history") for h in history]
-    history_frame = _concat(history)
-    if len(history_frame):
-        n_hist = len(history_frame)
-        repeated = sources.duplicated_rows(history_frame, [*keys, F.PERIOD, F.ISSUED], keep="last")
-        if repeated.any():
-            history_frame = history_frame.loc[~repeated]
-        if len(history_frame) < n_hist:
-            progress(f"history: {n_hist - len(history_frame):,} repeated rows dropped "
-                     "(the last of each (keys, period, issue date) kept)")
-        n = len(history_frame)
-        no_attempt = pd.arrays.IntegerArray(np.zeros(n, dtype=np.int64), np.ones(n, dtype=bool))
-        history_frame = history_frame.assign(**{
-            F.ATTEMPT: no_attempt,
-            F.SOURCE: pd.Categorical.from_codes(np.zeros(n, dtype=np.int8), ["history"])})
-    archived = _concat([_segments_of_archived(a, config, mapping) for a in archived_parts])
-    parts = [p for p in (history_frame, archived) if len(p)]
-    earlier = sources.unify_categories(parts, [F.SEGMENT]) if len(parts) > 1 else parts
-    earlier_frame = _concat(earlier)
-    if history or snaps:
-        progress(f"read earlier cycles: {len(earlier_frame):,} rows "
-                 f"({len(history_frame):,} from history, {len(archived):,} from the archive) "
-                 f"in {time.perf_counter() - t0:.1f} s")
-
-    actuals = sources.attach_segments(
-        actuals, config, mapping,
-        lambda: sources.segments_of_series([forecast, *parts], keys))
-
-    info: dict[str, object] = {
-        "forecast": {"path": str(forecast_path or config.forecast.path), "rows": len(forecast),
-                     "series": int(np.unique(combined_codes(forecast, keys)).size)},
-        "actuals": {"path": str(actuals_path or config.actuals.path), "rows": len(actuals)},
-        "earlier": {"rows": len(earlier_frame), "history_rows": len(history_frame),
-                    "archive_rows": len(archived)},
-    }
-    return Inputs(forecast, actuals, earlier_frame, mapping, previous, previous_label, issued,
-                  info, older, notes)
-
-
-ARCHIVE_CHECK = "archive.snapshot"
+    return read
 
 
 def _read_archive(config: Config, issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
-                  recorded: Mapping[str, int] | EllipsisType | None,
-                  prune: Callable[[pd.DataFrame], pd.DataFrame],
-                  ) -> tuple[list[Snapshot], list[pd.DataFrame], pd.DataFrame | None,
-                             str | None, list[CheckResult]]:
-    """The archived earlier cycles the run uses: the snapshots found, their pruned rows (the
-    cycles not held by the history files), the previous cycle's whole forecast and label (for
-    the series count), and a warning for each used cycle whose snapshot cannot be used."""
+                  recorded: Mapping[str, int] | None,
+                  prune: Callable[[pd.DataFrame], pd.DataFrame]) -> ArchivedCycles:
+    """The archived earlier cycles the run uses: their pruned rows (the cycles not held by
+    the history files), the previous cycle's whole forecast and label (for the series count),
+    and a warning for each used cycle whose snapshot cannot be used."""
     archive = Archive(config.archive)
-    if isinstance(recorded, EllipsisType):
-        from accuracy_checks.store.core import archived_attempts
-
-        recorded = archived_attempts(config)
     snaps, faults = archive.last_recorded(recorded, before=issued)
     required = [*config.forecast.keys, F.PERIOD, F.ISSUED, F.FORECAST]
     read: dict[str, pd.DataFrame | None] = {}
@@ -227,29 +119,27 @@ def _read_archive(config: Config, issued: pd.Timestamp, history_cycles: set[pd.T
 
     # the previous cycle: the latest one the archive should hold, usable or not
     latest = max([s.cycle for s in snaps] + [f.cycle for f in faults], default=None)
-    previous, previous_label = None, None
+    out = ArchivedCycles()
     last = next((s for s in snaps if s.cycle == latest), None)
     if last is not None:
-        previous = frame_of(last)
-        previous_label = f"{last.cycle} (attempt {last.attempt})"
-    parts = []
+        out.previous = frame_of(last)
+        out.previous_label = f"{last.cycle} (attempt {last.attempt})"
     for snap in snaps:
-        if snap.issued in history_cycles:
-            continue
-        frame = frame_of(snap)
+        frame = frame_of(snap) if snap.issued not in history_cycles else None
         if frame is not None:
-            parts.append(prune(frame))
-    used = [s for s in snaps if s.cycle in read and read[s.cycle] is not None]
-    notes = [_snapshot_warning(f, is_previous=f.cycle == latest) for f in
-             sorted(faults, key=lambda f: f.cycle)
-             if f.issued not in history_cycles or f.cycle == latest]
-    if previous is None and latest is not None:
-        previous_label = None
-        notes.append(_series_count_not_compared(latest))
-    return used, parts, previous, previous_label, notes
+            out.frames.append(prune(frame))
+    out.n_read = sum(1 for s in snaps if read.get(s.cycle) is not None)
+    out.notes = [_snapshot_warning(f, is_previous=f.cycle == latest) for f in
+                 sorted(faults, key=lambda f: f.cycle)
+                 if f.issued not in history_cycles or f.cycle == latest]
+    if out.previous is None and latest is not None:
+        out.previous_label = None
+        out.notes.append(_series_count_not_compared(latest))
+    return out
 
 
 def _snapshot_warning(fault: SnapshotFault, *, is_previous: bool) -> CheckResult:
+    """The ``archive.snapshot`` warning of a cycle left out, with how to fix it."""
     s = fault.snapshot
     also = (" The series count is not compared with an older cycle in its place either."
             if is_previous else "")
@@ -268,8 +158,7 @@ def _snapshot_warning(fault: SnapshotFault, *, is_previous: bool) -> CheckResult
 
 
 def _series_count_not_compared(cycle: str) -> CheckResult:
-    from accuracy_checks.checks.coverage import SERIES_COUNT
-
+    """The skipped series count when the previous cycle's snapshot cannot be used."""
     return CheckResult(
         SERIES_COUNT, "skipped", segment=ALL_SERIES, measure="series_count_change_pct",
         unit="%", reason="no_data", details={"previous_cycle": cycle},
@@ -279,26 +168,7 @@ def _series_count_not_compared(cycle: str) -> CheckResult:
     )
 
 
-def _concat(frames: list[pd.DataFrame]) -> pd.DataFrame:
-    frames = [f for f in frames if len(f)]
-    if not frames:
-        return pd.DataFrame()
-    return frames[0] if len(frames) == 1 else pd.concat(frames, ignore_index=True)
-
-
-def _segments_of_archived(archived: pd.DataFrame, config: Config,
-                          mapping: pd.DataFrame | None) -> pd.DataFrame:
-    """Segments of archived rows: re-mapped when the mapping holds every segment column (so a
-    corrected mapping applies to old cycles too), else as stored with the snapshot."""
-    seg = config.segments.columns
-    if not seg:
-        return archived.assign(**{F.SEGMENT: ALL_SERIES})
-    if mapping is not None and all(s in mapping.columns for s in seg):
-        return sources.assign_segments(archived.drop(columns=[F.SEGMENT], errors="ignore"),
-                                       config, mapping, role="archived forecast")
-    if F.SEGMENT not in archived.columns:
-        return archived.assign(**{F.SEGMENT: F.UNASSIGNED})
-    return archived
+# ------------------------------------------------------------------------------ one run
 
 
 def run_checks(config: Config, *, forecast_path: Path | None = None,
@@ -320,56 +190,20 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
     run where they can be (a file where a folder should be, a folder that cannot be written,
     a store that does not answer).
     """
-    from accuracy_checks.store import apply_waivers, input_fingerprints, open_store
-    from accuracy_checks.store.database import check_sqlite_location, validate_url
-    from accuracy_checks.store.urls import default_store_url, sqlite_file
+    from accuracy_checks.store import open_store
 
-    progress = progress or _quiet
+    progress = progress or quiet
     started = datetime.now(UTC)
     run_id = uuid.uuid4().hex
-    store_url = default_store_url(config)
-    # fail fast, before the checks: a bad store URL or location, an unusable archive
-    validate_url(store_url)
-    db_file = sqlite_file(store_url)
-    if db_file is not None:
-        check_sqlite_location(db_file)
-    Archive(config.archive).check_usable(write=snapshot)
-    recorded: dict[str, int] | None = None
-    if db_file is None or db_file.exists():
-        # before reading the archive: move aside snapshots of runs killed before their record
-        # committed (crash debris, never a recorded snapshot); then which snapshot is the
-        # last of each cycle, as recorded
-        with open_store(store_url) as store:
-            moved = store.retire_orphans(config.archive)
-            recorded = store.archived_attempts()
-        if moved:
-            progress(f"moved {len(moved)} unrecorded snapshot(s) left by interrupted runs "
-                     f"to {moved[0].parent.parent}")
+    recorded = _prepare_store_and_archive(config, snapshot=snapshot, progress=progress)
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
-                         progress=progress, recorded=recorded)
+                         progress=progress, archive=archived_cycles(config, recorded))
     results = evaluate(config, inputs, progress=progress)
-
     cycle = cycle_label(inputs.issued)
     with open_store(config) as store:
-        if config.drift.enabled:
-            from accuracy_checks.checks.drift import drift_checks
-
-            t0 = time.perf_counter()
-            found = drift_checks(config, results, store, cycle=cycle)
-            results = [*results, *found]
-            progress(f"drift checks against earlier cycles: {len(found)} result(s) in "
-                     f"{time.perf_counter() - t0:.1f} s")
-        results = apply_waivers(results, store.active_waivers(on=started))
-        waived = sum(r.status == "waived" for r in results)
-        if waived:
-            progress(f"{waived} breach(es) waived by active waivers (see the results)")
-        staged = None
-        if snapshot:
-            t0 = time.perf_counter()
-            staged = Archive(config.archive).stage(inputs.forecast, inputs.issued)
-            progress(f"snapshot staged in {time.perf_counter() - t0:.1f} s")
-        evaluated = sorted({(r.get("cycle"), r.get("attempt"), r.get("source"))
-                            for r in _cycles_of(results)}, key=lambda t: str(t[0]))
+        results = _drift_and_waivers(config, results, store, cycle=cycle, started=started,
+                                     progress=progress)
+        staged = _stage_snapshot(config, inputs, progress) if snapshot else None
         report = RunReport(
             run_id=run_id,
             cycle=cycle,
@@ -379,33 +213,107 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
             finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
             config_path=str(config.source) if config.source else None,
             inputs=inputs.info,
-            evaluated_cycles=[{"cycle": c, "attempt": a, "source": s} for c, a, s in evaluated],
+            evaluated_cycles=_evaluated_cycles(results),
             label=label,
         )
-        t0 = time.perf_counter()
-        try:
-            fingerprints = input_fingerprints(config, inputs.info, forecast_path=forecast_path,
-                                              actuals_path=actuals_path)
-        except BaseException:
-            if staged is not None:
-                staged.discard()
-            raise
-        store.record_run(report, config=config, fingerprints=fingerprints, snapshot=staged,
-                         progress=progress)
-        where = f"; snapshot {report.snapshot}" if report.snapshot else ""
-        progress(f"recorded as attempt {report.attempt} of cycle {report.cycle} in the audit "
-                 f"store {store.url} in {time.perf_counter() - t0:.1f} s{where}")
+        _record(config, store, report, staged, forecast_path=forecast_path,
+                actuals_path=actuals_path, progress=progress)
     return report
 
 
+def _prepare_store_and_archive(config: Config, *, snapshot: bool,
+                               progress: Progress) -> dict[str, int] | None:
+    """Fail fast, before the checks (a bad store URL or location, an unusable archive); move
+    aside the snapshots of runs killed before their record committed (crash debris, never a
+    recorded snapshot); return which snapshot is the last of each cycle, as recorded
+    (``None`` when there is no store yet)."""
+    from accuracy_checks.store import open_store
+    from accuracy_checks.store.database import check_sqlite_location, validate_url
+    from accuracy_checks.store.urls import default_store_url, sqlite_file
+
+    store_url = default_store_url(config)
+    validate_url(store_url)
+    db_file = sqlite_file(store_url)
+    if db_file is not None:
+        check_sqlite_location(db_file)
+    Archive(config.archive).check_usable(write=snapshot)
+    if db_file is not None and not db_file.exists():
+        return None
+    with open_store(store_url) as store:
+        moved = store.retire_orphans(config.archive)
+        recorded = store.archived_attempts()
+    if moved:
+        progress(f"moved {len(moved)} unrecorded snapshot(s) left by interrupted runs "
+                 f"to {moved[0].parent.parent}")
+    return recorded
+
+
+def _drift_and_waivers(config: Config, results: list[CheckResult], store: Store, *,
+                       cycle: str, started: datetime, progress: Progress) -> list[CheckResult]:
+    """``results`` with the drift results added (unless drift is off) and the waivers active
+    at ``started`` applied (drift results are waivable like any other)."""
+    from accuracy_checks.store import apply_waivers
+
+    if config.drift.enabled:
+        from accuracy_checks.checks.drift import drift_checks
+
+        t0 = time.perf_counter()
+        found = drift_checks(config, results, store, cycle=cycle)
+        results = [*results, *found]
+        progress(f"drift checks against earlier cycles: {len(found)} result(s) in "
+                 f"{time.perf_counter() - t0:.1f} s")
+    results = apply_waivers(results, store.active_waivers(on=started))
+    waived = sum(r.status == "waived" for r in results)
+    if waived:
+        progress(f"{waived} breach(es) waived by active waivers (see the results)")
+    return results
+
+
+def _stage_snapshot(config: Config, inputs: Inputs, progress: Progress) -> StagedSnapshot:
+    """The forecast written in full to the archive's staging folder (outside any lock)."""
+    t0 = time.perf_counter()
+    staged = Archive(config.archive).stage(inputs.forecast, inputs.issued)
+    progress(f"snapshot staged in {time.perf_counter() - t0:.1f} s")
+    return staged
+
+
+def _record(config: Config, store: Store, report: RunReport, staged: StagedSnapshot | None, *,
+            forecast_path: Path | None, actuals_path: Path | None, progress: Progress) -> None:
+    """Record ``report`` (and place the staged snapshot) in one store transaction; the staged
+    file is discarded when the inputs' fingerprints cannot be taken."""
+    from accuracy_checks.store import input_fingerprints
+
+    t0 = time.perf_counter()
+    try:
+        fingerprints = input_fingerprints(config, report.inputs, forecast_path=forecast_path,
+                                          actuals_path=actuals_path)
+    except BaseException:
+        if staged is not None:
+            staged.discard()
+        raise
+    store.record_run(report, config=config, fingerprints=fingerprints, snapshot=staged,
+                     progress=progress)
+    where = f"; snapshot {report.snapshot}" if report.snapshot else ""
+    progress(f"recorded as attempt {report.attempt} of cycle {report.cycle} in the audit "
+             f"store {store.url} in {time.perf_counter() - t0:.1f} s{where}")
+
+
+def _evaluated_cycles(results: list[CheckResult]) -> list[dict[str, object]]:
+    """The earlier cycles the accuracy results used, once each, by cycle."""
+    evaluated = sorted({(r.get("cycle"), r.get("attempt"), r.get("source"))
+                        for r in _cycles_of(results)}, key=lambda t: str(t[0]))
+    return [{"cycle": c, "attempt": a, "source": s} for c, a, s in evaluated]
+
+
 def _cycles_of(results: list[CheckResult]) -> list[dict[str, object]]:
+    """The cycles (with attempt and source) the accuracy results were measured on."""
     out: list[dict[str, object]] = []
     for r in results:
         out.extend(r.details.get("cycles", []) if r.check == "accuracy" else [])
     return out
 
 
-def evaluate(config: Config, inputs: Inputs, *, progress: Progress = _quiet) -> list[CheckResult]:
+def evaluate(config: Config, inputs: Inputs, *, progress: Progress = quiet) -> list[CheckResult]:
     """Every check result for already-loaded inputs (pure: no I/O)."""
     keys = list(config.forecast.keys)
     book = ThresholdBook(config)

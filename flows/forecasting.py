@@ -37,12 +37,12 @@ from statistics import NormalDist
 import numpy as np
 import pandas as pd
 
+from accuracy_checks import sources
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 from accuracy_checks.evaluation.baselines import default_seasonal_period
 from accuracy_checks.evaluation.grid import grid_positions
 from accuracy_checks.sources import frames as F
-from accuracy_checks.sources import read as sources
 from accuracy_checks.sources.codes import combined_codes
 
 __all__ = [

@@ -32,7 +32,7 @@ import pandas as pd
 from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.evaluation.grid import grid_positions
 from accuracy_checks.sources import frames as F
-from accuracy_checks.store.archive import cycle_label
+from accuracy_checks.sources.frames import cycle_label
 
 #: evaluation-frame columns of the engine's own (key columns may not start with ``__``)
 CYCLE_START = "__cycle_start"

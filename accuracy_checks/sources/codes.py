@@ -1,7 +1,10 @@
 """Integer row codes: one int64 per row such that equal codes ⇔ equal values in the columns.
 
 Categorical columns contribute their codes directly, so on the canonical frames (categorical
-keys) this costs a few integer operations per row; duplicate detection and joins build on it.
+keys) this costs a few integer operations per row; duplicate detection (:func:`duplicated_rows`),
+series counts (:func:`n_distinct`) and joins build on it. This module is the one place that
+turns key columns into codes: checks and measures call it rather than factorizing keys
+themselves.
 """
 
 from __future__ import annotations
@@ -11,6 +14,9 @@ from typing import Any
 
 import numpy as np
 import pandas as pd
+
+__all__ = ["combine_codes", "combined_codes", "combined_codes_and_space", "duplicated_codes",
+           "duplicated_rows", "n_distinct"]
 
 _CODE_SPACE_LIMIT = 1 << 62
 
@@ -59,6 +65,40 @@ def duplicated_codes(codes: np.ndarray, space: int, keep: str | bool = False) ->
         if keep is False or not repeats.any():
             return repeats[codes]
     return pd.Series(codes).duplicated(keep=keep).to_numpy()  # type: ignore[arg-type]
+
+
+def duplicated_rows(frame: pd.DataFrame, columns: Sequence[str], keep: str | bool = False
+                    ) -> np.ndarray:
+    """``DataFrame.duplicated`` on integer row codes (fast on categorical keys).
+
+    >>> f = pd.DataFrame({"k": ["a", "b", "a"], "p": [1, 1, 1]})
+    >>> duplicated_rows(f, ["k", "p"]).tolist(), duplicated_rows(f, ["k", "p"], "last").tolist()
+    ([True, False, True], [True, False, False])
+    """
+    if len(frame) == 0:
+        return np.zeros(0, dtype=bool)
+    *first, last = list(columns)
+    codes, space = combined_codes_and_space(frame, first)
+    if space > 8 * len(frame):  # sparse key combinations: number the series densely first
+        codes, uniques = pd.factorize(codes)
+        space = max(len(uniques), 1)
+    tail, size = combined_codes_and_space(frame, [last])
+    return duplicated_codes(codes.astype(np.int64) * size + tail, space * size, keep)
+
+
+def n_distinct(frame: pd.DataFrame, columns: Sequence[str],
+               mask: np.ndarray | None = None) -> int:
+    """How many distinct value combinations of ``columns`` the rows (of ``frame[mask]``) hold:
+    the number of series when ``columns`` are the keys.
+
+    >>> f = pd.DataFrame({"k": ["a", "b", "a"], "p": [1, 1, 2]})
+    >>> first = (f["p"] == 1).to_numpy()
+    >>> n_distinct(f, ["k"]), n_distinct(f, ["k", "p"]), n_distinct(f, ["k"], first)
+    (2, 3, 2)
+    """
+    if len(frame) == 0 or (mask is not None and not np.any(mask)):
+        return 0
+    return int(np.unique(combined_codes(frame, columns, mask)).size)
 
 
 def _combine(arrays: Sequence[Any], n_rows: int) -> tuple[np.ndarray, int]:

@@ -17,6 +17,11 @@ actuals
 
 from __future__ import annotations
 
+from typing import TYPE_CHECKING
+
+if TYPE_CHECKING:  # pandas loads only where frames are built
+    import pandas as pd
+
 PERIOD = "period"
 ISSUED = "issued"
 FORECAST = "forecast"
@@ -35,3 +40,15 @@ def quantile_column(tau: float) -> str:
     ('q0.1', 'q0.975')
     """
     return f"q{tau:g}"
+
+
+def cycle_label(issued: pd.Timestamp) -> str:
+    """The label of a cycle: its issue date (with the time only when it is not midnight).
+
+    >>> import pandas as pd
+    >>> cycle_label(pd.Timestamp("2026-03-02")), cycle_label(pd.Timestamp("2026-03-02 06:30"))
+    ('2026-03-02', '2026-03-02T06-30-00')
+    """
+    if issued == issued.normalize():
+        return issued.strftime("%Y-%m-%d")
+    return issued.strftime("%Y-%m-%dT%H-%M-%S")

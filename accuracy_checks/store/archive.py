@@ -48,6 +48,7 @@ from typing import TYPE_CHECKING, Literal
 
 from accuracy_checks.errors import UsageError
 from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.frames import cycle_label
 
 if TYPE_CHECKING:  # pandas loads only when a snapshot is read or written
     import pandas as pd
@@ -57,18 +58,6 @@ _ATTEMPT_FILE = re.compile(r"^attempt-(\d{4,})\.parquet$")
 _INCOMING = ".incoming"
 _ORPHANS = ".orphans"
 _STALE_SECONDS = 3600
-
-
-def cycle_label(issued: pd.Timestamp) -> str:
-    """The label of a cycle: its issue date (with the time only when it is not midnight).
-
-    >>> import pandas as pd
-    >>> cycle_label(pd.Timestamp("2026-03-02")), cycle_label(pd.Timestamp("2026-03-02 06:30"))
-    ('2026-03-02', '2026-03-02T06-30-00')
-    """
-    if issued == issued.normalize():
-        return issued.strftime("%Y-%m-%d")
-    return issued.strftime("%Y-%m-%dT%H-%M-%S")
 
 
 def label_to_timestamp(label: str) -> pd.Timestamp:

@@ -25,13 +25,14 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from accuracy_checks import load_config
+from accuracy_checks import load_config, sources
 from accuracy_checks.checks.accuracy import accuracy_results
 from accuracy_checks.checks.actuals import INVALID_ACTUALS, actuals_checks
 from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.checks.offenders import worst_offenders
 from accuracy_checks.cli.main import main
 from accuracy_checks.config import Config
+from accuracy_checks.engine import archived_cycles
 from accuracy_checks.evaluation.join import evaluation_frame, window_periods
 from accuracy_checks.measures.stats import error_stats, overflowed
 from accuracy_checks.outputs.wording import (
@@ -41,7 +42,7 @@ from accuracy_checks.outputs.wording import (
     format_number,
 )
 from accuracy_checks.results import CheckResult
-from accuracy_checks.sources import read as sources
+from accuracy_checks.sources.load import load_inputs
 from tests.support.project import EARLIER, Project, actuals_frame, forecast_frame
 
 #: ``nan``/``inf`` as a word, in any case (``infinity`` is a word of its own and allowed)
@@ -133,10 +134,8 @@ def test_clean_actuals_pass_with_zero() -> None:
 
 
 def _canonical(project: Project) -> tuple[Config, pd.DataFrame, pd.DataFrame]:
-    from accuracy_checks.engine import load_inputs
-
     config = load_config(project.config)
-    inputs = load_inputs(config)
+    inputs = load_inputs(config, archive=archived_cycles(config))
     return config, inputs.earlier, inputs.actuals
 
 

@@ -24,7 +24,7 @@ from prefect.states import Completed, Failed, State
 import accuracy_checks.prefect.gate as gate_module
 from accuracy_checks.cli.main import main as cli_main
 from accuracy_checks.config import load_config
-from accuracy_checks.engine import evaluate, load_inputs
+from accuracy_checks.engine import archived_cycles, evaluate
 from accuracy_checks.errors import ConfigError, GateFailed, InputError
 from accuracy_checks.prefect import (
     WARNED_STATE_NAME,
@@ -40,6 +40,7 @@ from accuracy_checks.prefect.fanout import (
     segment_partitions,
 )
 from accuracy_checks.results import RunReport
+from accuracy_checks.sources.load import load_inputs
 from accuracy_checks.store import default_store_url, open_store
 from accuracy_checks.store.urls import sqlite_file
 from flows import ci_gate
@@ -310,7 +311,8 @@ def test_next_cycle_covers_every_active_series_and_passes_the_output_checks(
     assert (frame[["units", "p10", "p90"]] >= 0).all().all()
     path = write_forecast(cycle, config, tmp_path / "staging")
     assert path.name == "forecast_2026-03-02.csv"
-    results = evaluate(config, load_inputs(config, forecast_path=path))
+    results = evaluate(config, load_inputs(config, forecast_path=path,
+                                           archive=archived_cycles(config)))
     statuses: dict[str, set[str]] = {}
     for r in results:
         statuses.setdefault(r.check, set()).add(r.status)
@@ -381,7 +383,7 @@ def demo_latest(tmp_path_factory: pytest.TempPathFactory) -> Path:
 
 def single_process(config_path: Path) -> dict[tuple[str | None, int | None, str | None], Any]:
     config = load_config(config_path)
-    results = evaluate(config, load_inputs(config))
+    results = evaluate(config, load_inputs(config, archive=archived_cycles(config)))
     return {(r.segment, r.lag, r.measure): r for r in results if r.check == "accuracy"}
 
 

@@ -23,8 +23,9 @@ import pytest
 from accuracy_checks import load_config
 from accuracy_checks.cli.main import main
 from accuracy_checks.config import Config
-from accuracy_checks.engine import load_inputs, run_checks
+from accuracy_checks.engine import archived_cycles, run_checks
 from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.load import load_inputs
 from accuracy_checks.store import archived_attempts, open_store
 from accuracy_checks.store.archive import (
     Archive,
@@ -198,7 +199,7 @@ def test_load_inputs_leaves_out_a_cycle_whose_snapshot_is_missing(
         make_project: Callable[..., Project]) -> None:
     _project, config = archive_only(make_project)
     snapshot_path(config, SECOND, 2).unlink()
-    inputs = load_inputs(config)
+    inputs = load_inputs(config, archive=archived_cycles(config))
     assert set(inputs.earlier[F.ISSUED].unique()) == {EARLIER[0]}  # SECOND is not attempt 1
     [note, count] = inputs.notes
     assert note.check == "archive.snapshot" and note.status == "warn"
@@ -210,7 +211,7 @@ def test_load_inputs_leaves_out_a_cycle_whose_snapshot_is_missing(
     assert count.check == "coverage.series_count" and count.status == "skipped"
     assert SECOND in count.message
     # without a store, the folder as it is: SECOND's highest file, attempt 1
-    inputs = load_inputs(config, recorded=None)
+    inputs = load_inputs(config, archive=archived_cycles(config, recorded=None))
     assert inputs.notes == [] and inputs.previous_label == f"{SECOND} (attempt 1)"
 
 

@@ -1,0 +1,107 @@
+"""Pre-reads of Parquet inputs: what a run needs to know before reading the rows it uses.
+
+Each reads a few columns of Parquet files only (Arrow does the grouping) and gives up —
+returns ``None`` — on anything unusual (a CSV file, dates that are not timestamps, a column
+named twice, dates beyond the calendar): the full read then reports the problem with its
+proper message. So a run reads only the recent actuals and the earlier forecasts it uses:
+
+- :func:`cycle_starts`: the first period of every cycle of an earlier-forecasts file (lags
+  stay right after the rows are cut to the evaluation span);
+- :func:`actual_periods`: the periods that hold at least one actual;
+- :func:`actual_series`: the series the actuals know, without loading their rows.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import pandas as pd
+from pandas.errors import OutOfBoundsDatetime
+
+from accuracy_checks.config import Config
+from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.columns import Column, to_key
+from accuracy_checks.sources.files import PARQUET, is_timestamp, list_files
+
+__all__ = ["actual_periods", "actual_series", "cycle_starts"]
+
+
+def cycle_starts(path: Path, config: Config, *, role: str = "history",
+                 key: str = "history") -> pd.Series | None:
+    """The first period of every cycle in a Parquet file or folder, read from its two date
+    columns only (``None`` when a file is CSV or its dates are not timestamps)."""
+    import pyarrow.parquet as pq
+
+    issued, period = config.forecast.issued, config.forecast.period
+    parts = []
+    for f in list_files(path, role, key):
+        if f.suffix.lower() not in PARQUET:
+            return None
+        try:
+            schema = pq.read_schema(f)
+            if not all(is_timestamp(schema, n) for n in (issued, period)):
+                return None
+            table = pq.read_table(f, columns=[issued, period])
+        except (OSError, ValueError):
+            return None  # the full read reports the problem with its proper message
+        parts.append(table.group_by(issued).aggregate([(period, "min")]).to_pandas())
+    if not parts:
+        return None
+    starts = pd.concat(parts, ignore_index=True)
+    starts = starts.rename(columns={issued: F.ISSUED, f"{period}_min": F.PERIOD})
+    out = starts.groupby(F.ISSUED)[F.PERIOD].min()
+    try:
+        out.index = pd.DatetimeIndex(out.index).tz_localize(None).as_unit("ns")
+        return out.astype("datetime64[ns]") if len(out) else out
+    except (OutOfBoundsDatetime, OverflowError):
+        return None  # dates beyond the calendar: the full read names them
+
+
+def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex | None:
+    """The sorted distinct periods that hold at least one actual, read from the period and
+    value columns of Parquet files only (``None`` when a file is CSV or its period column is
+    not a timestamp: such inputs are read whole)."""
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    ac = config.actuals
+    found = []
+    for f in list_files(path or ac.path, "actuals", "actuals.path"):
+        if f.suffix.lower() not in PARQUET:
+            return None
+        try:
+            schema = pq.read_schema(f)
+            if (not is_timestamp(schema, ac.period)
+                    or len(schema.get_all_field_indices(ac.value)) != 1):
+                return None
+            table = pq.read_table(f, columns=[ac.period, ac.value])
+        except (OSError, ValueError):
+            return None  # the full read reports the problem with its proper message
+        present = pc.filter(table[ac.period], pc.is_valid(table[ac.value]))
+        found.append(pc.unique(present).to_pandas())
+    periods = pd.DatetimeIndex(pd.concat(found, ignore_index=True).unique()).sort_values()
+    periods = periods.tz_localize(None) if periods.tz is not None else periods
+    try:
+        return periods.as_unit("ns")
+    except (OutOfBoundsDatetime, OverflowError):
+        return None  # dates beyond the calendar: the full read names them
+
+
+def actual_series(config: Config, path: Path | None = None) -> pd.DataFrame:
+    """The distinct series (key columns) over every row of Parquet actuals, grouped in Arrow:
+    the series the actuals know, without loading their rows."""
+    import pyarrow.parquet as pq
+
+    ac = config.actuals
+    src = list(config.actual_keys)
+    parts = []
+    for f in list_files(path or ac.path, "actuals", "actuals.path"):
+        table = pq.read_table(f, columns=src)
+        parts.append(table.group_by(src).aggregate([]).to_pandas())
+    table = pd.concat(parts, ignore_index=True)
+    table = table.rename(columns=dict(zip(src, config.forecast.keys, strict=False)))
+    column = Column("", "key", "actuals.keys")
+    out = {k: to_key(table[k], Path(str(path or ac.path)), column, "actuals", 1,
+                      allow_missing=True) for k in config.forecast.keys}
+    return pd.DataFrame(out).drop_duplicates()
+

@@ -1,0 +1,106 @@
+"""The readers of the forecast and the actuals: configured columns → canonical frames.
+
+Both return the frames of :mod:`accuracy_checks.sources.frames` (canonical column names, key
+columns as categoricals of text) or raise :class:`~accuracy_checks.errors.InputError`. The
+segment mapping is read by :func:`accuracy_checks.sources.segments.read_mapping`.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from pathlib import Path
+
+import pandas as pd
+
+from accuracy_checks.config import Config
+from accuracy_checks.errors import InputError
+from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.codes import duplicated_rows
+from accuracy_checks.sources.columns import SHOWN, Column
+from accuracy_checks.sources.files import columns_of, read_columns
+
+__all__ = ["forecast_columns", "read_actuals", "read_forecast"]
+
+
+def forecast_columns(config: Config) -> list[Column]:
+    """The forecast's configured columns: keys, period, issue date, value, quantiles."""
+    fc = config.forecast
+    cols = [Column(k, "key", "forecast.keys") for k in fc.keys]
+    cols += [
+        Column(fc.period, "date", "forecast.period", F.PERIOD, fc.date_formats.get(fc.period)),
+        Column(fc.issued, "date", "forecast.issued", F.ISSUED, fc.date_formats.get(fc.issued)),
+        Column(fc.value, "number", "forecast.value", F.FORECAST),
+    ]
+    cols += [
+        Column(name, "number", f"forecast.quantiles.{tau:g}", F.quantile_column(tau))
+        for tau, name in fc.quantiles.items()
+    ]
+    return cols
+
+
+def read_forecast(config: Config, path: Path | None = None, *, role: str = "forecast",
+                  key: str = "forecast.path", segment_columns: Sequence[str] = (),
+                  allow_empty: bool = False,
+                  periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
+    """The forecast (or an earlier-cycles file with the same columns), canonical names.
+
+    ``segment_columns`` present in the file are read too (as text); with ``periods``, Parquet
+    files whose period column is a timestamp keep only the rows of those periods."""
+    path = path or config.forecast.path
+    cols = forecast_columns(config)
+    names = {c.name for c in cols}
+    present = columns_of(path, role, key)
+    cols += [Column(s, "text", "segments.columns") for s in segment_columns
+             if s in present and s not in names]
+    row_filter = (config.forecast.period, periods) if periods is not None else None
+    return read_columns(path, cols, role=role, key=key, allow_empty=allow_empty,
+                        row_filter=row_filter)
+
+
+def actual_columns(config: Config) -> list[Column]:
+    """The actuals' configured columns: keys (``actuals.keys`` or the forecast's), period,
+    value."""
+    ac = config.actuals
+    cols = [Column(k, "key", "actuals.keys" if ac.keys else "forecast.keys")
+            for k in config.actual_keys]
+    cols += [
+        Column(ac.period, "date", "actuals.period", F.PERIOD, ac.date_formats.get(ac.period)),
+        Column(ac.value, "number", "actuals.value", F.ACTUAL),
+    ]
+    return cols
+
+
+def read_actuals(config: Config, path: Path | None = None,
+                 periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
+    """The actuals (all rows, or with ``periods`` only those periods: filtered while reading
+    Parquet, after reading CSV), key columns named as the forecast's. Refuses a series with
+    two actuals in one period."""
+    ac = config.actuals
+    path = path or ac.path
+    frame = read_columns(path, actual_columns(config), role="actuals", key="actuals.path",
+                         row_filter=(ac.period, periods) if periods is not None else None)
+    if periods is not None:
+        kept = frame[F.PERIOD].isin(periods).to_numpy()
+        if not kept.all():
+            frame = frame.loc[kept].reset_index(drop=True)
+    if ac.keys and list(ac.keys) != list(config.forecast.keys):
+        frame = frame.rename(columns=dict(zip(ac.keys, config.forecast.keys, strict=False)))
+    _refuse_repeated_actuals(frame, list(config.forecast.keys), path)
+    return frame
+
+
+def _refuse_repeated_actuals(frame: pd.DataFrame, keys: list[str], path: Path) -> None:
+    """Raise when rows of ``frame`` repeat a series and period, naming the first ones."""
+    dup = duplicated_rows(frame, [*keys, F.PERIOD])
+    if not dup.any():
+        return
+    sample = frame.loc[dup, [*keys, F.PERIOD]].head(SHOWN)
+    shown = "; ".join(
+        ", ".join(f"{k}={v}" for k, v in row.items() if k != F.PERIOD)
+        + f", {row[F.PERIOD]:%Y-%m-%d}"
+        for row in sample.to_dict("records")
+    )
+    raise InputError(
+        f"The actuals {path} hold {int(dup.sum())} rows that repeat a series and period "
+        f"(e.g. {shown}). Each series needs one actual per period: aggregate them first."
+    )
