@@ -47,6 +47,9 @@ from accuracy_checks.checks.drift_rules import (
     control_limits,
     false_alarm_rate,
 )
+from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.measures.catalogue import measure_directions
+from accuracy_checks.measures.registry import measure_label
 from accuracy_checks.outputs.wording import describe_value, format_number, unit_suffix
 from accuracy_checks.results import (
     ALL_SERIES,
@@ -61,7 +64,7 @@ from accuracy_checks.store.queries import TRAIL_COLUMNS, trail_of_figures
 
 if TYPE_CHECKING:
     from accuracy_checks.config import Config, Drift
-    from accuracy_checks.store import Store
+    from accuracy_checks.store.core import Store
 
 __all__ = [
     "CONTROL_LIMIT",
@@ -154,8 +157,6 @@ def drift_measures(config: Config, results: Sequence[CheckResult]) -> list[str]:
         return reported
     if drift.measures:
         return [m for m in drift.measures if m in reported]
-    from accuracy_checks.checks.judge import ThresholdBook
-
     book = ThresholdBook(config)
     return [m for m in reported if book.has_threshold(m)]
 
@@ -217,8 +218,6 @@ def _control_limit_results(drift: Drift, results: Sequence[CheckResult], trail: 
                and math.isfinite(r.value)]
     if not current:
         return []
-    from accuracy_checks.measures.catalogue import measure_directions
-
     directions = measure_directions()
     figures = _figures(current)
     usable = trail.loc[(trail["check"] == "accuracy") & trail["status"].isin(JUDGED)
@@ -279,16 +278,10 @@ def _ideal(result: CheckResult) -> float:
         return 0.0
 
 
-def _label(measure: str | None) -> str:
-    from accuracy_checks.measures.registry import measure_label
-
-    return measure_label(measure)
-
-
 def _name(r: CheckResult) -> str:
     """``Bias % of pet-care at lag 1`` (``all series`` for ``"*"``)."""
     seg = "all series" if r.segment in (None, ALL_SERIES) else str(r.segment)
-    what = _label(r.measure) if r.check == "accuracy" else f"{r.check} ({r.measure})"
+    what = measure_label(r.measure) if r.check == "accuracy" else f"{r.check} ({r.measure})"
     variant = _variant_of(r)
     lag = f" at lag {r.lag}" if r.lag is not None else ""
     return f"{what}{f' ({variant})' if variant else ''} of {seg}{lag}"

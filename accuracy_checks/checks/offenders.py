@@ -20,7 +20,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.measures.data import MeasureData, dense_codes
-from accuracy_checks.results import ALL_SERIES
+from accuracy_checks.results import ALL_SERIES, json_value
 from accuracy_checks.sources import frames as F
 
 __all__ = ["worst_offenders"]
@@ -77,7 +77,7 @@ def worst_offenders(data: MeasureData, keys: list[str], breached: dict[int, bool
         labels = data.rows[columns].iloc[first_of[chosen]].astype(object)
         examples = []
         for i, record in zip(chosen, labels.to_dict("records"), strict=True):
-            example: dict[str, Any] = {k: _plain(v) for k, v in record.items()}
+            example: dict[str, Any] = {k: json_value(v) for k, v in record.items()}
             example.update({
                 "n_obs": int(count[i]),
                 "error": _finite(sum_e[i]),
@@ -105,11 +105,3 @@ def _share(part: float, whole: float) -> float | None:
         if not np.isfinite(share):  # 100·part overflowed: divide first
             share = 100.0 * (part / whole)
     return float(share) if np.isfinite(share) else None
-
-
-def _plain(value: object) -> object:
-    if isinstance(value, np.generic):
-        return value.item()
-    if isinstance(value, pd.Timestamp):
-        return value
-    return None if value is pd.NA or (isinstance(value, float) and np.isnan(value)) else value
