@@ -34,14 +34,13 @@ from __future__ import annotations
 
 import math
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass, field
 from functools import partial
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.checks.judge import ThresholdBook, breaks
+from accuracy_checks.checks.judge import ACCURACY, Figure, ThresholdBook, judge_figure, span_words
 from accuracy_checks.checks.offenders import worst_offenders
 from accuracy_checks.config import Config
 from accuracy_checks.evaluation.baselines import (
@@ -62,19 +61,17 @@ from accuracy_checks.measures.data import (
 from accuracy_checks.measures.registry import Measure, get_measure
 from accuracy_checks.measures.selection import measure_settings, measures_to_report, unmet_needs
 from accuracy_checks.measures.stats import overflowed
-from accuracy_checks.outputs.wording import describe_value, format_number
+from accuracy_checks.measures.wording import format_number
 from accuracy_checks.results import (
     ALL_SERIES,
     BREACHED,
     CheckResult,
     Reason,
-    StatusName,
     json_value,
 )
 from accuracy_checks.sources import frames as F
 
-CHECK = "accuracy"
-_FLOAT_MAX = "1.8e308"
+CHECK = ACCURACY
 
 _NEEDS_TEXT = {
     "history": "the actuals history (to scale errors or build the naive baselines)",
@@ -84,7 +81,7 @@ _NEEDS_TEXT = {
     "costs": "unit costs (the costs section of the config)",
 }
 #: columns of a measure's frame that are not details
-_NOT_DETAILS = frozenset({"value", "reason", "group", "variant", "n_obs", "unit"})
+NOT_DETAILS = frozenset({"value", "reason", "group", "variant", "n_obs", "unit"})
 
 
 def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBook,
@@ -104,7 +101,7 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
     the number of worst-offender series listed for each breached result.
     """
     settings = settings or MeasureSettings()
-    span = _span(window)
+    span = span_words(window)
     defs = [get_measure(m) for m in measures]
     if len(frame) == 0:
         reason = (
@@ -139,7 +136,7 @@ def _measure_all(job: _Job, defs: list[Measure], *, window: Sequence[pd.Timestam
     for measure in defs:
         missing = unmet_needs(measure, job.settings, job.history)
         windows = {"evaluation": window, "tracking": tracking if tracking else window}
-        measure_span = _span(windows[measure.window])
+        measure_span = span_words(windows[measure.window])
         for grouping in job.groupings:
             data = job.data(measure.window, grouping)
             if missing:
@@ -345,27 +342,11 @@ def _checked(measure: Measure, values: Any, data: MeasureData) -> pd.DataFrame:
 # --------------------------------------------------------------------------- judging
 
 
-@dataclass
-class _Row:
-    """One figure of a measure for one (lag, segment[, variant]) before judging."""
-
-    group: int
-    lag: int
-    segment: str
-    variant: str | None
-    value: float | None
-    reason: str | None
-    n_obs: int
-    n_series: int
-    unit: str | None
-    details: dict[str, Any] = field(default_factory=dict)
-
-
 def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job,
             book: ThresholdBook, min_obs: int, span: str, limit: int,
             keys: list[str]) -> list[CheckResult]:
     base_n, dropped, negative, series, lags, segments = job.facts(data)
-    extras = [c for c in values.columns if c not in _NOT_DETAILS]
+    extras = [c for c in values.columns if c not in NOT_DETAILS]
     columns = {c: values[c].to_numpy() for c in values.columns}
     if "group" not in columns:  # one row per group, in group order
         columns["group"] = np.arange(len(values))
@@ -395,9 +376,10 @@ def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job
                 overflow[g] or _infinite(rec["value"])
                 or any(_infinite(rec[c]) for c in extras)):
             value, reason = None, Reason.OVERFLOW
-        row = _Row(g, int(lags[g]), str(segments[g]), variant, value, reason,
-                   n_obs, int(series[g]), _unit(rec.get("unit"), measure), details)
-        result = _judge_row(measure, row, book, data.settings, min_obs, span)
+        figure = Figure(int(lags[g]), str(segments[g]), value, reason, n_obs, int(series[g]),
+                        _unit(rec.get("unit"), measure), variant, details)
+        result = judge_figure(measure, figure, book, min_obs=min_obs, span=span,
+                              settings=data.settings)
         if result.status in BREACHED:
             breached[g] = measure.bias_type
             pending.append((g, result))
@@ -409,52 +391,6 @@ def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: _Job
             examples = found.get(g, [])
             out.append(_with_offenders(result, examples, measure.bias_type))
     return out
-
-
-def _judge_row(measure: Measure, row: _Row, book: ThresholdBook, settings: MeasureSettings,
-               min_obs: int, span: str) -> CheckResult:
-    level = book.level(measure.id, row.segment)
-    configured = (level.warn, level.fail) if level is not None else None
-    bounds = (measure.levels(configured, row.details, settings) if measure.levels is not None
-              else configured)
-    warn, fail = bounds if bounds is not None else (None, None)
-    label = measure.label + (f" ({row.variant})" if row.variant else "")
-    common: dict[str, Any] = dict(segment=row.segment, lag=row.lag, measure=measure.id,
-                                  unit=row.unit, n_obs=row.n_obs, n_series=row.n_series,
-                                  warn=warn, fail=fail, details=row.details)
-    if row.n_obs == 0:
-        return CheckResult(CHECK, "skipped", reason=Reason.NO_DATA,
-                           message=f"{label} not measured: no forecast with an actual at lag "
-                                   f"{row.lag} in {span}.", **common)
-    if row.n_obs < min_obs:
-        return CheckResult(CHECK, "skipped", reason=Reason.TOO_FEW_ROWS,
-                           message=(f"{label} not judged: only {row.n_obs} forecast(s) with an "
-                                    f"actual at lag {row.lag} in {span} (min_obs is "
-                                    f"{min_obs})."), **common)
-    status: StatusName
-    note = ""
-    if row.reason == Reason.OVERFLOW:
-        # a figure beyond the float64 range is beyond any level: the worst level set breaks
-        status = "fail" if fail is not None else "warn" if warn is not None else "skipped"
-    elif row.value is None:
-        status = book.judge(measure.id, row.segment, None).status if bounds is not None \
-            else "skipped"
-    else:
-        direction = book.direction(measure.id)
-        if fail is not None and breaks(row.value, fail, direction):
-            status = "fail"
-        elif warn is not None and breaks(row.value, warn, direction):
-            status = "warn"
-        else:
-            status = "pass"
-        if status != "pass" and measure.breach_counts is not None and \
-                not measure.breach_counts(row.details, settings):
-            status = "pass"
-            note = " The gap may be chance (binomial test), so it is not held against it."
-    result = CheckResult(CHECK, status, value=row.value,
-                         reason=None if row.value is not None else (row.reason or Reason.NO_DATA),
-                         **common)
-    return _with_message(result, label, span, measure.id, note)
 
 
 def _with_offenders(result: CheckResult, examples: list[dict[str, Any]],
@@ -513,79 +449,6 @@ def _no_data(segment: str, lag: int, measure: str, book: ThresholdBook,
                        unit=book.unit(measure) or None, reason=Reason.NO_DATA, n_obs=0, n_series=0,
                        warn=level.warn if level else None, fail=level.fail if level else None,
                        message=f"{get_measure(measure).label} not measured: {reason}.")
-
-
-# --------------------------------------------------------------------------- wording
-
-
-def _with_message(result: CheckResult, label: str, span: str, measure: str,
-                  note: str) -> CheckResult:
-    what = describe_value(result)
-    named = label.replace(" %", "") if result.value is not None else label  # "WAPE 23.4 %"
-    lead = f"{named} {what}" if not what.startswith(("under", "over", "no bias", "sustained")) \
-        else f"{named}: {what}"
-    basis = (f"over {result.n_obs:,} forecasts of {result.n_series:,} series at lag "
-             f"{result.lag} ({span})")
-    if result.value is None:
-        if result.reason == Reason.OVERFLOW:
-            level = result.fail if result.status == "fail" else result.warn
-            judged = (f", so it is judged beyond the {result.status} level {_bound(level)}"
-                      if result.status in BREACHED else ", so it cannot be computed")
-            text = (f"{label} {basis} is beyond the floating-point range: the errors are too "
-                    f"large to sum (beyond ±{_FLOAT_MAX}){judged}. Look for a forecast or an "
-                    "actual of absurd size.")
-        elif result.reason == Reason.ZERO_ACTUAL and result.details.get("mape_nonzero") is not None:
-            nz = result.details["mape_nonzero"]
-            text = (f"{label} is undefined: {result.details.get('n_zero_actual')} actual(s) are 0 "
-                    f"{basis}; over the non-zero actuals it is {nz:.3g} %.")
-        else:
-            text = f"{label} is undefined ({result.reason}) {basis}."
-    elif result.status in BREACHED:
-        level = result.fail if result.status == "fail" else result.warn
-        text = f"{lead} {basis}, beyond the {result.status} level {_bound(level)}."
-    else:
-        text = f"{lead} {basis}."
-    extra = _facts(measure, result)
-    return CheckResult(**{**result.__dict__, "message": text + extra + note})
-
-
-def _facts(measure: str, result: CheckResult) -> str:
-    """A sentence of the facts behind a value, per measure family."""
-    d = result.details
-    if measure == "tracking_signal" and d.get("window_periods"):
-        return f" Summed over {d['window_periods']} period(s)."
-    if measure in ("mase", "msis") and d.get("n_series_skipped"):
-        return (f" {d['n_series_skipped']} series skipped (too little history for "
-                f"m = {d.get('seasonal_period')}, or a zero scale).")
-    if measure == "interval_coverage" and d.get("p_value") is not None:
-        return (f" Nominal {format_number(d['nominal_pct'])} %; binomial p = "
-                f"{float(d['p_value']):.2g}.")
-    if measure.startswith("fva_") and d.get("wape_baseline") is not None:
-        return (f" Baseline WAPE {format_number(d['wape_baseline'])} % vs forecast "
-                f"{format_number(d['wape_forecast'])} %.")
-    if measure == "error_cost" and d.get("under_cost") is not None:
-        unit = result.unit or "money"
-        text = (f" Under-forecasting cost {format_number(d['under_cost'])} {unit}, "
-                f"over-forecasting {format_number(d['over_cost'])} {unit}")
-        if d.get("tau_star") is not None:
-            text += f"; cost-optimal quantile τ* = {format_number(d['tau_star'])}"
-        return text + "."
-    return ""
-
-
-def _bound(bound: object) -> str:
-    if isinstance(bound, tuple):
-        return f"[{format_number(bound[0])}, {format_number(bound[1])}]"
-    return format_number(float(bound)) if isinstance(bound, float | int) else str(bound)
-
-
-def _span(window: Sequence[pd.Timestamp]) -> str:
-    if not window:
-        return "no periods"
-    first, last = window[0], window[-1]
-    if first == last:
-        return f"period {first:%Y-%m-%d}"
-    return f"periods {first:%Y-%m-%d} to {last:%Y-%m-%d}"
 
 
 def _unit(given: object, measure: Measure) -> str | None:

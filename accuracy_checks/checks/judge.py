@@ -16,17 +16,43 @@ Judgement (a level is broken when the value is *strictly* beyond it):
 ``fail`` is checked before ``warn``. An undefined value (``None``/NaN) under a threshold gets
 the configured ``undefined_status``; without a threshold it is ``skipped``. ``±inf`` (a sum
 beyond the float64 range) is not undefined: it is judged like any number, so it breaks every
-level on its side.
+level on its side. A figure whose sums left the float64 range (reason ``overflow``) is beyond
+any level: the worst level set breaks (``fail``, else ``warn``; ``skipped`` without a level).
+
+:func:`judge` is that rule, the one every engine and check calls (the coverage checks through
+:meth:`ThresholdBook.judge`, the accuracy check and the fan-out path through
+:func:`judge_figure`, which also words the result's message: docs/checks.md).
 """
 
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from datetime import date
+from typing import Any
 
 from accuracy_checks.config import Bound, Config, Direction, Level
 from accuracy_checks.measures.catalogue import measure_directions
-from accuracy_checks.results import StatusName
+from accuracy_checks.measures.data import MeasureSettings
+from accuracy_checks.measures.registry import Measure
+from accuracy_checks.measures.wording import format_bound, format_number, value_words
+from accuracy_checks.results import BREACHED, CheckResult, Reason, Status, StatusName
+
+__all__ = [
+    "BUILTIN_DEFAULTS",
+    "Figure",
+    "Judgement",
+    "ThresholdBook",
+    "breaks",
+    "judge",
+    "judge_figure",
+    "span_words",
+]
+
+#: the check name of accuracy results
+ACCURACY = "accuracy"
+_FLOAT_MAX = "1.8e308"
 
 #: Levels that apply when the config sets none for the measure (a config's
 #: ``thresholds.default`` replaces them measure by measure). Count checks: ``0`` means any.
@@ -62,6 +88,32 @@ def breaks(value: float, bound: Bound, direction: Direction) -> bool:
     return value > bound
 
 
+def judge(value: float | None, warn: Bound | None, fail: Bound | None, direction: Direction,
+          *, reason: str | None = None, undefined: StatusName = "skipped") -> StatusName:
+    """The status of ``value`` against its levels: the one rule of the module doc.
+
+    ``undefined`` is the status of an undefined value (``None``/NaN) when a level is set
+    (the config's ``evaluation.undefined_status``); ``reason="overflow"`` marks a figure
+    beyond the float64 range.
+
+    >>> judge(30.0, 25.0, 40.0, "lower"), judge(-6.0, 5.0, None, "centered")
+    ('warn', 'warn')
+    >>> judge(None, 25.0, 40.0, "lower", undefined="warn"), judge(None, None, None, "lower")
+    ('warn', 'skipped')
+    >>> judge(None, 25.0, None, "lower", reason="overflow")
+    'warn'
+    """
+    if reason == Reason.OVERFLOW:
+        return "fail" if fail is not None else "warn" if warn is not None else "skipped"
+    if value is None or math.isnan(value):
+        return undefined if warn is not None or fail is not None else "skipped"
+    if fail is not None and breaks(value, fail, direction):
+        return "fail"
+    if warn is not None and breaks(value, warn, direction):
+        return "warn"
+    return "pass"
+
+
 class ThresholdBook:
     """The thresholds of one config, ready to judge values."""
 
@@ -84,20 +136,19 @@ class ThresholdBook:
     def has_threshold(self, measure: str) -> bool:
         return measure in self._default or any(measure in s for s in self._segments.values())
 
+    @property
+    def undefined_status(self) -> StatusName:
+        """The status of an undefined value under a level (``evaluation.undefined_status``)."""
+        return self._undefined
+
     def judge(self, measure: str, segment: str, value: float | None) -> Judgement:
+        """``value`` of ``measure`` in ``segment`` judged by :func:`judge`."""
         level = self.level(measure, segment)
         warn = level.warn if level else None
         fail = level.fail if level else None
-        if value is None or math.isnan(value):
-            return Judgement(self._undefined if level else "skipped", warn, fail)
-        direction = self.direction(measure)
-        if fail is not None and breaks(value, fail, direction):
-            status: StatusName = "fail"
-        elif warn is not None and breaks(value, warn, direction):
-            status = "warn"
-        else:
-            status = "pass"
-        return Judgement(status, warn, fail)
+        undefined = self._undefined if level else "skipped"
+        return Judgement(judge(value, warn, fail, self.direction(measure), undefined=undefined),
+                         warn, fail)
 
     def judge_overflow(self, measure: str, segment: str) -> Judgement:
         """A figure beyond the float64 range (reason ``overflow``): beyond any level, so the
@@ -105,9 +156,142 @@ class ThresholdBook:
         level = self.level(measure, segment)
         warn = level.warn if level else None
         fail = level.fail if level else None
-        status: StatusName = "fail" if fail is not None else "warn" if warn is not None \
-            else "skipped"
+        status = judge(None, warn, fail, self.direction(measure), reason=Reason.OVERFLOW)
         return Judgement(status, warn, fail)
 
     def segment_names(self) -> list[str]:
         return list(self._segments)
+
+
+# --------------------------------------------------------------------------- accuracy figures
+
+
+@dataclass
+class Figure:
+    """One figure of a measure for one (lag, segment[, variant]) before judging."""
+
+    lag: int
+    segment: str
+    value: float | None
+    reason: str | None
+    n_obs: int
+    n_series: int
+    unit: str | None
+    variant: str | None = None
+    details: dict[str, Any] = field(default_factory=dict)
+
+
+def span_words(window: Sequence[date]) -> str:
+    """The periods of a window in words (every accuracy message names them).
+
+    >>> from datetime import date
+    >>> span_words([date(2026, 1, 5), date(2026, 3, 30)]), span_words([date(2026, 1, 5)])
+    ('periods 2026-01-05 to 2026-03-30', 'period 2026-01-05')
+    >>> span_words([])
+    'no periods'
+    """
+    if not window:
+        return "no periods"
+    first, last = window[0], window[-1]
+    if first == last:
+        return f"period {first:%Y-%m-%d}"
+    return f"periods {first:%Y-%m-%d} to {last:%Y-%m-%d}"
+
+
+def judge_figure(measure: Measure, figure: Figure, book: ThresholdBook, *, min_obs: int,
+                 span: str, settings: MeasureSettings | None = None) -> CheckResult:
+    """The accuracy result of one figure: its status (:func:`judge` against the levels of
+    ``book``, turned into the bounds of this figure by ``measure.levels``; ``no_data`` or
+    ``too_few_rows`` below ``min_obs``; a breach that ``measure.breach_counts`` puts down to
+    chance passes) and its message. ``span`` is the window in words (:func:`span_words`).
+    The single-process check and the fan-out path both call it, so their results read the
+    same."""
+    settings = settings or MeasureSettings()
+    level = book.level(measure.id, figure.segment)
+    configured = (level.warn, level.fail) if level is not None else None
+    bounds = (measure.levels(configured, figure.details, settings)
+              if measure.levels is not None else configured)
+    warn, fail = bounds if bounds is not None else (None, None)
+    label = measure.label + (f" ({figure.variant})" if figure.variant else "")
+    common: dict[str, Any] = dict(segment=figure.segment, lag=figure.lag, measure=measure.id,
+                                  unit=figure.unit, n_obs=figure.n_obs,
+                                  n_series=figure.n_series, warn=warn, fail=fail,
+                                  details=figure.details)
+    if figure.n_obs == 0:
+        return CheckResult(ACCURACY, Status.SKIPPED, reason=Reason.NO_DATA,
+                           message=f"{label} not measured: no forecast with an actual at lag "
+                                   f"{figure.lag} in {span}.", **common)
+    if figure.n_obs < min_obs:
+        return CheckResult(ACCURACY, Status.SKIPPED, reason=Reason.TOO_FEW_ROWS,
+                           message=(f"{label} not judged: only {figure.n_obs} forecast(s) with "
+                                    f"an actual at lag {figure.lag} in {span} (min_obs is "
+                                    f"{min_obs})."), **common)
+    # an undefined value is held against a configured level only (not against bounds a
+    # measure makes up without one)
+    undefined = book.undefined_status if configured is not None else "skipped"
+    status = judge(figure.value, warn, fail, book.direction(measure.id), reason=figure.reason,
+                   undefined=undefined)
+    note = ""
+    if (figure.value is not None and status != Status.PASS
+            and measure.breach_counts is not None
+            and not measure.breach_counts(figure.details, settings)):
+        status = "pass"
+        note = " The gap may be chance (binomial test), so it is not held against it."
+    reason = None if figure.value is not None else (figure.reason or Reason.NO_DATA)
+    result = CheckResult(ACCURACY, status, value=figure.value, reason=reason, **common)
+    return CheckResult(**{**result.__dict__,
+                          "message": _message(result, label, span, measure.id) + note})
+
+
+def _message(result: CheckResult, label: str, span: str, measure: str) -> str:
+    what = value_words(result.value, measure=result.measure, unit=result.unit,
+                       reason=result.reason)
+    named = label.replace(" %", "") if result.value is not None else label  # "WAPE 23.4 %"
+    lead = f"{named} {what}" if not what.startswith(("under", "over", "no bias", "sustained")) \
+        else f"{named}: {what}"
+    basis = (f"over {result.n_obs:,} forecasts of {result.n_series:,} series at lag "
+             f"{result.lag} ({span})")
+    if result.value is None:
+        if result.reason == Reason.OVERFLOW:
+            level = result.fail if result.status == Status.FAIL else result.warn
+            judged = (f", so it is judged beyond the {result.status} level {format_bound(level)}"
+                      if result.status in BREACHED else ", so it cannot be computed")
+            text = (f"{label} {basis} is beyond the floating-point range: the errors are too "
+                    f"large to sum (beyond ±{_FLOAT_MAX}){judged}. Look for a forecast or an "
+                    "actual of absurd size.")
+        elif result.reason == Reason.ZERO_ACTUAL and result.details.get("mape_nonzero") is not None:
+            nz = result.details["mape_nonzero"]
+            text = (f"{label} is undefined: {result.details.get('n_zero_actual')} actual(s) are 0 "
+                    f"{basis}; over the non-zero actuals it is {nz:.3g} %.")
+        else:
+            text = f"{label} is undefined ({result.reason}) {basis}."
+    elif result.status in BREACHED:
+        level = result.fail if result.status == Status.FAIL else result.warn
+        text = f"{lead} {basis}, beyond the {result.status} level {format_bound(level)}."
+    else:
+        text = f"{lead} {basis}."
+    return text + _facts(measure, result)
+
+
+def _facts(measure: str, result: CheckResult) -> str:
+    """A sentence of the facts behind a value, per measure family."""
+    d = result.details
+    if measure == "tracking_signal" and d.get("window_periods"):
+        return f" Summed over {d['window_periods']} period(s)."
+    if measure in ("mase", "msis") and d.get("n_series_skipped"):
+        return (f" {d['n_series_skipped']} series skipped (too little history for "
+                f"m = {d.get('seasonal_period')}, or a zero scale).")
+    if measure == "interval_coverage" and d.get("p_value") is not None:
+        return (f" Nominal {format_number(d['nominal_pct'])} %; binomial p = "
+                f"{float(d['p_value']):.2g}.")
+    if measure.startswith("fva_") and d.get("wape_baseline") is not None:
+        return (f" Baseline WAPE {format_number(d['wape_baseline'])} % vs forecast "
+                f"{format_number(d['wape_forecast'])} %.")
+    if measure == "error_cost" and d.get("under_cost") is not None:
+        unit = result.unit or "money"
+        text = (f" Under-forecasting cost {format_number(d['under_cost'])} {unit}, "
+                f"over-forecasting {format_number(d['over_cost'])} {unit}")
+        if d.get("tau_star") is not None:
+            text += f"; cost-optimal quantile τ* = {format_number(d['tau_star'])}"
+        return text + "."
+    return ""

@@ -205,6 +205,7 @@ def _coverage_breach_counts(extras: Mapping[str, Any], settings: MeasureSettings
 
 register_measure(Measure(
     id="interval_coverage",
+    order=10, wording="level",
     label="Interval coverage %",
     unit="%",
     direction="centered",
@@ -218,6 +219,7 @@ register_measure(Measure(
 ))
 register_measure(Measure(
     id="pinball",
+    order=11,
     label="Pinball loss",
     unit="units",
     direction="lower",

@@ -31,8 +31,9 @@ never by a formula: formulas stay plain arithmetic).
 from __future__ import annotations
 
 import inspect
+import math
 import re
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Iterable, Mapping
 from dataclasses import dataclass, field
 from typing import TYPE_CHECKING, Any, Literal
 
@@ -51,7 +52,9 @@ __all__ = [
     "Direction",
     "Levels",
     "Measure",
+    "display_order",
     "get_measure",
+    "headline_measures",
     "register_measure",
     "registered_measures",
 ]
@@ -125,6 +128,23 @@ class Measure:
     #: rank worst offenders by their share of the bias (else of the absolute error)
     bias_type: bool = False
     origin: str = "built-in"
+    #: how a value is worded (:func:`accuracy_checks.measures.wording.value_words`):
+    #: ``"level"`` a number and its unit (``23.4 %``); ``"bias"`` the side of the error
+    #: (``under-forecast by 4.2 %``); ``"mean_bias"`` the same per forecast (``… units on
+    #: average``); ``"signal"`` a sustained side and the signal (``sustained under-forecast
+    #: (tracking signal 4.2)``). ``None``: ``"bias"`` for a centred measure, else ``"level"``.
+    wording: Literal["level", "bias", "mean_bias", "signal"] | None = None
+    #: where the measure stands in tables (lower first); ties and ``None`` follow by id
+    order: int | None = None
+    #: rank as the headline figure of the accuracy-by-lag table (lower first); ``None``: never
+    headline: int | None = None
+
+    @property
+    def words(self) -> str:
+        """The wording in effect (see :attr:`wording`)."""
+        if self.wording is not None:
+            return self.wording
+        return "bias" if self.direction == "centered" else "level"
 
     def evaluate(self, data: MeasureData) -> pd.DataFrame:
         """The measure's frame for ``data`` (see the class doc)."""
@@ -294,6 +314,11 @@ def check_measure(measure: Measure) -> None:
             f"measure {measure.id!r}: direction must be 'lower', 'centered' or 'higher', "
             f"got {measure.direction!r}"
         )
+    if measure.wording not in (None, "level", "bias", "mean_bias", "signal"):
+        raise ValueError(
+            f"measure {measure.id!r}: wording must be 'level', 'bias', 'mean_bias' or 'signal', "
+            f"got {measure.wording!r}"
+        )
     if measure.window not in ("evaluation", "tracking"):
         raise ValueError(
             f"measure {measure.id!r}: window must be 'evaluation' or 'tracking', "
@@ -321,6 +346,31 @@ def check_measure(measure: Measure) -> None:
             f"({'stats' if name == 'from_stats' else 'data'}); its signature is "
             f"{name}{signature}"
         ) from None
+
+
+def display_order(measure_ids: Iterable[str]) -> list[str]:
+    """``measure_ids`` in table order: by each measure's :attr:`~Measure.order`, then by id
+    (unknown ids last, by id).
+
+    >>> display_order(["pinball", "wape", "zz", "me"])
+    ['me', 'wape', 'pinball', 'zz']
+    """
+    def key(measure_id: str) -> tuple[float, str]:
+        found = MEASURES.get(measure_id)
+        rank = found.order if found is not None and found.order is not None else math.inf
+        return (rank, measure_id)
+
+    return sorted(measure_ids, key=key)
+
+
+def headline_measures() -> list[str]:
+    """The measures that may headline the accuracy-by-lag table, best candidate first.
+
+    >>> headline_measures()[:3]
+    ['wape', 'mae', 'bias_pct']
+    """
+    ranked = [m for m in MEASURES.values() if m.headline is not None]
+    return [m.id for m in sorted(ranked, key=lambda m: (m.headline, m.id))]
 
 
 def measure_label(measure_id: str | None) -> str:
@@ -353,6 +403,9 @@ def register_measure(measure: Measure, *, replace: bool = False) -> None:
 for _measure in (
     Measure(
         id="me",
+        order=0,
+        headline=3,
+        wording="mean_bias",
         label="Mean error",
         unit="units",
         direction="centered",
@@ -363,6 +416,8 @@ for _measure in (
     ),
     Measure(
         id="bias_pct",
+        order=1,
+        headline=2,
         label="Bias %",
         unit="%",
         direction="centered",
@@ -373,6 +428,8 @@ for _measure in (
     ),
     Measure(
         id="mae",
+        order=2,
+        headline=1,
         label="MAE",
         unit="units",
         direction="lower",
@@ -382,6 +439,8 @@ for _measure in (
     ),
     Measure(
         id="mape",
+        order=3,
+        headline=4,
         label="MAPE %",
         unit="%",
         direction="lower",
@@ -392,6 +451,8 @@ for _measure in (
     ),
     Measure(
         id="wape",
+        order=4,
+        headline=0,
         label="WAPE %",
         unit="%",
         direction="lower",
@@ -401,6 +462,8 @@ for _measure in (
     ),
     Measure(
         id="rmse",
+        order=6,
+        headline=6,
         label="RMSE",
         unit="units",
         direction="lower",
@@ -410,6 +473,8 @@ for _measure in (
     ),
     Measure(
         id="sde",
+        order=7,
+        headline=7,
         label="SD of errors",
         unit="units",
         direction="lower",

@@ -74,6 +74,7 @@ def mase_from_data(data: MeasureData) -> pd.DataFrame:
 
 register_measure(Measure(
     id="smape",
+    order=5, headline=5,
     label="sMAPE %",
     unit="%",
     direction="lower",
@@ -84,6 +85,7 @@ register_measure(Measure(
 ))
 register_measure(Measure(
     id="mase",
+    order=8, headline=8,
     label="MASE",
     unit="",
     direction="lower",

@@ -128,6 +128,7 @@ def _tracking_levels(configured: Levels | None, extras: Mapping[str, Any],
 
 register_measure(Measure(
     id="tracking_signal",
+    order=9, wording="signal",
     label="Tracking signal",
     unit="",
     direction="centered",
@@ -141,6 +142,7 @@ register_measure(Measure(
 ))
 register_measure(Measure(
     id="trigg",
+    wording="signal",
     label="Trigg's signal",
     unit="",
     direction="centered",

@@ -12,13 +12,12 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+from accuracy_checks.measures.registry import headline_measures
 from accuracy_checks.outputs.wording import describe_value, format_number, status_word, unit_of
 from accuracy_checks.results import ALL_SERIES, DISPLAY_ORDER, OPEN_FINDINGS, CheckResult
 
 __all__ = ["LagTable", "lag_table", "measure_name"]
 
-#: Order in which the headline measure is chosen.
-HEADLINE_ORDER = ("wape", "mae", "bias_pct", "me", "mape", "smape", "rmse", "sde", "mase")
 #: Measures named in a cell before "…".
 _MAX_NAMED = 3
 
@@ -47,7 +46,7 @@ def measure_name(result: CheckResult) -> str:
 
 def _headline(results: list[CheckResult]) -> str | None:
     present = {r.measure for r in results if r.measure}
-    for measure in HEADLINE_ORDER:
+    for measure in headline_measures():
         if measure in present:
             return measure
     return min(present) if present else None

@@ -28,6 +28,7 @@ import math
 import os
 from collections.abc import Iterable, Mapping, Sequence
 
+from accuracy_checks.measures.registry import display_order
 from accuracy_checks.outputs.jsonfile import write_text_atomic
 from accuracy_checks.outputs.lag_table import lag_table, measure_name
 from accuracy_checks.outputs.wording import (
@@ -69,21 +70,6 @@ MAX_TABLE_ROWS = 100
 #: Segments of the accuracy-by-segment table before it is cut.
 MAX_SEGMENT_ROWS = 50
 
-#: Canonical column order of measures (docs/results.md); others follow by name.
-_MEASURE_ORDER = (
-    "me",
-    "bias_pct",
-    "mae",
-    "mape",
-    "wape",
-    "smape",
-    "rmse",
-    "sde",
-    "mase",
-    "tracking_signal",
-    "interval_coverage",
-    "pinball",
-)
 _ESCAPES = str.maketrans(
     {
         "&": "&amp;",
@@ -150,12 +136,6 @@ def _attention_section(results: list[CheckResult]) -> list[str]:
     return lines
 
 
-def _measure_key(measure: str) -> tuple[int, str]:
-    if measure in _MEASURE_ORDER:
-        return (_MEASURE_ORDER.index(measure), measure)
-    return (len(_MEASURE_ORDER), measure)
-
-
 def _segment_key(segment: str) -> tuple[int, str]:
     return (0 if segment == ALL_SERIES else 1, segment)
 
@@ -179,7 +159,7 @@ def _segment_section(results: list[CheckResult]) -> list[str]:
             cells.setdefault((str(r.segment), measure_name(r)), r)
     if not cells:
         return []
-    measures = sorted({m for _, m in cells}, key=_measure_key)
+    measures = display_order({m for _, m in cells})
     segments = sorted({s for s, _ in cells}, key=_segment_key)
     rows = [
         [escape_cell(seg)]

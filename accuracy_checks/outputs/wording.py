@@ -2,17 +2,12 @@
 
 Contract:
 
-- Numbers are rounded to 3 significant digits (at most 6 decimals, so float noise such as
-  ``2e-15`` reads as ``0``), integers are never cut (``12346``, not ``12300``), values of
-  magnitude 1e9 and above use scientific notation, and ``-0`` is never shown.
-- Bias-type measures (``me``, ``bias_pct``, ``tracking_signal``) are worded with the fixed sign
-  convention ``e = actual − forecast``: positive = **under-forecast**, negative =
-  **over-forecast**. A bare sign is never the only clue.
-- Percentages are always in percent (``23.4 %``).
+- Numbers and a measure's value read as :mod:`accuracy_checks.measures.wording` words them
+  (3 significant digits, never ``-0``, ``nan`` or ``inf``; bias-type measures with the sign
+  convention ``e = actual − forecast``: positive = **under-forecast**, as the measure's
+  registry entry says). Percentages are always in percent (``23.4 %``).
 - An undefined value (``None``, NaN, inf) reads ``undefined (<reason>)``; a figure whose sums
   exceeded the float64 range (reason ``overflow``) reads ``beyond the floating-point range``.
-  No output ever prints ``nan`` or ``inf``: a non-finite number reads ``undefined``,
-  ``infinity`` or ``-infinity``.
 
 The direction of a measure (which way is better) decides how a single-number threshold is
 worded: centred measures (ideal 0) are bounded on ``|value|`` ("beyond ±5 %"), all others are
@@ -27,10 +22,17 @@ import math
 from collections.abc import Iterable, Mapping, Sequence
 from typing import Any
 
-from accuracy_checks.results import CheckResult, Reason, RunReport
+from accuracy_checks.measures.registry import MEASURES
+from accuracy_checks.measures.wording import (
+    format_level,
+    format_number,
+    measure_unit,
+    unit_suffix,
+    value_words,
+)
+from accuracy_checks.results import CheckResult, RunReport
 
 __all__ = [
-    "CENTRED_MEASURES",
     "count_summary",
     "describe_threshold",
     "describe_value",
@@ -46,18 +48,6 @@ __all__ = [
     "unit_suffix",
 ]
 
-#: Measures whose ideal value is 0; a single-number threshold bounds ``|value|``.
-CENTRED_MEASURES: frozenset[str] = frozenset({"me", "bias_pct", "tracking_signal", "trigg"})
-#: Measures expressed in percent when a result does not state its unit.
-_PERCENT_MEASURES: frozenset[str] = frozenset(
-    {"bias_pct", "mape", "wape", "smape", "interval_coverage", "mape_nonzero"}
-)
-#: Measures expressed in data units when a result does not state its unit.
-_DATA_UNIT_MEASURES: frozenset[str] = frozenset({"me", "mae", "rmse", "sde", "pinball"})
-
-_MAX_DECIMALS = 6
-_SCIENTIFIC_FROM = 1e9
-
 # (status, word when the count is 1, word otherwise), in headline order.
 _COUNT_WORDS: tuple[tuple[str, str, str], ...] = (
     ("fail", "failed", "failed"),
@@ -69,71 +59,6 @@ _COUNT_WORDS: tuple[tuple[str, str, str], ...] = (
 )
 
 
-def format_number(value: float, sig: int = 3) -> str:
-    """Round ``value`` to ``sig`` significant digits for reading; never ``-0``.
-
-    Integer digits are kept (no rounding of 12345.6 to 12300), at most 6 decimals are shown,
-    trailing zeros are dropped and magnitudes of 1e9 and above use scientific notation.
-
-    >>> format_number(17.94)
-    '17.9'
-    >>> format_number(0.0123456)
-    '0.0123'
-    >>> format_number(12345.6)
-    '12346'
-    >>> format_number(20.0)
-    '20'
-    >>> format_number(-0.0000000001)
-    '0'
-    >>> format_number(1.1259e17)
-    '1.13e+17'
-    >>> format_number(float("nan")), format_number(float("-inf"))
-    ('undefined', '-infinity')
-    """
-    value = float(value)
-    if not math.isfinite(value):
-        return _non_finite(value)
-    if value == 0:
-        return "0"
-    if abs(value) >= _SCIENTIFIC_FROM:
-        return f"{value:.{sig - 1}e}"
-    magnitude = math.floor(math.log10(abs(value)))
-    decimals = min(max(sig - 1 - magnitude, 0), _MAX_DECIMALS)
-    text = f"{value:.{decimals}f}"
-    if "." in text:
-        text = text.rstrip("0").rstrip(".")
-    if text in ("-0", ""):
-        text = "0"
-    return text
-
-
-def _non_finite(value: float) -> str:
-    """A non-finite number in words (``nan``/``inf`` mean nothing to most readers)."""
-    if math.isnan(value):
-        return "undefined"
-    return "infinity" if value > 0 else "-infinity"
-
-
-def _format_bound_number(value: float) -> str:
-    """A threshold as the user wrote it (6 significant digits), never ``-0``."""
-    text = f"{float(value):g}"
-    return "0" if text == "-0" else text
-
-
-def _registered(measure: str | None) -> Any:
-    """The registry entry of ``measure`` (it states unit and direction), or ``None``.
-
-    Looked up lazily so that the outputs never fail to import with the measures package.
-    """
-    if not measure:
-        return None
-    try:
-        from accuracy_checks.measures.registry import MEASURES
-    except ImportError:  # pragma: no cover - the registry is part of the package
-        return None
-    return MEASURES.get(measure)
-
-
 def unit_of(result: CheckResult) -> str | None:
     """The unit of a result: its own ``unit``, else the registered or usual unit of its measure.
 
@@ -142,49 +67,22 @@ def unit_of(result: CheckResult) -> str | None:
     >>> unit_of(CheckResult(check="accuracy", status="pass", measure="mase")) is None
     True
     """
-    if result.unit:
-        return result.unit
-    registered = _registered(result.measure)
-    if registered is not None and getattr(registered, "unit", None):
-        return str(registered.unit)
-    measure = result.measure or ""
-    if measure in _PERCENT_MEASURES or measure.endswith("_pct"):
-        return "%"
-    if measure in _DATA_UNIT_MEASURES:
-        return "units"
-    return None
-
-
-def unit_suffix(unit: str | None) -> str:
-    """The text put after a number of ``unit``: ``" %"``, ``" units"``; nothing for counts.
-
-    >>> unit_suffix("%"), unit_suffix("count"), unit_suffix(None)
-    (' %', '', '')
-    """
-    if unit is None or unit == "count":
-        return ""
-    return f" {unit}"
-
-
-def _is_defined(value: float | None) -> bool:
-    return value is not None and math.isfinite(float(value))
+    return measure_unit(result.measure, result.unit)
 
 
 def _direction(result: CheckResult) -> str:
     """``centred``, ``higher`` or ``lower`` (which way the measure is better).
 
     From ``details["direction"]`` when a result states it, else the measure registry, else
-    :data:`CENTRED_MEASURES`, else lower-is-better (errors and counts).
+    lower-is-better (errors and counts).
     """
     stated = result.details.get("direction") if isinstance(result.details, dict) else None
-    if stated is None:
-        stated = getattr(_registered(result.measure), "direction", None)
+    if stated is None and result.measure in MEASURES:
+        stated = MEASURES[result.measure].direction
     if stated in ("centred", "centered"):
         return "centred"
     if stated in ("higher", "lower"):
         return str(stated)
-    if (result.measure or "") in CENTRED_MEASURES:
-        return "centred"
     return "lower"
 
 
@@ -212,42 +110,19 @@ def describe_value(result: CheckResult) -> str:
     >>> describe_value(CheckResult("accuracy", "fail", measure="rmse", reason="overflow"))
     'beyond the floating-point range'
     """
-    value = result.value
-    if not _is_defined(value):
-        if result.reason == Reason.OVERFLOW:
-            return "beyond the floating-point range"
-        return f"undefined ({result.reason})" if result.reason else "undefined"
-    assert value is not None
-    value = float(value)
-    measure = result.measure or ""
-    unit = unit_of(result)
-    if measure in CENTRED_MEASURES:
-        magnitude = format_number(abs(value))
-        side = "under-forecast" if value > 0 else "over-forecast"
-        if magnitude == "0":
-            side = "no bias"
-        if measure in ("tracking_signal", "trigg"):
-            signed = format_number(value)
-            prefix = side if side == "no bias" else f"sustained {side}"
-            name = "tracking signal" if measure == "tracking_signal" else "Trigg's signal"
-            return f"{prefix} ({name} {signed})"
-        if side == "no bias":
-            return side
-        if measure == "me":
-            return f"{side} by {magnitude} {unit or 'units'} on average"
-        return f"{side} by {magnitude}{unit_suffix(unit or '%')}"
-    return f"{format_number(value)}{unit_suffix(unit)}"
+    return value_words(result.value, measure=result.measure, unit=result.unit,
+                       reason=result.reason)
 
 
 def _describe_bound(bound: Any, direction: str, suffix: str) -> str:
     if isinstance(bound, Sequence) and not isinstance(bound, str) and len(bound) == 2:
-        low, high = (_format_bound_number(b) for b in bound)
+        low, high = (format_level(b) for b in bound)
         return f"outside [{low}, {high}]{suffix}"
     number = float(bound)
     if direction == "centred":
-        return f"beyond ±{_format_bound_number(abs(number))}{suffix}"
+        return f"beyond ±{format_level(abs(number))}{suffix}"
     sign = "<" if direction == "higher" else ">"
-    return f"{sign} {_format_bound_number(number)}{suffix}"
+    return f"{sign} {format_level(number)}{suffix}"
 
 
 def describe_threshold(result: CheckResult) -> str:

@@ -33,10 +33,13 @@ import pandas as pd
 from prefect import task
 from prefect.cache_policies import NO_CACHE
 
+from accuracy_checks.checks.accuracy import NOT_DETAILS as _NOT_DETAILS
+from accuracy_checks.checks.judge import Figure, ThresholdBook, judge_figure, span_words
 from accuracy_checks.config import Config
+from accuracy_checks.measures.registry import get_measure
+from accuracy_checks.measures.selection import measure_settings, measures_to_report
 from accuracy_checks.measures.stats import error_stats, merge_stats, overflowed, total_stats
-from accuracy_checks.outputs.wording import describe_value
-from accuracy_checks.results import ALL_SERIES, CheckResult, Reason, StatusName
+from accuracy_checks.results import ALL_SERIES, CheckResult, Reason, json_value
 from accuracy_checks.sources import frames as F
 
 __all__ = [
@@ -81,13 +84,7 @@ def evaluation_rows(config: Config, *, forecast_path: Path | None = None,
     if IN_WINDOW in frame.columns:
         frame = frame.loc[frame[IN_WINDOW].to_numpy(dtype=bool)]
     frame = frame.loc[:, [*keys, F.LAG, F.SEGMENT, F.ACTUAL, F.FORECAST]].reset_index(drop=True)
-    if ev.window:
-        first, last = ev.window[0], ev.window[-1]
-        span = (f"period {first:%Y-%m-%d}" if first == last
-                else f"periods {first:%Y-%m-%d} to {last:%Y-%m-%d}")
-    else:
-        span = "no periods"
-    return EvaluationRows(frame, keys, span)
+    return EvaluationRows(frame, keys, span_words(ev.window))
 
 
 def segment_partitions(frame: pd.DataFrame, n_parts: int) -> list[pd.DataFrame]:
@@ -145,25 +142,24 @@ def merge_partition_stats(parts: Sequence[pd.DataFrame]) -> pd.DataFrame:
 
 def stats_measures(config: Config) -> list[str]:
     """The measures a run of ``config`` reports that have a ``from_stats`` formula."""
-    from accuracy_checks.measures.registry import get_measure
-    from accuracy_checks.measures.selection import measures_to_report
-
     return [m for m in measures_to_report(config) if get_measure(m).from_stats is not None]
 
 
 def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the window"
                 ) -> list[CheckResult]:
     """Accuracy results (check ``accuracy``) of every :func:`stats_measures` measure for each
-    row of merged statistics, judged as the single-process gate judges them."""
-    from accuracy_checks.checks.judge import ThresholdBook
-    from accuracy_checks.measures.registry import get_measure
-
+    row of merged statistics, judged and worded by the single-process gate's own
+    :func:`~accuracy_checks.checks.judge.judge_figure`. ``window`` is the window in words
+    (:attr:`EvaluationRows.window`)."""
     book = ThresholdBook(config)
+    settings = measure_settings(config)
     min_obs = config.evaluation.min_obs
     lags = stats[F.LAG].to_numpy()
     segments = stats[F.SEGMENT].astype(str).to_numpy(dtype=object)
     n_obs = stats["n"].to_numpy()
     n_series = stats["n_series"].to_numpy()
+    dropped = stats["n_dropped"].to_numpy()
+    negative = stats["n_negative_y"].to_numpy()
     overflow = overflowed(stats)  # sums beyond the float64 range: judged beyond any level
     out: list[CheckResult] = []
     for measure_id in stats_measures(config):
@@ -173,27 +169,17 @@ def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the windo
         values = frame["value"].to_numpy(dtype=np.float64)
         reasons = frame["reason"].to_numpy(dtype=object) if "reason" in frame.columns \
             else np.full(len(frame), None, dtype=object)
+        extras = {c: frame[c].to_numpy() for c in frame.columns if c not in _NOT_DETAILS}
         for i in range(len(stats)):
-            segment, lag, n = str(segments[i]), int(lags[i]), int(n_obs[i])
-            level = book.level(measure_id, segment)
-            common: dict[str, Any] = dict(
-                segment=segment, lag=lag, measure=measure_id, unit=measure.unit or None,
-                n_obs=n, n_series=int(n_series[i]), warn=level.warn if level else None,
-                fail=level.fail if level else None)
-            if n == 0 or n < min_obs:
-                skip = Reason.NO_DATA if n == 0 else Reason.TOO_FEW_ROWS
-                out.append(CheckResult("accuracy", "skipped", reason=skip,
-                                       message=f"{measure.label} not judged ({skip}) at lag "
-                                               f"{lag} in {window}.", **common))
-                continue
             value = float(values[i]) if np.isfinite(values[i]) else None
-            status: StatusName = book.judge(measure_id, segment, value).status
-            reason = None if value is not None else str(reasons[i] or Reason.NO_DATA)
-            if overflow[i] and reasons[i] is None:
+            reason = reasons[i] if isinstance(reasons[i], str) else None
+            if reason is None and int(n_obs[i]) > 0 and (overflow[i] or np.isinf(values[i])):
                 value, reason = None, Reason.OVERFLOW
-                status = book.judge_overflow(measure_id, segment).status
-            result = CheckResult("accuracy", status, value=value, reason=reason, **common)
-            text = (f"{measure.label} {describe_value(result)} over {n:,} forecasts of "
-                    f"{int(n_series[i]):,} series at lag {lag} ({window}).")
-            out.append(CheckResult(**{**result.__dict__, "message": text}))
+            details: dict[str, Any] = {"window": window, "n_dropped": int(dropped[i]),
+                                       "n_negative_actuals": int(negative[i])}
+            details.update({c: json_value(column[i]) for c, column in extras.items()})
+            figure = Figure(int(lags[i]), str(segments[i]), value, reason, int(n_obs[i]),
+                            int(n_series[i]), measure.unit or None, details=details)
+            out.append(judge_figure(measure, figure, book, min_obs=min_obs, span=window,
+                                    settings=settings))
     return out
