@@ -187,27 +187,11 @@ def judged(book: ThresholdBook, *, check: str, measure: str, segment: str,
            value: float | None, unit: str, **fields: Any) -> CheckResult:
     """A coverage result whose ``value`` is judged against the levels of ``measure``."""
     judgement = book.judge(measure, segment, value)
-    return CheckResult(
-        check=check,
-        status=judgement.status,
-        segment=segment,
-        measure=measure,
-        value=value,
-        warn=judgement.warn,
-        fail=judgement.fail,
-        unit=unit,
-        **fields,
-    )
+    return CheckResult(check, judgement.status, segment=segment, measure=measure, value=value,
+                       warn=judgement.warn, fail=judgement.fail, unit=unit, **fields)
 
 
 def skipped(check: str, measure: str, segment: str, unit: str, message: str) -> CheckResult:
     """A coverage result that could not be judged: no series to judge (reason ``no_data``)."""
-    return CheckResult(
-        check=check,
-        status=Status.SKIPPED,
-        segment=segment,
-        measure=measure,
-        unit=unit,
-        reason=Reason.NO_DATA,
-        message=message,
-    )
+    return CheckResult(check, Status.SKIPPED, segment=segment, measure=measure, unit=unit,
+                       reason=Reason.NO_DATA, message=message)
