@@ -50,7 +50,7 @@ from accuracy_checks.checks.drift_rules import (
 from accuracy_checks.checks.judge import ThresholdBook
 from accuracy_checks.measures.catalogue import measure_directions
 from accuracy_checks.measures.registry import measure_label
-from accuracy_checks.outputs.wording import describe_value, format_number, unit_suffix
+from accuracy_checks.measures.wording import format_number, unit_suffix, value_words
 from accuracy_checks.results import (
     ALL_SERIES,
     BREACHED,
@@ -287,6 +287,11 @@ def _name(r: CheckResult) -> str:
     return f"{what}{f' ({variant})' if variant else ''} of {seg}{lag}"
 
 
+def _value_words(r: CheckResult) -> str:
+    """The value of ``r`` in words, as its measure's registry entry words it."""
+    return value_words(r.value, measure=r.measure, unit=r.unit, reason=r.reason)
+
+
 def _num(value: float, unit: str | None) -> str:
     return f"{format_number(value)}{unit_suffix(unit)}"
 
@@ -296,7 +301,7 @@ def _limit_message(r: CheckResult, status: str, d: dict[str, Any], drift: Drift)
     span = (f"mean {_num(d['mean'], unit)} ± {format_number(drift.k)} sd "
             f"({_num(d['sd'], unit)}) of {d['n_history']} earlier cycles, "
             f"{d['first_cycle']} to {d['last_cycle']}")
-    now = describe_value(r)
+    now = _value_words(r)
     if d["direction"] == "lower":
         limit = f"its drift limit {_num(d['upper'], unit)}"
         side = "above"
@@ -356,7 +361,7 @@ def _sustained_message(r: CheckResult, n: int, at_least: bool, since: str | None
     count = f"{'at least ' if at_least else ''}{n} cycle{'s' if n != 1 else ''} in a row"
     where = f" (since cycle {since})" if since and n > 1 else ""
     head = (f"{_name(r)} has breached its {r.status} level {count}{where}; "
-            f"now {describe_value(r)}")
+            f"now {_value_words(r)}")
     m = drift.sustained_cycles
     if status == Status.PASS:
         return f"{head}. It escalates to {drift.sustained_status} at {m} cycles in a row."
