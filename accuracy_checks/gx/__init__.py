@@ -12,10 +12,13 @@ Install with ``pip install "accuracy-checks[gx]"``. Importing this package impor
   levels, asymmetric ``[low, high]`` bias bounds), :class:`ExpectActiveSeriesForecast`
   (missing series against the active series of the actuals rows),
   :class:`ExpectCompleteHorizon`, :class:`ExpectNoUnexpectedSeries`,
-  :class:`ExpectStableSeriesCount`, :class:`ExpectThresholdSegmentsPresent`. Their metric
+  :class:`ExpectStableSeriesCount`, :class:`ExpectThresholdSegmentsPresent`,
+  :class:`ExpectFiniteActuals` (``actuals.invalid_values``), :class:`ExpectUsableSnapshots`
+  (the ``archive.snapshot`` warnings of the inputs, carried in the batch). Their metric
   providers call the CLI's own functions
   (:func:`~accuracy_checks.checks.accuracy.run_accuracy`,
-  :func:`~accuracy_checks.checks.coverage.coverage_checks`), so values are identical.
+  :func:`~accuracy_checks.checks.coverage.coverage_checks`,
+  :func:`~accuracy_checks.checks.actuals.actuals_checks`), so values are identical.
 - Severity: an expectation with ``severity="critical"`` fails on ``fail`` results,
   ``"warning"`` (and ``"info"``) on ``warn`` or worse. :func:`verdict` turns a validation
   result into ``pass``/``warn``/``fail``; :func:`to_run_report` turns it into a
@@ -26,42 +29,30 @@ from __future__ import annotations
 
 import warnings
 
-try:
-    with warnings.catch_warnings():
-        # GX 1.24 imports the stdlib modules ``sre_constants``/``sre_parse``, deprecated since
-        # Python 3.11; the warnings are GX's own and harmless (pytest runs with
-        # filterwarnings=error).
-        warnings.filterwarnings(
-            "ignore", message=r"module 'sre_\w+' is deprecated", category=DeprecationWarning
-        )
-        import great_expectations  # noqa: F401
-except ImportError as exc:  # pragma: no cover - depends on the environment
-    raise ImportError(
-        "accuracy_checks.gx needs Great Expectations 1.x: pip install \"accuracy-checks[gx]\""
-    ) from exc
+with warnings.catch_warnings():
+    # GX 1.24 imports the stdlib modules ``sre_constants``/``sre_parse``, deprecated since
+    # Python 3.11; the warnings are GX's own and harmless (pytest runs with
+    # filterwarnings=error). GX is imported here first, so its later imports are silent too.
+    warnings.filterwarnings(
+        "ignore", message=r"module 'sre_\w+' is deprecated", category=DeprecationWarning
+    )
+    try:
+        import great_expectations
+    except ImportError as exc:  # pragma: no cover - depends on the environment
+        raise ImportError('accuracy_checks.gx needs Great Expectations 1.x: '
+                          'pip install "accuracy-checks[gx]"') from exc
 
+from accuracy_checks.gx import expectations
 from accuracy_checks.gx.batch import ROW_KIND, RowKind, batch_from_config, stack_frames
 from accuracy_checks.gx.convert import to_run_report, verdict
-from accuracy_checks.gx.expectations import (
-    ExpectActiveSeriesForecast,
-    ExpectCompleteHorizon,
-    ExpectNoUnexpectedSeries,
-    ExpectSegmentAccuracy,
-    ExpectStableSeriesCount,
-    ExpectThresholdSegmentsPresent,
-)
+from accuracy_checks.gx.expectations import *  # noqa: F403 - the expectations, listed once there
 from accuracy_checks.gx.suite import suite_from_config, suite_from_json, suite_to_json
 
 __all__ = [
     "ROW_KIND",
-    "ExpectActiveSeriesForecast",
-    "ExpectCompleteHorizon",
-    "ExpectNoUnexpectedSeries",
-    "ExpectSegmentAccuracy",
-    "ExpectStableSeriesCount",
-    "ExpectThresholdSegmentsPresent",
     "RowKind",
     "batch_from_config",
+    "great_expectations",
     "stack_frames",
     "suite_from_config",
     "suite_from_json",
@@ -69,3 +60,4 @@ __all__ = [
     "to_run_report",
     "verdict",
 ]
+__all__ += expectations.__all__

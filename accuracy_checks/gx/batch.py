@@ -12,6 +12,11 @@ puts them in one frame with a column ``row_kind`` that says where each row comes
 ``known``      the key columns of the segment mapping table (series expected without actuals)
 ``previous``   the previous cycle's forecast from the archive (for the series count), with
                its label in ``previous_label``
+``notes``      results about the inputs themselves, as the engine's ``load_inputs`` gives them
+               (``Inputs.notes``: an archived snapshot that is missing or unreadable, so its
+               cycle was left out), one row each, the result's JSON
+               (:meth:`~accuracy_checks.results.CheckResult.to_dict`) in the column ``note``;
+               the adapter carries them into its result unchanged
 
 Columns a part lacks are empty (NaN/NaT) in its rows. Every expectation of
 :mod:`accuracy_checks.gx` reads only its rows; the built-in expectations of
@@ -21,30 +26,40 @@ Columns a part lacks are empty (NaN/NaT) in its rows. Every expectation of
 
 from __future__ import annotations
 
+import json
 import os
+from collections.abc import Sequence
 from pathlib import Path
 from typing import Literal
 
 import pandas as pd
 
+from accuracy_checks.api import read_config
 from accuracy_checks.config import Config
+from accuracy_checks.engine import archived_cycles
 from accuracy_checks.errors import InputError
+from accuracy_checks.results import CheckResult
+from accuracy_checks.sources.load import load_inputs
 
-__all__ = ["ROW_KIND", "RowKind", "batch_from_config", "select_rows", "stack_frames"]
+__all__ = ["NOTE", "ROW_KIND", "RowKind", "batch_from_config", "select_rows", "stack_frames"]
 
 #: The column of a stacked batch that says which frame a row comes from.
 ROW_KIND = "row_kind"
-RowKind = Literal["forecast", "actuals", "earlier", "known", "previous"]
-ROW_KINDS: tuple[str, ...] = ("forecast", "actuals", "earlier", "known", "previous")
+RowKind = Literal["forecast", "actuals", "earlier", "known", "previous", "notes"]
+ROW_KINDS: tuple[str, ...] = ("forecast", "actuals", "earlier", "known", "previous", "notes")
+#: The column of the ``notes`` rows: one result about the inputs, as JSON text.
+NOTE = "note"
 
 
 def stack_frames(*, forecast: pd.DataFrame | None = None, actuals: pd.DataFrame | None = None,
                  earlier: pd.DataFrame | None = None, known: pd.DataFrame | None = None,
                  previous: pd.DataFrame | None = None,
+                 notes: Sequence[CheckResult] | None = None,
                  row_kind_column: str = ROW_KIND) -> pd.DataFrame:
     """Stack canonical frames into one batch frame with a ``row_kind`` column.
 
-    Parts that are ``None`` are left out; empty parts add no rows. The index is a fresh
+    Parts that are ``None`` are left out; empty parts add no rows. ``notes`` become one
+    ``notes`` row each (their JSON in the column ``note``). The index is a fresh
     ``RangeIndex``.
 
     >>> f = pd.DataFrame({"k": ["a"], "forecast": [1.0]})
@@ -54,7 +69,8 @@ def stack_frames(*, forecast: pd.DataFrame | None = None, actuals: pd.DataFrame 
     (['forecast', 'actuals', 'actuals'], [2.0, 3.0])
     """
     parts = {"forecast": forecast, "actuals": actuals, "earlier": earlier,
-             "known": known, "previous": previous}
+             "known": known, "previous": previous,
+             "notes": pd.DataFrame({NOTE: [json.dumps(r.to_dict()) for r in notes or ()]})}
     tagged = []
     for kind, frame in parts.items():
         if frame is None:
@@ -97,13 +113,12 @@ def batch_from_config(config: str | os.PathLike[str] | Config, *,
 
     Reads every input the way ``accuracy-checks run`` does (no writes, no snapshot) and
     stacks the current forecast, the actuals, the earlier cycles, the mapping's key columns
-    (``known``) and the previous archived cycle (``previous``, with its ``attempt``).
+    (``known``), the previous archived cycle (``previous``, with its ``attempt``) and the
+    results about the inputs (``notes``: the ``archive.snapshot`` warnings).
     """
-    from accuracy_checks.api import read_config
-    from accuracy_checks.engine import load_inputs
-
     cfg = read_config(config)
-    inputs = load_inputs(cfg, forecast_path=forecast_path, actuals_path=actuals_path)
+    inputs = load_inputs(cfg, forecast_path=forecast_path, actuals_path=actuals_path,
+                         archive=archived_cycles(cfg))
     keys = list(cfg.forecast.keys)
     known = None
     if inputs.mapping is not None:
@@ -113,4 +128,5 @@ def batch_from_config(config: str | os.PathLike[str] | Config, *,
     if previous is not None and inputs.previous_label is not None:
         previous = previous.assign(previous_label=inputs.previous_label)
     return stack_frames(forecast=inputs.forecast, actuals=inputs.actuals, earlier=inputs.earlier,
-                        known=known, previous=previous, row_kind_column=row_kind_column)
+                        known=known, previous=previous, notes=inputs.notes,
+                        row_kind_column=row_kind_column)

@@ -10,11 +10,18 @@ accuracy stage: evaluation frame, every measure, judged by the config's levels �
   judging happens there, not in the expectation);
 - :func:`coverage_payload` → :func:`accuracy_checks.checks.coverage.coverage_checks`, judged
   with the built-in levels only; each coverage expectation re-judges its results with its own
-  levels (:func:`rejudge`), so one computation serves every coverage expectation.
+  levels (:func:`rejudge`), so one computation serves every coverage expectation;
+- :func:`actuals_payload` → :func:`accuracy_checks.checks.actuals.actuals_checks` (infinite
+  actuals fail, missing ones are counted; no levels);
+- :func:`notes_payload`: the results about the inputs that
+  :func:`~accuracy_checks.gx.batch_from_config` carried in the ``notes`` rows (the engine's
+  ``archive.snapshot`` warnings), read back unchanged.
 """
 
 from __future__ import annotations
 
+import difflib
+import json
 from collections.abc import Mapping, Sequence
 from typing import Any
 
@@ -23,10 +30,12 @@ import pandas as pd
 from pydantic import ValidationError
 
 from accuracy_checks.checks.accuracy import run_accuracy
+from accuracy_checks.checks.actuals import actuals_checks
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.judge import BUILTIN_DEFAULTS, ThresholdBook
-from accuracy_checks.config import Config, Level
-from accuracy_checks.gx.batch import ROW_KIND, select_rows
+from accuracy_checks.config import Config, Level, validate
+from accuracy_checks.gx.batch import NOTE, ROW_KIND, select_rows
+from accuracy_checks.measures.catalogue import load_config, measure_catalogue
 from accuracy_checks.measures.selection import measures_to_report
 from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources import frames as F
@@ -35,9 +44,11 @@ from accuracy_checks.store.archive import cycle_label
 __all__ = [
     "accuracy_config",
     "accuracy_payload",
+    "actuals_payload",
     "coverage_payload",
     "level_json",
     "measure_levels",
+    "notes_payload",
     "result_from_dict",
     "segment_names",
     "threshold_book",
@@ -79,13 +90,9 @@ def threshold_book(measure: str | None = None, thresholds: Levels | None = None,
            "evaluation": {"undefined_status": undefined_status},
            "thresholds": {"default": default, "segments": segments}}
     try:
-        config = Config.model_validate(raw)
+        config = validate(raw, measure_catalogue)
     except ValidationError as exc:
-        problems = "; ".join(
-            f"{'.'.join(str(p) for p in err['loc'])}: {err['msg'].removeprefix('Value error, ')}"
-            for err in exc.errors()
-        )
-        raise ValueError(f"invalid levels for measure {measure!r}: {problems}") from None
+        raise ValueError(f"invalid levels for measure {measure!r}: {_problems(exc)}") from None
     return ThresholdBook(config)
 
 
@@ -150,8 +157,6 @@ def accuracy_config(spec: Mapping[str, Any]) -> Config:
     naming the problem.
     """
     if spec.get("config"):
-        from accuracy_checks.config import load_config
-
         return load_config(spec["config"])
     measure = spec["measure"]
     lags = list(spec.get("lags") or [1])
@@ -174,7 +179,7 @@ def accuracy_config(spec: Mapping[str, Any]) -> Config:
                        if spec.get("thresholds") else {}, "segments": segments},
     }
     try:
-        return Config.model_validate(raw)
+        return validate(raw, measure_catalogue)
     except ValidationError as exc:
         raise ValueError(f"invalid settings for measure {measure!r}: {_problems(exc)}") from None
 
@@ -290,6 +295,39 @@ def rejudge(results: Sequence[CheckResult], book: ThresholdBook) -> list[CheckRe
     return out
 
 
+# --------------------------------------------------------------------------- the inputs
+
+
+def actuals_payload(frame: pd.DataFrame, *, keys: Sequence[str],
+                    value_column: str | None = None,
+                    row_kind_column: str = ROW_KIND) -> dict[str, Any]:
+    """The actuals checks of the CLI on the ``actuals`` rows of a stacked batch:
+    :func:`~accuracy_checks.checks.actuals.actuals_checks` (``value_column`` is the name of
+    the actuals' value column in the user's file, for the message).
+
+    Returns ``{"results": [...], "has_actuals": bool}``; a frame that is not a stacked batch
+    has no actuals to check (``has_actuals`` false, no results).
+    """
+    actuals = select_rows(frame, "actuals", row_kind_column=row_kind_column,
+                          whole_if_untagged=False)
+    if actuals is None:
+        return {"results": [], "has_actuals": False}
+    if F.ACTUAL not in actuals.columns:  # a stacked batch whose actuals part had no rows
+        actuals = actuals.assign(**{F.ACTUAL: np.nan})
+    results = actuals_checks(actuals, keys=list(keys), column=value_column)
+    return {"results": [r.to_dict() for r in results], "has_actuals": True}
+
+
+def notes_payload(frame: pd.DataFrame, *, row_kind_column: str = ROW_KIND
+                  ) -> list[dict[str, Any]]:
+    """The results the ``notes`` rows carry (:meth:`CheckResult.to_dict` dicts, in order);
+    none when the batch has no such rows."""
+    notes = select_rows(frame, "notes", row_kind_column=row_kind_column, whole_if_untagged=False)
+    if notes is None or NOTE not in notes.columns:
+        return []
+    return [json.loads(text) for text in notes[NOTE].tolist()]
+
+
 # --------------------------------------------------------------------------- segment names
 
 
@@ -310,8 +348,6 @@ def threshold_segments_results(segments: Sequence[str], names: Sequence[str]
                                ) -> list[CheckResult]:
     """A ``config.thresholds`` warning for each of ``segments`` that is not among ``names``
     (the segments in the data), worded as the CLI words it."""
-    import difflib
-
     present = set(names)
     known = ", ".join(sorted(names)[:12])
     out = []

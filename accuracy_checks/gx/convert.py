@@ -5,7 +5,10 @@ and the same audit store as a CLI run:
 
 - this package's expectations carry the CLI's results in ``details["results"]``; they are
   rebuilt as :class:`~accuracy_checks.results.CheckResult` objects, and the results of the
-  warning and the critical expectation of one measure are merged (the worse status wins).
+  warning and the critical expectation of one measure are merged (the worse status wins):
+  the n-th result of a (check, segment, lag, measure) in one expectation merges with the
+  n-th of the same key in another, so results that share a key within one expectation (two
+  ``archive.snapshot`` warnings) all stay.
   The severity caps the status: a ``warning`` or ``info`` expectation never makes a result
   worse than ``warn``, as GX would not fail on it;
 - a built-in expectation becomes one result: ``check`` from its
@@ -20,6 +23,7 @@ from __future__ import annotations
 
 import math
 import uuid
+from collections import Counter
 from collections.abc import Iterable, Mapping
 from datetime import UTC, datetime
 from typing import Any
@@ -202,10 +206,13 @@ def to_run_report(result: Any, *, config_path: str | None = None,
                 continue
             results, details = _our_results(er, severity, error)
             cycle = cycle or details.get("cycle")
+            seen: Counter[tuple[Any, ...]] = Counter()
             for r in results:
                 for c in r.details.get("cycles") or []:
                     cycles.setdefault((c.get("cycle"), c.get("attempt"), c.get("source")), c)
-                key = (r.check, r.segment, r.lag, r.measure)
+                base = (r.check, r.segment, r.lag, r.measure)
+                key = (*base, seen[base])
+                seen[base] += 1
                 if key not in merged or _RANK[r.status] > _RANK[merged[key].status]:
                     merged[key] = r
     times = sorted(t for t in (_time(doc) for doc in docs) if t)

@@ -1,4 +1,5 @@
-"""GX expectations for forecast accuracy and coverage, one result covering every segment.
+"""GX expectations for forecast accuracy, coverage and the inputs, one result covering every
+segment.
 
 Each expectation is a :class:`~great_expectations.expectations.expectation.BatchExpectation`
 (a pydantic v1 model, as GX requires; its fields are plain JSON values). Its metric runs the
@@ -19,6 +20,11 @@ replaces the default levels of that segment). Centred measures (``me``, ``bias_p
 ``series_count_change_pct``) take a number (a bound on the absolute value) or an asymmetric
 ``[low, high]`` pair. A value strictly beyond a level breaks it.
 
+The inputs: :class:`ExpectFiniteActuals` runs the CLI's
+:func:`~accuracy_checks.checks.actuals.actuals_checks` on the actuals rows (``fail`` when an
+actual is infinite), and :class:`ExpectUsableSnapshots` reports the results about the inputs
+that the batch carries (the engine's ``archive.snapshot`` warnings), unchanged.
+
 The validation result has ``observed_value`` = the value of every segment (accuracy:
 ``{segment: {lag: value}}``; coverage: ``{segment: value}``) and ``details`` =
 ``{"check", "measure", "level", "breaches": [...], "results": [...]}`` where ``results`` are
@@ -38,20 +44,32 @@ from great_expectations.expectations.registry import get_metric_kwargs
 from great_expectations.validator.metric_configuration import MetricConfiguration
 from great_expectations.validator.validator import ValidationDependencies
 
+from accuracy_checks.checks.actuals import INVALID_ACTUALS
 from accuracy_checks.checks.coverage import HORIZON, MISSING_SERIES, SERIES_COUNT, UNEXPECTED_SERIES
+from accuracy_checks.engine import ARCHIVE_CHECK
 from accuracy_checks.gx import compute
 from accuracy_checks.gx.batch import ROW_KIND
-from accuracy_checks.gx.metrics import ACCURACY_METRIC, COVERAGE_METRIC, SEGMENT_NAMES_METRIC
-from accuracy_checks.results import CheckResult
+from accuracy_checks.gx.metrics import (
+    ACCURACY_METRIC,
+    ACTUALS_METRIC,
+    COVERAGE_METRIC,
+    NOTES_METRIC,
+    SEGMENT_NAMES_METRIC,
+)
+from accuracy_checks.measures import MEASURES
+from accuracy_checks.results import ALL_SERIES, CheckResult
 
 __all__ = [
+    "COVERAGE_EXPECTATIONS",
     "EXPECTATION_CHECKS",
     "ExpectActiveSeriesForecast",
     "ExpectCompleteHorizon",
+    "ExpectFiniteActuals",
     "ExpectNoUnexpectedSeries",
     "ExpectSegmentAccuracy",
     "ExpectStableSeriesCount",
     "ExpectThresholdSegmentsPresent",
+    "ExpectUsableSnapshots",
     "gate_level",
 ]
 
@@ -189,8 +207,6 @@ class ExpectSegmentAccuracy(_ResultsExpectation):
 
     @pydantic.root_validator(skip_on_failure=True)
     def _settings_are_valid(cls, values: dict[str, Any]) -> dict[str, Any]:
-        from accuracy_checks.measures import MEASURES
-
         measure = values.get("measure")
         if isinstance(measure, str) and measure not in MEASURES:
             raise ValueError(
@@ -305,16 +321,13 @@ class _CoverageExpectation(_ResultsExpectation):
     def _measure(self) -> str | None:
         return self.coverage_measure
 
-    def _coverage_results(self, metrics: dict[str, Any]
-                          ) -> tuple[list[CheckResult], dict[str, Any]]:
+    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
         payload = metrics[COVERAGE_METRIC]
         extra = {"cycle": payload["cycle"]}
         if self.needs_actuals and not payload["has_actuals"]:
             return [CheckResult(
-                self.check, "error", segment="*", measure=self.coverage_measure,
-                message=(f"The batch has no actuals rows ({self.row_kind_column} == "
-                         "'actuals'), so the active series are unknown; validate a stacked "
-                         "batch (accuracy_checks.gx.stack_frames or batch_from_config)."),
+                self.check, "error", segment=ALL_SERIES, measure=self.coverage_measure,
+                message=_no_actuals(self.row_kind_column, "the active series are unknown"),
             )], extra
         mine = [compute.result_from_dict(r) for r in payload["results"]
                 if r["check"] == self.check]
@@ -336,9 +349,6 @@ class ExpectActiveSeriesForecast(_CoverageExpectation):
     coverage_measure: ClassVar[str] = "missing_series_pct"
     needs_actuals: ClassVar[bool] = True
 
-    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
-        return self._coverage_results(metrics)
-
 
 class ExpectNoUnexpectedSeries(_CoverageExpectation):
     """Expect no forecast series unknown to the actuals and to the ``known`` rows (the
@@ -348,9 +358,6 @@ class ExpectNoUnexpectedSeries(_CoverageExpectation):
     check: ClassVar[str] = UNEXPECTED_SERIES
     coverage_measure: ClassVar[str] = "unexpected_series"
     needs_actuals: ClassVar[bool] = True
-
-    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
-        return self._coverage_results(metrics)
 
 
 class ExpectCompleteHorizon(_CoverageExpectation):
@@ -362,9 +369,6 @@ class ExpectCompleteHorizon(_CoverageExpectation):
     check: ClassVar[str] = HORIZON
     coverage_measure: ClassVar[str] = "incomplete_series"
 
-    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
-        return self._coverage_results(metrics)
-
 
 class ExpectStableSeriesCount(_CoverageExpectation):
     """Expect the number of forecast series to stay close to the previous cycle's (measure
@@ -374,9 +378,6 @@ class ExpectStableSeriesCount(_CoverageExpectation):
 
     check: ClassVar[str] = SERIES_COUNT
     coverage_measure: ClassVar[str] = "series_count_change_pct"
-
-    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
-        return self._coverage_results(metrics)
 
 
 class ExpectThresholdSegmentsPresent(_ResultsExpectation):
@@ -399,9 +400,74 @@ class ExpectThresholdSegmentsPresent(_ResultsExpectation):
         return {"unmatched": [r.segment for r in results]}
 
 
+def _no_actuals(row_kind_column: str, consequence: str) -> str:
+    return (f"The batch has no actuals rows ({row_kind_column} == 'actuals'), so "
+            f"{consequence}; validate a stacked batch (accuracy_checks.gx.stack_frames or "
+            "batch_from_config).")
+
+
+class ExpectFiniteActuals(_ResultsExpectation):
+    """Expect every actual read to be a finite number (``actuals.invalid_values``, one result
+    for all series, ``"*"``).
+
+    Runs the CLI's :func:`~accuracy_checks.checks.actuals.actuals_checks` on the batch's
+    ``actuals`` rows: an infinite actual is ``fail`` (the accuracy figures leave it out); a
+    missing one is counted and named in ``examples`` but passes, as in the CLI. ``keys`` name
+    the series in the examples; ``value_column``, the actuals' value column in the user's
+    file, words the message. :func:`~accuracy_checks.gx.suite_from_config` adds it with
+    ``severity="critical"`` (the check has no warn status).
+    """
+
+    keys: list[str]
+    value_column: str | None = None
+    row_kind_column: str = ROW_KIND
+
+    check: ClassVar[str] = INVALID_ACTUALS
+    metric_dependencies: ClassVar[tuple[str, ...]] = (ACTUALS_METRIC,)
+    success_keys: ClassVar[tuple[str, ...]] = ("keys", "value_column", "row_kind_column")
+
+    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
+        payload = metrics[ACTUALS_METRIC]
+        if not payload["has_actuals"]:
+            return [CheckResult(self.check, "error", segment=ALL_SERIES, message=_no_actuals(
+                self.row_kind_column, "there are no actual values to check"))], {}
+        return [compute.result_from_dict(r) for r in payload["results"]], {}
+
+
+class ExpectUsableSnapshots(_ResultsExpectation):
+    """Expect every archived snapshot the run reads to be usable.
+
+    Computes nothing: it reports the results about the inputs that
+    :func:`~accuracy_checks.gx.batch_from_config` carried in the ``notes`` rows (the engine's
+    ``load_inputs`` reads the archive): an ``archive.snapshot`` warning for each cycle whose
+    last snapshot is missing, unreadable or unrecorded (that cycle is left out of the
+    evaluation, never replaced by an older attempt), and, when it is the previous cycle, the
+    skipped ``coverage.series_count`` that says the count is not compared with an older one.
+    A batch without ``notes`` rows passes with no result.
+    :func:`~accuracy_checks.gx.suite_from_config` adds it with ``severity="warning"``.
+    ``observed_value`` is ``{"left_out": [<cycle>, ...]}``.
+    """
+
+    row_kind_column: str = ROW_KIND
+
+    check: ClassVar[str] = ARCHIVE_CHECK
+    metric_dependencies: ClassVar[tuple[str, ...]] = (NOTES_METRIC,)
+    success_keys: ClassVar[tuple[str, ...]] = ("row_kind_column",)
+
+    def _results(self, metrics: dict[str, Any]) -> tuple[list[CheckResult], dict[str, Any]]:
+        return [compute.result_from_dict(r) for r in metrics[NOTES_METRIC]], {}
+
+    def _observed(self, results: list[CheckResult]) -> dict[str, Any]:
+        return {"left_out": [r.details.get("cycle") for r in results if r.check == self.check]}
+
+
+#: The coverage expectations, in the order of the suite, each with its ``coverage_measure``.
+COVERAGE_EXPECTATIONS: tuple[type[_CoverageExpectation], ...] = (
+    ExpectActiveSeriesForecast, ExpectNoUnexpectedSeries, ExpectCompleteHorizon,
+    ExpectStableSeriesCount)
+
 #: Expectation type (GX snake-case name) → the check it reports.
-EXPECTATION_CHECKS: dict[str, str] = {
-    cls.expectation_type: cls.check
-    for cls in (ExpectSegmentAccuracy, ExpectActiveSeriesForecast, ExpectNoUnexpectedSeries,
-                ExpectCompleteHorizon, ExpectStableSeriesCount, ExpectThresholdSegmentsPresent)
-}
+_ALL: tuple[type[_ResultsExpectation], ...] = (
+    ExpectSegmentAccuracy, *COVERAGE_EXPECTATIONS, ExpectThresholdSegmentsPresent,
+    ExpectFiniteActuals, ExpectUsableSnapshots)
+EXPECTATION_CHECKS: dict[str, str] = {cls.expectation_type: cls.check for cls in _ALL}

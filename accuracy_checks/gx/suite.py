@@ -19,6 +19,9 @@
   show are checked against it at validation time), so all of them share one computation.
 - ``config.thresholds``: segments named in ``thresholds.segments`` that are not in the data
   (``"warning"``).
+- the inputs: ``actuals.invalid_values`` (:class:`ExpectFiniteActuals`, ``"critical"``: an
+  infinite actual fails) and the ``archive.snapshot`` warnings the batch carries
+  (:class:`ExpectUsableSnapshots`, ``"warning"``).
 
 Not expressed: nothing is archived and nothing is written to the audit store; the previous
 cycle for the series count comes from the archive as it stands (``batch_from_config``).
@@ -42,7 +45,6 @@ from great_expectations.expectations.row_conditions import (
 
 from accuracy_checks import __version__
 from accuracy_checks.api import read_config
-from accuracy_checks.checks.judge import BUILTIN_DEFAULTS
 from accuracy_checks.checks.output_schema import (
     DUPLICATE_ROWS,
     INVALID_VALUES,
@@ -50,16 +52,15 @@ from accuracy_checks.checks.output_schema import (
     NEGATIVE_VALUES,
     QUANTILE_ORDER,
 )
-from accuracy_checks.config import Config, Level
+from accuracy_checks.config import Config
 from accuracy_checks.gx.batch import ROW_KIND
 from accuracy_checks.gx.compute import measure_levels
 from accuracy_checks.gx.expectations import (
-    ExpectActiveSeriesForecast,
-    ExpectCompleteHorizon,
-    ExpectNoUnexpectedSeries,
+    COVERAGE_EXPECTATIONS,
+    ExpectFiniteActuals,
     ExpectSegmentAccuracy,
-    ExpectStableSeriesCount,
     ExpectThresholdSegmentsPresent,
+    ExpectUsableSnapshots,
 )
 from accuracy_checks.measures.selection import measures_to_report
 from accuracy_checks.sources import frames as F
@@ -69,35 +70,21 @@ __all__ = ["FINITE_MAX", "suite_from_config", "suite_from_json", "suite_to_json"
 #: The largest finite float64: ``values between ±FINITE_MAX`` rejects ±inf.
 FINITE_MAX = 1.7976931348623157e308
 
-_COVERAGE = (
-    (ExpectActiveSeriesForecast, "missing_series_pct"),
-    (ExpectNoUnexpectedSeries, "unexpected_series"),
-    (ExpectCompleteHorizon, "incomplete_series"),
-    (ExpectStableSeriesCount, "series_count_change_pct"),
-)
-
 
 def _tag(check: str, **more: Any) -> dict[str, Any]:
     return {"accuracy_checks": {"check": check, **more}}
 
 
-def _levels_of(config: Config, measure: str) -> tuple[Level | None, dict[str, Level]]:
-    default = config.thresholds.default.get(measure, BUILTIN_DEFAULTS.get(measure))
-    segments = {seg: lv[measure] for seg, lv in config.thresholds.segments.items()
-                if measure in lv}
-    return default, segments
-
-
-def _severities(default: Level | None, segments: dict[str, Level],
-                undefined_status: str) -> list[FailureSeverity]:
-    """The severities a measure needs: ``warning`` for warn levels, ``critical`` for fail
-    levels; an undefined value under a level takes ``undefined_status``, so that status
-    needs its severity too."""
-    levels = [lv for lv in (default, *segments.values()) if lv is not None]
+def _severities(levels: dict[str, Any], undefined_status: str) -> list[FailureSeverity]:
+    """The severities a measure of these levels (:func:`measure_levels`) needs: ``warning``
+    for warn levels, ``critical`` for fail levels; an undefined value under a level takes
+    ``undefined_status``, so that status needs its severity too."""
+    given = [lv for lv in (levels["thresholds"], *levels["segment_thresholds"].values())
+             if lv is not None]
     out = []
-    if any(lv.warn is not None for lv in levels) or (levels and undefined_status == "warn"):
+    if any("warn" in lv for lv in given) or (given and undefined_status == "warn"):
         out.append(FailureSeverity.WARNING)
-    if any(lv.fail is not None for lv in levels) or (levels and undefined_status == "fail"):
+    if any("fail" in lv for lv in given) or (given and undefined_status == "fail"):
         out.append(FailureSeverity.CRITICAL)
     return out
 
@@ -148,11 +135,17 @@ def suite_from_config(config: str | os.PathLike[str] | Config, *, name: str | No
     keys = list(cfg.forecast.keys)
     rows = Column(row_kind_column) == "forecast"
     expectations = _output_expectations(cfg, rows)
+    expectations.append(ExpectFiniteActuals(
+        keys=keys, value_column=cfg.actuals.value, row_kind_column=row_kind_column,
+        severity=FailureSeverity.CRITICAL, meta=_tag(ExpectFiniteActuals.check)))
+    expectations.append(ExpectUsableSnapshots(
+        row_kind_column=row_kind_column, severity=FailureSeverity.WARNING,
+        meta=_tag(ExpectUsableSnapshots.check)))
 
-    for cls, measure in _COVERAGE:
-        default, segments = _levels_of(cfg, measure)
+    for cls in COVERAGE_EXPECTATIONS:
+        measure = cls.coverage_measure
         levels = measure_levels(cfg, measure)
-        for severity in _severities(default, segments, cfg.evaluation.undefined_status):
+        for severity in _severities(levels, cfg.evaluation.undefined_status):
             expectations.append(cls(
                 keys=keys, frequency=cfg.frequency, horizon=cfg.horizon,
                 active_periods=cfg.coverage.active_periods,
@@ -163,9 +156,8 @@ def suite_from_config(config: str | os.PathLike[str] | Config, *, name: str | No
                 meta=_tag(cls.check, measure=measure)))
 
     for measure in measures_to_report(cfg):
-        default, segments = _levels_of(cfg, measure)
         levels = measure_levels(cfg, measure)
-        for severity in (_severities(default, segments, cfg.evaluation.undefined_status)
+        for severity in (_severities(levels, cfg.evaluation.undefined_status)
                          or [FailureSeverity.INFO]):
             expectations.append(ExpectSegmentAccuracy(
                 measure=measure, config=str(source),

@@ -1,9 +1,9 @@
 """The Great Expectations adapter, validated in one ephemeral GX context (progress bars off).
 
 The reference for every number is the CLI itself: ``run_checks(config, snapshot=False)`` on the
-same project. The suite's verdict and every per-segment value, level and status of the coverage
-and accuracy checks must equal the CLI's (values to 1e-9); the built-in output expectations
-must give each output check the CLI's status.
+same project. The suite's verdict and every result of the coverage, accuracy, actuals and
+archive checks (value to 1e-9, levels, status, counts, message, examples) must equal the CLI's;
+the built-in output expectations must give each output check the CLI's status.
 """
 
 from __future__ import annotations
@@ -11,6 +11,7 @@ from __future__ import annotations
 import json
 import math
 from collections.abc import Callable, Iterator
+from pathlib import Path
 from typing import Any
 
 import pandas as pd
@@ -31,7 +32,7 @@ from tests.support.project import (
 
 gx = agx.great_expectations
 
-Key = tuple[str, str | None, int | None, str | None]
+Key = tuple[str, str | None, int | None, str | None, str | None]
 
 
 class Runner:
@@ -59,11 +60,18 @@ def runner() -> Iterator[Runner]:
     yield Runner()
 
 
+def key_of(r: CheckResult | dict[str, Any]) -> Key:
+    """Check, segment, lag, measure, and the cycle of an archive warning (one per cycle)."""
+    d = r if isinstance(r, dict) else r.to_dict()
+    cycle = d["details"].get("cycle") if d["check"].startswith("archive.") else None
+    return (d["check"], d["segment"], d["lag"], d["measure"], cycle)
+
+
 def by_key(results: list[CheckResult], prefixes: tuple[str, ...]) -> dict[Key, CheckResult]:
     out: dict[Key, CheckResult] = {}
     for r in results:
         if r.check.startswith(prefixes):
-            key = (r.check, r.segment, r.lag, r.measure)
+            key = key_of(r)
             assert key not in out, key
             out[key] = r
     return out
@@ -80,15 +88,18 @@ def assert_same_as_cli(cli: RunReport, result: Any) -> RunReport:
     converted = agx.to_run_report(result)
     assert agx.verdict(result) == cli.status
     assert converted.status == cli.status
-    judged = ("coverage.", "accuracy", "config.thresholds")
+    judged = ("coverage.", "accuracy", "config.thresholds", "actuals.", "archive.")
     want, got = by_key(cli.results, judged), by_key(converted.results, judged)
     assert set(got) == set(want)
     for key, w in want.items():
         g = got[key]
-        assert (g.status, g.warn, g.fail, g.n_obs, g.n_series, g.reason) == (
-            w.status, w.warn, w.fail, w.n_obs, w.n_series, w.reason), key
+        assert (g.status, g.warn, g.fail, g.n_obs, g.n_series, g.reason, g.unit) == (
+            w.status, w.warn, w.fail, w.n_obs, w.n_series, w.reason, w.unit), key
         assert same_value(g.value, w.value), (key, g.value, w.value)
         assert g.message == w.message, key
+        assert g.examples == w.examples, key
+        if key[0].startswith(("actuals.", "archive.")):
+            assert g.details == w.details, key
     # built-in expectations: the worst status of each output check is the CLI's
     for check in {r.check for r in cli.results if r.check.startswith("output.")}:
         cli_status = next(r.status for r in cli.results if r.check == check)
@@ -100,15 +111,19 @@ def assert_same_as_cli(cli: RunReport, result: Any) -> RunReport:
     # the GX result itself carries each segment's value in observed_value
     for er in result.results:
         details = er.result.get("details") or {}
+        observed = er.result.get("observed_value")
+        if er.expectation_config.type == "expect_usable_snapshots":
+            assert observed == {"left_out": [w.details["cycle"] for w in cli.results
+                                             if w.check == "archive.snapshot"]}
+            continue
         for d in details.get("results", []):
             if d["check"] == "config.thresholds":
-                assert d["segment"] in er.result["observed_value"]["unmatched"]
+                assert d["segment"] in observed["unmatched"]
                 continue
-            observed = er.result["observed_value"][str(d["segment"])]
+            value = observed[str(d["segment"])]
             if d["check"] == "accuracy":
-                observed = observed[str(d["lag"])]
-            assert same_value(observed, want[(d["check"], d["segment"], d["lag"],
-                                              d["measure"])].value)
+                value = value[str(d["lag"])]
+            assert same_value(value, want[key_of(d)].value)
     return converted
 
 
@@ -202,6 +217,63 @@ def test_broken_project_same_as_cli(runner: Runner,
     assert ("expect_threshold_segments_present", "warning") in failed
 
 
+def test_infinite_and_missing_actuals_same_as_cli(
+        runner: Runner, make_project: Callable[..., Project]) -> None:
+    """An infinite actual fails actuals.invalid_values in both (never a silent pass in GX) and
+    is left out of the figures; a missing one is counted and named."""
+    actuals = actuals_frame(CURRENT)
+    actuals.loc[(actuals["week"] == "2026-02-23") & (actuals["product"] == "P2"),
+                "units_sold"] = [float("inf"), -float("inf")]
+    actuals.loc[(actuals["week"] == "2026-02-16") & (actuals["store"] == "S1")
+                & (actuals["product"] == "P1"), "units_sold"] = float("nan")
+    cli, result = validate(runner, make_project(actuals=actuals))
+    assert cli.status == "fail"
+    converted = assert_same_as_cli(cli, result)
+    [invalid] = [r for r in converted.results if r.check == "actuals.invalid_values"]
+    assert invalid.status == "fail" and invalid.details == {"infinite": 2, "missing": 1}
+    assert [e["actual"] for e in invalid.examples] == ["infinity", "-infinity", "missing"]
+    failed = [er.expectation_config.type for er in result.results if not er.success]
+    assert failed == ["expect_finite_actuals"]
+
+
+def test_missing_actual_same_as_cli(runner: Runner, make_project: Callable[..., Project]) -> None:
+    """A missing actual alone passes, with its count and row, in both."""
+    actuals = actuals_frame(CURRENT)
+    actuals.loc[3, "units_sold"] = float("nan")
+    cli, result = validate(runner, make_project(actuals=actuals))
+    converted = assert_same_as_cli(cli, result)
+    [invalid] = [r for r in converted.results if r.check == "actuals.invalid_values"]
+    assert invalid.status == "pass" and invalid.value == 1
+    assert invalid.examples[0]["actual"] == "missing"
+
+
+def test_missing_archived_snapshots_same_as_cli(
+        runner: Runner, make_project: Callable[..., Project]) -> None:
+    """The last snapshot of the previous cycle and of an older one are gone: one
+    archive.snapshot warning each (carried through the batch), the series count not compared
+    with an older cycle, and the figures without them — as in the CLI."""
+    project = make_project()
+    config = load_config(project.config)
+    older = pd.Timestamp("2026-02-09")
+    lost = [run_checks(config, forecast_path=project.write(f"{d:%m%d}.csv", forecast_frame(d)))
+            .snapshot for d in (older, EARLIER[1])]
+    for path in lost:
+        assert path is not None
+        Path(path).unlink()
+    cli, result = validate(runner, project)
+    assert cli.status == "warn"
+    converted = assert_same_as_cli(cli, result)
+    warnings = [r for r in converted.results if r.check == "archive.snapshot"]
+    assert sorted(r.details["cycle"] for r in warnings) == [f"{d:%Y-%m-%d}"
+                                                            for d in (older, EARLIER[1])]
+    [count] = [r for r in converted.results if r.check == "coverage.series_count"]
+    assert count.status == "skipped" and count.reason == "no_data"
+    assert converted.evaluated_cycles == cli.evaluated_cycles
+    failed = [(er.expectation_config.type, er.expectation_config.severity.value)
+              for er in result.results if not er.success]
+    assert failed == [("expect_usable_snapshots", "warning")]
+
+
 def test_severity_mapping(make_project: Callable[..., Project]) -> None:
     text = CONFIG.format(extra="""\
     rmse: {fail: 9}
@@ -284,7 +356,7 @@ def test_explicit_settings_and_asymmetric_bounds(runner: Runner,
     assert set(got) == set(want)
     for key, w in want.items():
         assert same_value(got[key].value, w.value) and got[key].status == w.status, key
-    assert got[("accuracy", "plants", 1, "bias_pct")].fail == (-8.0, 14.0)
+    assert got[("accuracy", "plants", 1, "bias_pct", None)].fail == (-8.0, 14.0)
 
 
 def test_expectation_arguments_are_checked() -> None:
@@ -343,7 +415,8 @@ def test_conversion_of_built_ins_and_errors(runner: Runner,
     result = runner.run(suite, agx.batch_from_config(config))
     plain = runner.run(gx.ExpectationSuite(name="plain", expectations=[
         agx.ExpectSegmentAccuracy(measure="me", keys=KEYS, frequency="W-MON"),
-        agx.ExpectActiveSeriesForecast(keys=KEYS, frequency="W-MON", horizon=4)]),
+        agx.ExpectActiveSeriesForecast(keys=KEYS, frequency="W-MON", horizon=4),
+        agx.ExpectFiniteActuals(keys=KEYS)]),
         forecast.rename(columns={"week": "period", "units": "forecast"}))
     report = agx.to_run_report(result.to_json_dict(), config_path=str(project.config))
     statuses = {r.check: r.status for r in cli.results if r.check.startswith("output.")}
@@ -355,6 +428,7 @@ def test_conversion_of_built_ins_and_errors(runner: Runner,
     errors = agx.to_run_report(plain)
     assert {r.status for r in errors.results} == {"error"} and agx.verdict(plain) == "fail"
     assert any("no actuals rows" in r.message for r in errors.results)
+    assert "actuals.invalid_values" in {r.check for r in errors.results}
     json.dumps(report.to_dict())  # every output can render it
 
 
