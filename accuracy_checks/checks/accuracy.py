@@ -49,7 +49,7 @@ from accuracy_checks.evaluation.baselines import (
     naive_forecast,
     seasonal_naive_forecast,
 )
-from accuracy_checks.evaluation.join import IN_TRACKING, IN_WINDOW, SERIES
+from accuracy_checks.evaluation.join import IN_TRACKING, IN_WINDOW, SERIES, evaluation_frame
 from accuracy_checks.measures.data import (
     SCALE_OK,
     SCALE_TOO_FEW_ROWS,
@@ -58,6 +58,7 @@ from accuracy_checks.measures.data import (
     MeasureSettings,
     dense_codes,
 )
+from accuracy_checks.measures.plugins import rejected_plugins
 from accuracy_checks.measures.registry import Measure, get_measure
 from accuracy_checks.measures.selection import measure_settings, measures_to_report, unmet_needs
 from accuracy_checks.measures.stats import overflowed
@@ -67,6 +68,7 @@ from accuracy_checks.results import (
     BREACHED,
     CheckResult,
     Reason,
+    Status,
     json_value,
 )
 from accuracy_checks.sources import frames as F
@@ -480,9 +482,6 @@ def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *
                  book: ThresholdBook) -> list[CheckResult]:
     """The accuracy results of a run: evaluation frame → measures → judged results, plus a
     warning for each rejected measure plugin."""
-    from accuracy_checks.evaluation.join import evaluation_frame
-    from accuracy_checks.measures.plugins import rejected_plugins
-
     keys = list(config.forecast.keys)
     measures = measures_to_report(config)
     tracking = any(get_measure(m).window == "tracking" for m in measures)
@@ -497,7 +496,6 @@ def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *
     if ev.cycles:
         out = [CheckResult(**{**r.__dict__, "details": {**r.details, "cycles": ev.cycles}})
                if r.segment == ALL_SERIES else r for r in out]
-    out += [CheckResult(f"{CHECK}.plugins", "warn", message=p.message,
-                        details={"entry_point": p.name, "value": p.value, "package": p.package})
+    out += [CheckResult(f"{CHECK}.plugins", Status.WARN, message=p.message, details=p.details)
             for p in rejected_plugins()]
     return out

@@ -24,13 +24,13 @@ fails the gate: a check that could not run cannot pass); the other checks still 
 
 from __future__ import annotations
 
-import importlib.metadata
 import inspect
 from collections.abc import Callable
 from dataclasses import dataclass
 from typing import Any
 
-from accuracy_checks.results import CheckResult
+from accuracy_checks.measures.entry_points import EntryPoint, PluginGroup, PluginRejected
+from accuracy_checks.results import CheckResult, Status
 
 __all__ = ["GROUP", "CheckPlugin", "load_check_plugins", "reset_check_plugins",
            "run_check_plugins"]
@@ -57,60 +57,40 @@ class CheckPlugin:
         return check_name == self.name or check_name.startswith(f"{self.name}.")
 
 
-_state: dict[str, Any] = {"loaded": False, "plugins": [], "rejected": []}
+def _accept(entry: EntryPoint, loaded: Any) -> CheckPlugin:
+    if not callable(loaded):
+        raise PluginRejected(f"it names a {type(loaded).__name__}, not a function")
+    try:
+        inspect.signature(loaded).bind(None, None, None)
+    except TypeError:
+        raise PluginRejected("it cannot be called as check(inputs, config, book)") from None
+    except ValueError:  # a builtin without a signature: trust it
+        pass
+    family = entry.name.split(".")[0]
+    if family in BUILT_IN_FAMILIES or any(p.name == entry.name for p in _GROUP.accepted):
+        raise PluginRejected(
+            f"its name {entry.name!r} clashes with "
+            + ("a built-in check family" if family in BUILT_IN_FAMILIES
+               else "another check plugin") + "; pick another name")
+    return CheckPlugin(entry.name, entry.value, entry.package, loaded)
+
+
+_GROUP: PluginGroup[CheckPlugin] = PluginGroup(
+    GROUP, kind="check", accept=_accept,
+    consequence="Its check does not run until the plugin is fixed.")
 
 
 def reset_check_plugins() -> None:
     """Forget loaded check plugins (tests; a changed environment)."""
-    _state.update(loaded=False, plugins=[], rejected=[])
+    _GROUP.reset()
 
 
 def load_check_plugins() -> tuple[list[CheckPlugin], list[CheckResult]]:
     """The usable check plugins, and a warning result for each rejected one (once per
     process)."""
-    if _state["loaded"]:
-        return list(_state["plugins"]), list(_state["rejected"])
-    plugins: list[CheckPlugin] = []
-    rejected: list[CheckResult] = []
-    taken: set[str] = set()
-    for entry_point in importlib.metadata.entry_points(group=GROUP):
-        name, value = entry_point.name, entry_point.value
-        dist = getattr(entry_point, "dist", None)
-        package = getattr(dist, "name", None) if dist is not None else None
-        where = f" from package {package!r}" if package else ""
-
-        def reject(reason: str, name: str = name, value: str = value,
-                   where: str = where, package: str | None = package) -> None:
-            rejected.append(CheckResult(
-                REJECTED_CHECK, "warn", segment=None,
-                message=(f"The check plugin {name!r} ({value}){where} was rejected: {reason}. "
-                         "Its check does not run until the plugin is fixed."),
-                details={"entry_point": name, "value": value, "package": package}))
-
-        try:
-            loaded = entry_point.load()
-        except Exception as exc:  # any import failure of third-party code
-            reject(f"it could not be imported ({type(exc).__name__}: {exc})")
-            continue
-        if not callable(loaded):
-            reject(f"it names a {type(loaded).__name__}, not a function")
-            continue
-        try:
-            inspect.signature(loaded).bind(None, None, None)
-        except TypeError:
-            reject("it cannot be called as check(inputs, config, book)")
-            continue
-        except ValueError:  # a builtin without a signature: trust it
-            pass
-        if name.split(".")[0] in BUILT_IN_FAMILIES or name in taken:
-            reject(f"its name {name!r} clashes with "
-                   + ("a built-in check family" if name.split(".")[0] in BUILT_IN_FAMILIES
-                      else "another check plugin") + "; pick another name")
-            continue
-        taken.add(name)
-        plugins.append(CheckPlugin(name, value, package, loaded))
-    _state.update(loaded=True, plugins=plugins, rejected=rejected)
-    return list(plugins), list(rejected)
+    plugins, rejected = _GROUP.load()
+    return plugins, [CheckResult(REJECTED_CHECK, Status.WARN, segment=None, message=r.message,
+                                 details=r.details) for r in rejected]
 
 
 def run_check_plugins(inputs: Any, config: Any, book: Any) -> list[CheckResult]:
@@ -140,6 +120,6 @@ def run_check_plugins(inputs: Any, config: Any, book: Any) -> list[CheckResult]:
 
 def _error(plugin: CheckPlugin, what: str) -> CheckResult:
     return CheckResult(
-        plugin.name, "error",
+        plugin.name, Status.ERROR,
         message=f"The check plugin {plugin.name!r} ({plugin.value}) {what}.",
         details={"entry_point": plugin.name, "value": plugin.value, "package": plugin.package})

@@ -11,13 +11,18 @@
   :mod:`~accuracy_checks.measures.probabilistic` (coverage, pinball, MIS, MSIS),
   :mod:`~accuracy_checks.measures.cost` (cost of error).
 - :mod:`~accuracy_checks.measures.registry`: :class:`Measure` definitions (id, unit, which way
-  is better, formula); plugins join through the ``accuracy_checks.measures`` entry points.
+  is better, wording, display order, inputs, formula); plugins join through the
+  ``accuracy_checks.measures`` entry points (:mod:`~accuracy_checks.measures.plugins`, loaded
+  by :mod:`~accuracy_checks.measures.entry_points`, the loader of every plugin group).
+- :mod:`~accuracy_checks.measures.wording`: a figure and a measure's value in words.
+- :mod:`~accuracy_checks.measures.selection`: which measures a config reports.
 
 Sign convention: ``e = actual − forecast`` (positive = under-forecast). Percentages are in percent.
 """
 
 from accuracy_checks.measures import (  # noqa: F401  (imported to register their measures)
     cost,
+    plugins,  # and the loader of the plugin measures
     probabilistic,
     scaled,
     signals,

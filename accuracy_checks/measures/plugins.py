@@ -20,11 +20,15 @@ its results the status ``error`` with the plugin's message; the other measures s
 from __future__ import annotations
 
 import dataclasses
-import importlib.metadata
-from dataclasses import dataclass
 from typing import Any
 
-from accuracy_checks.measures.registry import MEASURES, Measure, check_measure
+from accuracy_checks.measures.entry_points import (
+    EntryPoint,
+    PluginGroup,
+    PluginRejected,
+    RejectedPlugin,
+)
+from accuracy_checks.measures.registry import MEASURES, Measure, add_loader, check_measure
 
 __all__ = ["GROUP", "RejectedPlugin", "load_plugins", "rejected_plugins", "reset_plugins"]
 
@@ -32,80 +36,50 @@ __all__ = ["GROUP", "RejectedPlugin", "load_plugins", "rejected_plugins", "reset
 GROUP = "accuracy_checks.measures"
 
 
-@dataclass(frozen=True)
-class RejectedPlugin:
-    """An entry point that was not registered, and why."""
+def _accept(entry: EntryPoint, loaded: Any) -> str:
+    """Register the plugin's measure (its id is kept, to unregister it on reset)."""
+    if not isinstance(loaded, Measure):
+        raise PluginRejected(
+            f"it names a {type(loaded).__name__}, not an accuracy_checks.measures.Measure")
+    origin = f"plugin {entry.name} = {entry.value}" + (
+        f" ({entry.package})" if entry.package else "")
+    measure = dataclasses.replace(loaded, origin=origin)
+    try:
+        check_measure(measure)
+    except ValueError as exc:
+        raise PluginRejected(str(exc)) from None
+    if measure.id in MEASURES:
+        other = MEASURES[measure.id]
+        raise PluginRejected(f"its measure id {measure.id!r} clashes with the measure "
+                             f"{other.label!r} ({other.origin}); pick another id")
+    MEASURES[measure.id] = measure
+    return measure.id
 
-    name: str
-    value: str
-    package: str | None
-    reason: str
 
-    @property
-    def message(self) -> str:
-        where = f" from package {self.package!r}" if self.package else ""
-        return (f"The measure plugin {self.name!r} ({self.value}){where} was rejected: "
-                f"{self.reason}. Its measure is not available until the plugin is fixed.")
+def _forget(ids: list[str]) -> None:
+    for measure_id in ids:
+        MEASURES.pop(measure_id, None)
 
 
-_state: dict[str, Any] = {"loaded": False, "rejected": [], "ids": []}
-
-
-def _package(entry_point: Any) -> str | None:
-    dist = getattr(entry_point, "dist", None)
-    return getattr(dist, "name", None) if dist is not None else None
+_GROUP: PluginGroup[str] = PluginGroup(
+    GROUP, kind="measure", accept=_accept, forget=_forget,
+    consequence="Its measure is not available until the plugin is fixed.")
 
 
 def load_plugins(*, reload: bool = False) -> list[RejectedPlugin]:
     """Register the measures of the ``accuracy_checks.measures`` entry points (once per
     process unless ``reload``); return the rejected ones."""
-    if _state["loaded"] and not reload:
-        return list(_state["rejected"])
-    if reload:
-        reset_plugins()
-    _state["loaded"] = True  # set first: a plugin that consults the registry must not recurse
-    rejected: list[RejectedPlugin] = []
-    for entry_point in importlib.metadata.entry_points(group=GROUP):
-        name, value, package = entry_point.name, entry_point.value, _package(entry_point)
-
-        def reject(reason: str, name: str = name, value: str = value,
-                   package: str | None = package) -> None:
-            rejected.append(RejectedPlugin(name, value, package, reason))
-
-        try:
-            loaded = entry_point.load()
-        except Exception as exc:  # any import failure of third-party code
-            reject(f"it could not be imported ({type(exc).__name__}: {exc})")
-            continue
-        if not isinstance(loaded, Measure):
-            reject(f"it names a {type(loaded).__name__}, not an accuracy_checks.measures.Measure")
-            continue
-        origin = f"plugin {name} = {value}" + (f" ({package})" if package else "")
-        measure = dataclasses.replace(loaded, origin=origin)
-        try:
-            check_measure(measure)
-        except ValueError as exc:
-            reject(str(exc))
-            continue
-        if measure.id in MEASURES:
-            other = MEASURES[measure.id]
-            reject(f"its measure id {measure.id!r} clashes with the measure {other.label!r} "
-                   f"({other.origin}); pick another id")
-            continue
-        MEASURES[measure.id] = measure
-        _state["ids"].append(measure.id)
-    _state["rejected"] = rejected
-    return list(rejected)
+    return _GROUP.load(reload=reload)[1]
 
 
 def rejected_plugins() -> list[RejectedPlugin]:
     """The plugins rejected by the last :func:`load_plugins`."""
-    load_plugins()
-    return list(_state["rejected"])
+    return load_plugins()
 
 
 def reset_plugins() -> None:
     """Forget loaded plugins and unregister their measures (tests; a changed environment)."""
-    for measure_id in _state["ids"]:
-        MEASURES.pop(measure_id, None)
-    _state.update(loaded=False, rejected=[], ids=[])
+    _GROUP.reset()
+
+
+add_loader(load_plugins)

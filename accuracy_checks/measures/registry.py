@@ -52,6 +52,7 @@ __all__ = [
     "Direction",
     "Levels",
     "Measure",
+    "add_loader",
     "display_order",
     "get_measure",
     "headline_measures",
@@ -284,12 +285,24 @@ def get_measure(measure_id: str) -> Measure:
     raise KeyError(f"unknown measure {measure_id!r}; known measures: {known}") from None
 
 
+#: Called before the registry is read in full: :mod:`accuracy_checks.measures.plugins` adds
+#: the loader of the ``accuracy_checks.measures`` entry points (the package imports it), so
+#: the registry needs no import of its plugins.
+_LOADERS: list[Callable[[], object]] = []
+
+
+def add_loader(loader: Callable[[], object]) -> None:
+    """Have :func:`registered_measures` call ``loader`` first (it registers more measures,
+    once per process)."""
+    if loader not in _LOADERS:
+        _LOADERS.append(loader)
+
+
 def registered_measures() -> dict[str, Measure]:
     """:data:`MEASURES` after loading the plugins of the ``accuracy_checks.measures``
     entry-point group (once per process; see :mod:`accuracy_checks.measures.plugins`)."""
-    from accuracy_checks.measures.plugins import load_plugins
-
-    load_plugins()
+    for loader in _LOADERS:
+        loader()
     return MEASURES
 
 
