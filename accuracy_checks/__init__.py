@@ -20,8 +20,7 @@ from accuracy_checks.errors import (
     UsageError,
 )
 from accuracy_checks.results import CheckResult, RunReport
-
-__version__ = "0.1.0"
+from accuracy_checks.version import __version__
 
 __all__ = [
     "AccuracyChecksError",

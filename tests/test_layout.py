@@ -37,7 +37,8 @@ MAX_README_LINES = 250
 #: a higher one. The longest matching prefix places a module; the package root
 #: (``accuracy_checks/__init__.py``, the public API) is the top layer.
 LAYERS: tuple[tuple[str, tuple[str, ...]], ...] = (
-    ("errors/results", ("accuracy_checks.errors", "accuracy_checks.results")),
+    ("errors/results", ("accuracy_checks.errors", "accuracy_checks.results",
+                        "accuracy_checks.version")),
     ("config", ("accuracy_checks.config",)),
     ("sources/evaluation/measures", ("accuracy_checks.sources", "accuracy_checks.evaluation",
                                      "accuracy_checks.measures")),

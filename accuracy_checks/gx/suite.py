@@ -43,7 +43,7 @@ from great_expectations.expectations.row_conditions import (
     ComparisonCondition,
 )
 
-from accuracy_checks import __version__
+from accuracy_checks.version import __version__
 from accuracy_checks.api import read_config
 from accuracy_checks.checks.output_schema import (
     DUPLICATE_ROWS,

@@ -32,6 +32,7 @@ from sqlalchemy import Connection
 
 from accuracy_checks.results import CheckResult, RunReport
 from accuracy_checks.store.urls import mask_secrets
+from accuracy_checks.version import __version__
 
 if TYPE_CHECKING:
     from accuracy_checks.config import Config
@@ -50,8 +51,6 @@ RESULT_FIELDS = (
 
 
 def tool_version() -> str:
-    from accuracy_checks import __version__
-
     return __version__
 
 
