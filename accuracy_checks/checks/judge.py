@@ -20,7 +20,7 @@ level on its side. A figure whose sums left the float64 range (reason ``overflow
 any level: the worst level set breaks (``fail``, else ``warn``; ``skipped`` without a level).
 
 :func:`judge` is that rule, the one every engine and check calls (the coverage checks through
-:meth:`ThresholdBook.judge`, the accuracy check and the fan-out path through
+:meth:`Thresholds.judge`, the accuracy check and the fan-out path through
 :func:`judge_figure`, which also words the result's message: docs/checks.md).
 """
 
@@ -44,6 +44,7 @@ __all__ = [
     "Figure",
     "Judgement",
     "ThresholdBook",
+    "Thresholds",
     "breaks",
     "judge",
     "judge_figure",
@@ -114,8 +115,8 @@ def judge(value: float | None, warn: Bound | None, fail: Bound | None, direction
     return "pass"
 
 
-class ThresholdBook:
-    """The thresholds of one config, ready to judge values."""
+class Thresholds:
+    """The thresholds of one config, ready to judge values (formerly ``ThresholdBook``)."""
 
     def __init__(self, config: Config) -> None:
         self._default = {**BUILTIN_DEFAULTS, **config.thresholds.default}
@@ -198,7 +199,7 @@ def span_words(window: Sequence[date]) -> str:
     return f"periods {first:%Y-%m-%d} to {last:%Y-%m-%d}"
 
 
-def judge_figure(measure: Measure, figure: Figure, book: ThresholdBook, *, min_obs: int,
+def judge_figure(measure: Measure, figure: Figure, book: Thresholds, *, min_obs: int,
                  span: str, settings: MeasureSettings | None = None) -> CheckResult:
     """The accuracy result of one figure: its status (:func:`judge` against the levels of
     ``book``, turned into the bounds of this figure by ``measure.levels``; ``no_data`` or
@@ -295,3 +296,8 @@ def _facts(measure: str, result: CheckResult) -> str:
             text += f"; cost-optimal quantile τ* = {format_number(d['tau_star'])}"
         return text + "."
     return ""
+
+
+#: The former name of :class:`Thresholds`, kept for one release for check plugins that
+#: annotate with it (a deprecation warning follows once the package itself no longer uses it).
+ThresholdBook = Thresholds

@@ -25,7 +25,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.results import RunReport
+from accuracy_checks.results import RunReport, json_value
 
 __all__ = ["dumps_report", "to_jsonable", "write_json", "write_text_atomic"]
 
@@ -36,13 +36,8 @@ def _default(obj: Any) -> Any:
     """``json`` ``default=`` hook: numpy, pandas and datetime values as plain JSON values."""
     if obj is None or obj is pd.NaT or obj is pd.NA:
         return None
-    if isinstance(obj, np.bool_):
-        return bool(obj)
-    if isinstance(obj, np.integer):
-        return int(obj)
-    if isinstance(obj, np.floating):
-        value = float(obj)
-        return value if math.isfinite(value) else None
+    if isinstance(obj, np.bool_ | np.integer | np.floating):
+        return json_value(obj)  # non-finite → None
     if isinstance(obj, np.datetime64):
         return None if np.isnat(obj) else pd.Timestamp(obj).isoformat()
     if isinstance(obj, np.timedelta64):
