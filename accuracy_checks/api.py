@@ -14,7 +14,8 @@ from typing import TYPE_CHECKING
 
 import pandas as pd
 
-from accuracy_checks.config import Config, load_config
+from accuracy_checks.config import Config
+from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.sources import frames as F
 
 if TYPE_CHECKING:

@@ -21,8 +21,8 @@ from accuracy_checks.checks.drift import (
     drift_results,
     load_trail,
 )
-from accuracy_checks.config import parse_config
 from accuracy_checks.errors import ConfigError
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult
 from accuracy_checks.store import open_store
 from tests.support.project import CURRENT, EARLIER, Project
