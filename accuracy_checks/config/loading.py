@@ -62,13 +62,14 @@ _UniqueKeyLoader.add_constructor(
 )
 
 
-def load_config(path: str | Path, *, catalogue: CatalogueSource = None,
-                **overrides: Any) -> Config:
+def load_config(path: str | Path, *, catalogue: CatalogueSource, **overrides: Any) -> Config:
     """Read, validate and resolve a config file.
 
     ``overrides`` replace top-level sections after loading (used by the CLI's path options);
-    ``catalogue`` is what measure names and the frequency are checked against (unchecked
-    without one). Raises :class:`ConfigError` with a message naming the file and key.
+    ``catalogue`` is what measure names and the frequency are checked against; it is required
+    so that no caller skips those checks by accident (``None`` asks for the structure only).
+    :func:`accuracy_checks.load_config` hands in the registry's catalogue. Raises
+    :class:`ConfigError` with a message naming the file and key.
     """
     path = Path(path)
     try:
@@ -76,14 +77,14 @@ def load_config(path: str | Path, *, catalogue: CatalogueSource = None,
     except FileNotFoundError:
         raise ConfigError(
             f"Config file {path} does not exist. Pass the path of your YAML config with "
-            "--config (see the README's config reference)."
+            "--config (see docs/config.md)."
         ) from None
     except (OSError, UnicodeDecodeError) as exc:
         raise ConfigError(f"Config file {path} cannot be read: {exc}.") from exc
     return parse_config(text, source=path, catalogue=catalogue, **overrides)
 
 
-def parse_config(text: str, *, source: Path | None = None, catalogue: CatalogueSource = None,
+def parse_config(text: str, *, catalogue: CatalogueSource, source: Path | None = None,
                  **overrides: Any) -> Config:
     """Validate config text (YAML) against ``catalogue`` (see :func:`load_config`). Relative
     paths resolve against ``source``'s folder."""
@@ -96,7 +97,7 @@ def parse_config(text: str, *, source: Path | None = None, catalogue: CatalogueS
         problem = getattr(exc, "problem", None) or str(exc)
         raise ConfigError(f"Config file {name} is not valid YAML{where}: {problem}.") from None
     if raw is None:
-        raise ConfigError(f"Config file {name} is empty; see the README's config reference.")
+        raise ConfigError(f"Config file {name} is empty; see docs/config.md.")
     if not isinstance(raw, dict):
         raise ConfigError(
             f"Config file {name} must be a mapping of keys (version, forecast, actuals, …); "

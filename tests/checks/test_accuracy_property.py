@@ -15,8 +15,8 @@ from hypothesis import strategies as st
 
 from accuracy_checks.checks.accuracy import accuracy_results
 from accuracy_checks.checks.judge import ThresholdBook
-from accuracy_checks.config import parse_config
 from accuracy_checks.measures import CORE_MEASURES
+from accuracy_checks.measures.catalogue import parse_config
 
 CONFIG = parse_config(
     "version: 1\n"

@@ -59,17 +59,18 @@ def test_the_catalogue_is_the_registry_and_the_coverage_figures() -> None:
 def test_without_a_catalogue_names_are_unchecked_but_the_structure_is(extra: str) -> None:
     with pytest.raises(ConfigError):
         parse_config(BASE + extra, source=SOURCE)
-    structural = cfg.parse_config(BASE + extra, source=SOURCE)
+    structural = cfg.parse_config(BASE + extra, source=SOURCE, catalogue=None)
     assert structural.forecast.path == Path("/cfg/f.csv")
 
 
 def test_without_a_catalogue_the_structure_is_checked_all_the_same() -> None:
     with pytest.raises(ConfigError, match=r"unknown key `evaluation\.windw`"):
-        cfg.parse_config(BASE + "evaluation: {windw: 4}\n", source=SOURCE)
+        cfg.parse_config(BASE + "evaluation: {windw: 4}\n", source=SOURCE, catalogue=None)
     with pytest.raises(ConfigError, match=r"\[14\] lie beyond the horizon of 13"):
-        cfg.parse_config(BASE + "evaluation: {lags: [1, 14]}\n", source=SOURCE)
+        cfg.parse_config(BASE + "evaluation: {lags: [1, 14]}\n", source=SOURCE, catalogue=None)
     with pytest.raises(ConfigError, match="give a `warn` level, a `fail` level, or both"):
-        cfg.parse_config(BASE + "thresholds: {default: {anything: {}}}\n", source=SOURCE)
+        cfg.parse_config(BASE + "thresholds: {default: {anything: {}}}\n", source=SOURCE,
+                         catalogue=None)
 
 
 def test_a_catalogue_handed_in_decides_the_names_directions_inputs_and_frequency() -> None:

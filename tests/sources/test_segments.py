@@ -10,8 +10,8 @@ import pandas as pd
 import pytest
 
 from accuracy_checks import sources
-from accuracy_checks.config import parse_config
 from accuracy_checks.errors import InputError
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.sources.segments import (
     assign_segments,
     attach_segments,

@@ -14,7 +14,7 @@ import pytest
 from sqlalchemy import create_engine, text
 from sqlalchemy.pool import NullPool
 
-from accuracy_checks.config import parse_config
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult
 from accuracy_checks.store import StoreError, mask_secrets, mask_url, open_store
 from accuracy_checks.store.schema import SCHEMA_VERSION

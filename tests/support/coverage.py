@@ -11,7 +11,7 @@ import pandas as pd
 
 from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.judge import ThresholdBook
-from accuracy_checks.config import parse_config
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult
 
 KEYS = ["store", "product"]

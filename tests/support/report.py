@@ -18,7 +18,8 @@ import numpy as np
 
 from accuracy_checks.checks.drift import drift_checks
 from accuracy_checks.checks.judge import ThresholdBook
-from accuracy_checks.config import Config, parse_config
+from accuracy_checks.config import Config
+from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult, RunReport
 from accuracy_checks.store import apply_waivers, open_store
 

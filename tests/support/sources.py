@@ -7,8 +7,9 @@ from pathlib import Path
 
 import pytest
 
-from accuracy_checks.config import Config, parse_config
+from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
+from accuracy_checks.measures.catalogue import parse_config
 
 CONFIG = """\
 version: 1
