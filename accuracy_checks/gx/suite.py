@@ -43,7 +43,6 @@ from great_expectations.expectations.row_conditions import (
     ComparisonCondition,
 )
 
-from accuracy_checks.version import __version__
 from accuracy_checks.api import read_config
 from accuracy_checks.checks.output_schema import (
     DUPLICATE_ROWS,
@@ -64,6 +63,7 @@ from accuracy_checks.gx.expectations import (
 )
 from accuracy_checks.measures.selection import measures_to_report
 from accuracy_checks.sources import frames as F
+from accuracy_checks.version import __version__
 
 __all__ = ["FINITE_MAX", "suite_from_config", "suite_from_json", "suite_to_json"]
 
