@@ -2,6 +2,6 @@
 
 import sys
 
-from accuracy_checks.cli.main import main
+from accuracy_checks.cli import main
 
 sys.exit(main())

@@ -28,11 +28,13 @@ import math
 import time
 from dataclasses import asdict, dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 import pyarrow.parquet as pq
+import yaml
 
 HORIZON = 13
 EARLIER_CYCLES = 4
@@ -70,41 +72,29 @@ def _names(prefix: str, n: int, width: int) -> pa.Array:
     return pa.array([f"{prefix}{i:0{width}d}" for i in range(1, n + 1)], pa.string())
 
 
+#: the config of the benchmark inputs: the demo's settings, on the Parquet files above
+CONFIG: dict[str, Any] = {
+    "version": 1,
+    "forecast": {"path": "forecast.parquet", "keys": ["store", "product"], "period": "week",
+                 "value": "units", "issued": "issued_on", "quantiles": {0.1: "p10", 0.9: "p90"}},
+    "actuals": {"path": "actuals.parquet", "period": "week", "value": "units_sold"},
+    "history": "history.parquet",
+    "archive": "run/archive",
+    "store": "sqlite:///run/audit.db",
+    "frequency": "W-MON",
+    "horizon": HORIZON,
+    "segments": {"columns": ["category"], "mapping": "segments.parquet"},
+    "coverage": {"active_periods": 8},
+    "evaluation": {"lags": [1, 4], "window": 4, "min_obs": 20},
+    "thresholds": {"default": {"bias_pct": {"warn": 5, "fail": 10},
+                               "wape": {"warn": 35, "fail": 50},
+                               "missing_series_pct": {"warn": 0, "fail": 1}}},
+}
+
+
 def _config_text() -> str:
-    return """\
-# accuracy-checks benchmark inputs (invented data)
-version: 1
-forecast:
-  path: forecast.parquet
-  keys: [store, product]
-  period: week
-  value: units
-  issued: issued_on
-  quantiles: {0.1: p10, 0.9: p90}
-actuals:
-  path: actuals.parquet
-  period: week
-  value: units_sold
-history: history.parquet
-archive: run/archive
-store: sqlite:///run/audit.db
-frequency: W-MON
-horizon: 13
-segments:
-  columns: [category]
-  mapping: segments.parquet
-coverage:
-  active_periods: 8
-evaluation:
-  lags: [1, 4]
-  window: 4
-  min_obs: 20
-thresholds:
-  default:
-    bias_pct: {warn: 5, fail: 10}
-    wape: {warn: 35, fail: 50}
-    missing_series_pct: {warn: 0, fail: 1}
-"""
+    return "# accuracy-checks benchmark inputs (invented data)\n" + yaml.safe_dump(
+        CONFIG, sort_keys=False, default_flow_style=None)
 
 
 def generate(series: int, out: Path, *, seed: int = 1) -> Manifest:

@@ -14,17 +14,16 @@ Nothing here is real: no company, store or person (see :mod:`accuracy_checks.dem
 
 from __future__ import annotations
 
-import shutil
 from collections.abc import Callable
 from dataclasses import dataclass
 from pathlib import Path
 
 from prefect.states import State
 
-from accuracy_checks.demo.scenario import CONFIG_MARKER, Scenario, generate_scenario
-from accuracy_checks.errors import GateFailed, UsageError
+from accuracy_checks.demo.scenario import Scenario, generate_scenario, prepare_folder
+from accuracy_checks.errors import GateFailed
 
-__all__ = ["LATEST_CONFIG", "DemoNight", "latest_config_text", "run_flow_demo"]
+__all__ = ["LATEST_CONFIG", "DemoNight", "RunNight", "latest_config_text", "run_flow_demo"]
 
 #: the second night's config, written next to the generated one
 LATEST_CONFIG = "nightly-latest.yaml"
@@ -61,25 +60,6 @@ def latest_config_text(scenario: Scenario) -> str:
     return text
 
 
-def _prepare(out_dir: Path) -> None:
-    if out_dir.exists() and not out_dir.is_dir():
-        raise UsageError(f"Demo output {out_dir} exists and is not a folder; pass a folder path.")
-    if out_dir.is_dir() and any(out_dir.iterdir()):
-        config = out_dir / "accuracy-checks.yaml"
-        try:
-            ours = config.read_text(encoding="utf-8").startswith(CONFIG_MARKER)
-        except OSError:
-            ours = False
-        if not ours:
-            raise UsageError(
-                f"Demo output folder {out_dir} is not empty and does not hold an earlier demo "
-                "(no accuracy-checks.yaml written by the demo). Pass a new or empty folder."
-            )
-        for name in (".accuracy_checks", PUBLISHED):  # an earlier demo's run state
-            if (out_dir / name).is_dir():
-                shutil.rmtree(out_dir / name)
-
-
 def _verdict_lines(night: DemoNight, out_dir: Path) -> list[str]:
     state = night.state
     if state.is_completed():
@@ -101,22 +81,26 @@ def _verdict_lines(night: DemoNight, out_dir: Path) -> list[str]:
     return [f"  The flow run ended {state.name}: {state.message}"]
 
 
-def run_flow_demo(out_dir: Path, *, echo: Callable[[str], None] = print) -> list[DemoNight]:
-    """Generate the scenario in ``out_dir`` and run the nightly flow on two nights (module
-    docstring), narrating each; returns both nights. A non-empty folder that is not an
-    earlier demo is refused (``UsageError``)."""
-    from flows.nightly_forecast import SERVER_NOTE, needs_temporary_server, run_nightly
+#: runs the nightly flow once on a config, publishing into a folder: (exit code, final state)
+RunNight = Callable[[Path, Path], tuple[int, State]]
 
+
+def run_flow_demo(out_dir: Path, run_night: RunNight, *, server_note: str | None = None,
+                  echo: Callable[[str], None] = print) -> list[DemoNight]:
+    """Generate the scenario in ``out_dir`` and run the nightly flow on two nights (module
+    docstring) with ``run_night`` (``nightly_forecast.run_nightly``), narrating each; returns
+    both nights. ``server_note`` is said first (Prefect's temporary server). A non-empty
+    folder that is not an earlier demo is refused (``UsageError``)."""
     out_dir = Path(out_dir)
-    _prepare(out_dir)
+    prepare_folder(out_dir, run_state=(".accuracy_checks", PUBLISHED))
     echo("accuracy-checks: the nightly forecast flow (Prefect) on invented data: a fictional "
          f"chain of garden centres, written to {out_dir}.\n"
          "Each night the flow forecasts every active store × product for the next 13 weeks "
          "(seasonal naive),\ngates the forecast (coverage, output checks, accuracy of the "
          "earlier cycles against the actuals)\nand publishes it only when the gate did not "
          "fail. Every run is recorded in the audit store.")
-    if needs_temporary_server():
-        echo(SERVER_NOTE)
+    if server_note:
+        echo(server_note)
     echo("")
     scenario = generate_scenario(out_dir)
     latest = out_dir / LATEST_CONFIG
@@ -132,7 +116,7 @@ def run_flow_demo(out_dir: Path, *, echo: Callable[[str], None] = print) -> list
     nights: list[DemoNight] = []
     for title, config in plan:
         echo(title)
-        code, state = run_nightly(config, publish)
+        code, state = run_night(config, publish)
         night = DemoNight(title, config, code, state)
         nights.append(night)
         echo("\n".join(_verdict_lines(night, out_dir)) + "\n")

@@ -47,13 +47,9 @@ from prefect.states import State
 from accuracy_checks.errors import GateFailed, UsageError
 from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.outputs.wording import headline
-from accuracy_checks.prefect import (
-    check_forecast,
-    cli_message,
-    first_failure,
-    usage_failure,
-)
+from accuracy_checks.prefect import check_forecast, cli_message, first_failure, usage_failure
 from accuracy_checks.prefect.gate import findings
+from flows.demo_nightly import run_flow_demo
 from flows.forecasting import forecast_next_cycle, publish_file, write_forecast
 
 __all__ = ["main", "make_forecast", "nightly_forecast", "publish_forecast", "run_nightly"]
@@ -182,10 +178,10 @@ def _parser() -> argparse.ArgumentParser:
 def main(argv: Sequence[str] | None = None, *, echo: Callable[[str], None] = print) -> int:
     args = _parser().parse_args(argv)
     if args.demo is not None:
-        from flows.demo_nightly import run_flow_demo
-
         try:
-            run_flow_demo(args.demo, echo=echo)
+            run_flow_demo(args.demo, run_nightly,
+                          server_note=SERVER_NOTE if needs_temporary_server() else None,
+                          echo=echo)
         except UsageError as exc:
             print(cli_message(exc), file=sys.stderr)
             return EXIT_USAGE

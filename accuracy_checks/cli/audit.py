@@ -26,7 +26,8 @@ COMMANDS = ("history", "breaches", "waive", "waivers", "revoke", "verify")
 STATUSES = ("pass", "warn", "fail", "skipped", "waived", "error")
 
 
-def _day(text: str) -> date:
+def iso_day(text: str) -> date:
+    """An argument's date (``YYYY-MM-DD``); argparse words the error."""
     try:
         return date.fromisoformat(text)
     except ValueError:
@@ -64,8 +65,8 @@ def add_audit_commands(sub: Any) -> None:
     h.add_argument("--segment", help="runs with a result for this segment (\"*\" = all series)")
     h.add_argument("--measure", help="runs with a result for this measure (e.g. wape)")
     h.add_argument("--status", choices=STATUSES, help="runs with a result of this status")
-    h.add_argument("--since", type=_day, metavar="DATE", help="started on or after (UTC date)")
-    h.add_argument("--until", type=_day, metavar="DATE",
+    h.add_argument("--since", type=iso_day, metavar="DATE", help="started on or after (UTC date)")
+    h.add_argument("--until", type=iso_day, metavar="DATE",
                    help="started on or before (UTC date)")
     h.add_argument("--label", help="runs recorded with this pipeline run label")
     h.add_argument("--limit", type=_positive, metavar="N", help="only the newest N runs")
@@ -82,7 +83,7 @@ def add_audit_commands(sub: Any) -> None:
     w.add_argument("--segment", required=True, help='the segment ("*" = all series)')
     w.add_argument("--measure", required=True, help="the measure (e.g. bias_pct, wape)")
     w.add_argument("--lag", type=_positive, help="only this lag (default: every lag)")
-    w.add_argument("--until", required=True, type=_day, metavar="DATE",
+    w.add_argument("--until", required=True, type=iso_day, metavar="DATE",
                    help="last day the waiver applies (UTC, inclusive)")
     w.add_argument("--reason", required=True, help="why the breach is accepted")
     w.add_argument("--by", help="who grants it (default: the OS user)")
@@ -151,9 +152,6 @@ def _history(store: Store, args: argparse.Namespace) -> int:
                          status=args.status, since=args.since, until=args.until,
                          label=args.label, limit=args.limit)
     by_result = any(x is not None for x in (args.segment, args.measure, args.status))
-    if args.json:
-        _print_json(runs)
-        return 0
     if by_result:
         head = ["run_id", "cycle", "attempt", "started_at", "run_status", "check", "segment",
                 "lag", "measure", "value", "unit", "status", "warn", "fail", "waiver_id"]
@@ -169,8 +167,7 @@ def _history(store: Store, args: argparse.Namespace) -> int:
                  *((run["counts"] or {}).get(s, 0)
                    for s in ("fail", "warn", "waived", "pass", "skipped", "error"))]
                 for run in runs]
-    if args.csv:
-        _print_csv(head, rows)
+    if _print_for_machines(args, runs, head, rows):
         return 0
     if not runs:
         print(f"No recorded run matches (store {store.url}).")
@@ -202,17 +199,13 @@ def _counts(values: Sequence[Any]) -> str:
 
 def _breaches(store: Store, args: argparse.Namespace) -> int:
     found = store.breaches(segment=args.segment, measure=args.measure)
-    if args.json:
-        _print_json(found)
-        return 0
     head = ["check", "segment", "lag", "measure", "status", "first_cycle", "cycles",
             "last_cycle", "last_attempt", "value", "unit", "warn", "fail", "waiver_id",
             "waiver_until", "waiver_by", "waiver_reason"]
     rows = [[b["check"], b["segment"], b["lag"], b["measure"], b["status"], b["first_cycle"],
              b["cycles"], b["last_cycle"], b["last_attempt"], b["value"], b["unit"], b["warn"],
              b["fail"], *(_waiver_cells(b["waiver"]))] for b in found]
-    if args.csv:
-        _print_csv(head, rows)
+    if _print_for_machines(args, found, head, rows):
         return 0
     if not found:
         print(f"No figure is breached in the latest recorded cycles (store {store.url}).")
@@ -242,11 +235,8 @@ def _waive(store: Store, args: argparse.Namespace) -> int:
               "applies once it does (segment names are matched exactly).", file=sys.stderr)
     w = store.waive(segment=args.segment, measure=args.measure, lag=args.lag,
                     until=args.until, reason=args.reason, by=args.by)
-    if args.json:
-        _print_json(w.to_dict())
-    elif args.csv:
-        _print_csv(list(w.to_dict()), [list(w.to_dict().values())])
-    else:
+    doc = w.to_dict()
+    if not _print_for_machines(args, doc, list(doc), [list(doc.values())]):
         lag = f", lag {w.lag}" if w.lag is not None else ", every lag"
         print(f"Granted waiver #{w.id}: {w.segment} × {w.measure}{lag}, through "
               f"{w.until.isoformat()} (UTC, inclusive), by {w.created_by}: {w.reason}")
@@ -258,14 +248,9 @@ def _waivers(store: Store, args: argparse.Namespace) -> int:
     today = datetime.now(UTC)
     found = store.waivers(include_inactive=args.all)
     docs = [w.to_dict(today) for w in found]
-    if args.json:
-        _print_json(docs)
-        return 0
     head = ["id", "state", "segment", "measure", "lag", "until", "reason", "created_by",
             "created_at", "revoked_at", "revoked_by", "revoke_reason"]
-    rows = [[d[k] for k in head] for d in docs]
-    if args.csv:
-        _print_csv(head, rows)
+    if _print_for_machines(args, docs, head, [[d[k] for k in head] for d in docs]):
         return 0
     if not found:
         more = "" if args.all else " (--all lists expired and revoked ones too)"
@@ -326,6 +311,20 @@ def _level(bound: Any) -> str:
     return f"{bound:g}"
 
 
+def _print_for_machines(args: argparse.Namespace, doc: Any, head: list[str],
+                        rows: list[list[Any]]) -> bool:
+    """Print ``doc`` as JSON (``--json``) or ``rows`` under ``head`` as CSV (``--csv``);
+    whether it did (else the command prints its table)."""
+    if args.json:
+        print(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
+    elif args.csv:
+        w = csv.writer(sys.stdout, lineterminator="\n")
+        w.writerow(head)
+        for row in rows:
+            w.writerow([json.dumps(c) if isinstance(c, list | dict) else c for c in row])
+    return bool(args.json or args.csv)
+
+
 def _print_table(head: list[str], rows: list[list[Any]]) -> None:
     """Aligned columns; cells are never cut or interpreted (names show verbatim)."""
     cells = [[("" if c is None else str(c)).replace("\n", " ") for c in row] for row in rows]
@@ -337,15 +336,4 @@ def _print_table(head: list[str], rows: list[list[Any]]) -> None:
     sys.stdout.write(out.getvalue())
 
 
-def _print_csv(head: list[str], rows: list[list[Any]]) -> None:
-    w = csv.writer(sys.stdout, lineterminator="\n")
-    w.writerow(head)
-    for row in rows:
-        w.writerow([json.dumps(c) if isinstance(c, list | dict) else c for c in row])
-
-
-def _print_json(doc: Any) -> None:
-    print(json.dumps(doc, indent=2, ensure_ascii=False, default=str))
-
-
-__all__ = ["COMMANDS", "add_audit_commands", "run_audit_command"]
+__all__ = ["COMMANDS", "add_audit_commands", "iso_day", "run_audit_command"]

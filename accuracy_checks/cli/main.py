@@ -10,10 +10,13 @@ import argparse
 import json
 import os
 import sys
-from datetime import date
+from collections.abc import Callable
 from pathlib import Path
 
+from accuracy_checks.cli.audit import COMMANDS as AUDIT_COMMANDS
+from accuracy_checks.cli.audit import add_audit_commands, iso_day, run_audit_command
 from accuracy_checks.errors import UsageError
+from accuracy_checks.version import __version__
 
 EXIT_PASS, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 
@@ -24,8 +27,6 @@ def _parser() -> argparse.ArgumentParser:
         description="Gate a forecast: coverage and output checks, accuracy of earlier cycles "
         "against actuals, per-segment thresholds.",
     )
-    from accuracy_checks import __version__
-
     p.add_argument("--version", action="version", version=f"accuracy-checks {__version__}")
     sub = p.add_subparsers(dest="command", required=True, metavar="COMMAND")
 
@@ -55,7 +56,7 @@ def _parser() -> argparse.ArgumentParser:
     rep_where.add_argument("--store", metavar="URL", help="a store URL instead of a config")
     rep.add_argument("--out", required=True, type=Path, metavar="PATH",
                      help="the HTML file to write (one self-contained file)")
-    rep.add_argument("--since", type=_report_day, metavar="DATE",
+    rep.add_argument("--since", type=iso_day, metavar="DATE",
                      help="only cycles issued on or after this date (YYYY-MM-DD)")
 
     val = sub.add_parser("validate", help="validate a config file and exit")
@@ -69,54 +70,18 @@ def _parser() -> argparse.ArgumentParser:
                       help="folder to write the demo into (default: ./accuracy-checks-demo)")
     demo.add_argument("--cycles", type=int, default=6, help="number of weekly cycles (default 6)")
 
-    from accuracy_checks.cli.audit import add_audit_commands
-
     add_audit_commands(sub)  # history, breaches, waive, waivers, revoke, verify
     return p
 
 
 def main(argv: list[str] | None = None) -> int:
+    """Run one command; return its exit code (usage errors are exit 2 with one paragraph on
+    stderr, a bug is exit 3 without a traceback unless ``ACCURACY_CHECKS_DEBUG`` is set)."""
     args = _parser().parse_args(argv)
     try:
-        if args.command == "run":
-            return _run(args)
-        if args.command == "report":
-            return _report(args)
-        if args.command == "validate":
-            from accuracy_checks.measures.catalogue import load_config
-
-            cfg = load_config(args.config)
-            print(f"{args.config}: valid (forecast {cfg.forecast.path}, horizon {cfg.horizon}, "
-                  f"frequency {cfg.frequency})")
-            return EXIT_PASS
-        if args.command == "schema":
-            from accuracy_checks.measures.catalogue import json_schema
-
-            text = json.dumps(json_schema(), indent=2)
-            if args.out:
-                from accuracy_checks.outputs.jsonfile import write_text_atomic
-
-                try:
-                    write_text_atomic(args.out, text + "\n")
-                except OSError as exc:
-                    raise UsageError(
-                        f"Cannot write the schema to {args.out}: {exc.strerror or exc}. Give "
-                        "--out a file in a folder you can write, or leave it out to print."
-                    ) from None
-            else:
-                print(text)
-            return EXIT_PASS
-        from accuracy_checks.cli.audit import COMMANDS as AUDIT_COMMANDS
-
         if args.command in AUDIT_COMMANDS:
-            from accuracy_checks.cli.audit import run_audit_command
-
             return run_audit_command(args)
-        if args.command == "demo":
-            from accuracy_checks.demo.scenario import run_demo
-
-            run_demo(args.out, cycles=args.cycles)
-            return EXIT_PASS
+        return _COMMANDS[args.command](args)
     except UsageError as exc:
         print(f"accuracy-checks: error: {exc.message}", file=sys.stderr)
         return EXIT_USAGE
@@ -130,7 +95,41 @@ def main(argv: list[str] | None = None) -> int:
               "set ACCURACY_CHECKS_DEBUG=1 for the traceback and please report it.",
               file=sys.stderr)
         return EXIT_INTERNAL
-    return EXIT_USAGE
+
+
+def _validate(args: argparse.Namespace) -> int:
+    from accuracy_checks.measures.catalogue import load_config
+
+    cfg = load_config(args.config)
+    print(f"{args.config}: valid (forecast {cfg.forecast.path}, horizon {cfg.horizon}, "
+          f"frequency {cfg.frequency})")
+    return EXIT_PASS
+
+
+def _schema(args: argparse.Namespace) -> int:
+    from accuracy_checks.measures.catalogue import json_schema
+
+    text = json.dumps(json_schema(), indent=2)
+    if not args.out:
+        print(text)
+        return EXIT_PASS
+    from accuracy_checks.outputs.jsonfile import write_text_atomic
+
+    try:
+        write_text_atomic(args.out, text + "\n")
+    except OSError as exc:
+        raise UsageError(
+            f"Cannot write the schema to {args.out}: {exc.strerror or exc}. Give "
+            "--out a file in a folder you can write, or leave it out to print."
+        ) from None
+    return EXIT_PASS
+
+
+def _demo(args: argparse.Namespace) -> int:
+    from accuracy_checks.demo import run_demo
+
+    run_demo(args.out, cycles=args.cycles)
+    return EXIT_PASS
 
 
 def _run(args: argparse.Namespace) -> int:
@@ -165,13 +164,6 @@ def _run(args: argparse.Namespace) -> int:
     return EXIT_PASS
 
 
-def _report_day(text: str) -> date:
-    try:
-        return date.fromisoformat(text)
-    except ValueError:
-        raise argparse.ArgumentTypeError(f"{text!r} is not a date (YYYY-MM-DD)") from None
-
-
 def _report(args: argparse.Namespace) -> int:
     """``accuracy-checks report``: the HTML report of a config's (or a URL's) audit store."""
     from accuracy_checks.config import Config
@@ -183,6 +175,10 @@ def _report(args: argparse.Namespace) -> int:
     print(f"Wrote {args.out}: {rendered.cycles} cycle(s), {rendered.segments} segment(s) "
           f"charted, {rendered.charts} charts, {rendered.bytes / 1e6:.1f} MB.")
     return EXIT_PASS
+
+
+_COMMANDS: dict[str, Callable[[argparse.Namespace], int]] = {
+    "run": _run, "report": _report, "validate": _validate, "schema": _schema, "demo": _demo}
 
 
 if __name__ == "__main__":  # pragma: no cover

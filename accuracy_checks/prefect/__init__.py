@@ -40,30 +40,7 @@ except ImportError as exc:  # pragma: no cover - depends on the environment
         'accuracy_checks.prefect needs Prefect 3: pip install "accuracy-checks[prefect]"'
     ) from exc
 
-from accuracy_checks.prefect.gate import (
-    WARNED_STATE_NAME,
-    Alert,
-    check_forecast,
-    cli_message,
-    findings,
-    findings_table,
-    first_failure,
-    gate_failed_state,
-    gate_failure,
-    run_gate,
-    usage_failure,
-)
+from accuracy_checks.prefect import gate as _gate
+from accuracy_checks.prefect.gate import *  # noqa: F403  (the task and its helpers: gate.__all__)
 
-__all__ = [
-    "WARNED_STATE_NAME",
-    "Alert",
-    "check_forecast",
-    "cli_message",
-    "findings",
-    "findings_table",
-    "first_failure",
-    "gate_failed_state",
-    "gate_failure",
-    "run_gate",
-    "usage_failure",
-]
+__all__ = list(_gate.__all__)

@@ -149,7 +149,7 @@ def run_gate(config: Config | str | Path, *, forecast_path: str | Path | None = 
 
 def findings(report: RunReport, n: int = MAX_FINDINGS) -> list[str]:
     """The ``n`` most important findings of ``report`` in plain words (failures first)."""
-    from accuracy_checks.demo.scenario import top_findings
+    from accuracy_checks.demo.narrator import top_findings
 
     return top_findings(report, n)
 

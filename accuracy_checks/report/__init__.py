@@ -8,8 +8,12 @@
     rendered = write_report(config, "report.html")      # or a store URL instead of a config
     print(rendered.charts, rendered.bytes)
 
-Modules: :mod:`.data` (the queries), :mod:`.svg` (inline SVG charts), :mod:`.page` (the page).
-No extra dependency: the charts are SVG written by this package.
+Modules, in the order the data flows: :mod:`.data` (the queries), :mod:`.page` (the page:
+head, header, stylesheet and its CSP), its sections :mod:`.sections` (the latest run),
+:mod:`.trends` (over cycles) and :mod:`.timeline` (the breaches), their building blocks
+:mod:`.blocks` (tables, figures, words), :mod:`.charts` (the inline SVG charts) and
+:mod:`.svg` (palette, markers, hatch patterns, escaping). No extra dependency: the charts
+are SVG written by this package.
 """
 
 from __future__ import annotations

@@ -16,14 +16,7 @@ from sqlalchemy import text
 from accuracy_checks.cli.main import main
 from accuracy_checks.store import open_store
 from tests.support.project import EARLIER, PRODUCTS, Project, forecast_frame
-from tests.support.store import (
-    INJECTION,
-    dump_text,
-    pg_password,
-    pg_url_fixture,  # noqa: F401  (fixture)
-    store_url_fixture,  # noqa: F401  (fixture)
-    table_names,
-)
+from tests.support.store import INJECTION, dump_text, pg_password, table_names
 
 
 def cli(capsys: pytest.CaptureFixture[str], *args: str) -> tuple[int, str, str]:

@@ -12,12 +12,9 @@ import pandas as pd
 import pytest
 
 from accuracy_checks.cli.main import main
+from tests.support.cli import refused, run
 from tests.support.paths import REPO
 from tests.support.project import CURRENT, EARLIER, Project, forecast_frame
-
-
-def run(project: Project, *args: str) -> int:
-    return main(["run", "--config", str(project.config), "-q", "--no-color", *args])
 
 
 def archived(project: Project) -> list[Path]:
@@ -57,20 +54,11 @@ def test_fail_on_warn(make_project: Callable[..., Project]) -> None:
     assert archived(project) == []
 
 
-def bad(project: Project, capsys: pytest.CaptureFixture[str], *args: str) -> str:
-    code = run(project, *args)
-    err = capsys.readouterr().err
-    assert code == 2, err
-    assert "Traceback" not in err
-    assert archived(project) == [], "nothing may be archived on unusable input"
-    return err
-
-
 def test_missing_file(make_project: Callable[..., Project],
                       capsys: pytest.CaptureFixture[str]) -> None:
     project = make_project()
     (project.data / "actuals.csv").unlink()
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "actuals.csv" in err and "does not exist" in err and "actuals.path" in err
 
 
@@ -78,15 +66,15 @@ def test_empty_file_and_header_only(make_project: Callable[..., Project],
                                     capsys: pytest.CaptureFixture[str]) -> None:
     project = make_project()
     (project.data / "forecast.csv").write_text("")
-    assert "is empty" in bad(project, capsys)
+    assert "is empty" in refused(project, capsys)
     (project.data / "forecast.csv").write_text("store,product,week,units,p10,p90,issued_on\n")
-    assert "no rows" in bad(project, capsys)
+    assert "no rows" in refused(project, capsys)
 
 
 def test_missing_column_lists_the_existing_ones(make_project: Callable[..., Project],
                                                 capsys: pytest.CaptureFixture[str]) -> None:
     project = make_project(forecast=forecast_frame(CURRENT).rename(columns={"units": "qty"}))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "no column 'units'" in err and "forecast.value" in err and "qty" in err
     assert "forecast.csv" in err
 
@@ -96,7 +84,7 @@ def test_non_numeric_values_name_the_lines(make_project: Callable[..., Project],
     forecast = forecast_frame(CURRENT).astype({"units": object})
     forecast.loc[3, "units"] = "twelve"
     project = make_project(forecast=forecast)
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "'units'" in err and "1 value that is not a number" in err and "line 5: 'twelve'" in err
 
 
@@ -105,7 +93,7 @@ def test_unparseable_dates(make_project: Callable[..., Project],
     forecast = forecast_frame(CURRENT)
     forecast.loc[0, "week"] = "next monday"
     project = make_project(forecast=forecast)
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "'week'" in err and "1 value that is not a date" in err
     assert "line 2: 'next monday'" in err
 
@@ -115,20 +103,20 @@ def test_config_errors_exit_2(make_project: Callable[..., Project],
     project = make_project()
     text = project.config.read_text()
     project.config.write_text(text.replace("window: 2", "windows: 2"))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "unknown key `evaluation.windows`" in err and "did you mean 'window'" in err
     project.config.write_text(text.replace("wape: {warn: 25, fail: 40}",
                                            "wape: {warn: 40, fail: 25}"))
-    assert "warn 40 is beyond fail 25" in bad(project, capsys)
+    assert "warn 40 is beyond fail 25" in refused(project, capsys)
     project.config.write_text(text.replace("horizon: 4", "horizon: -1"))
-    assert "horizon" in bad(project, capsys)
+    assert "horizon" in refused(project, capsys)
 
 
 def test_segment_column_in_neither_file(make_project: Callable[..., Project],
                                         capsys: pytest.CaptureFixture[str]) -> None:
     project = make_project()
     project.config.write_text(project.config.read_text().replace("[category]", "[department]"))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "'department'" in err and "neither" in err and "segments.columns" in err
 
 
@@ -137,7 +125,7 @@ def test_mapping_with_two_segments_for_one_series(make_project: Callable[..., Pr
     project = make_project()
     project.write("products.csv", pd.DataFrame(
         {"product": ["P1", "P2", "P3", "P2"], "category": ["tools", "plants", "plants", "tools"]}))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "more than one segment" in err and "product=P2" in err
     assert "plants" in err and "tools" in err
 
@@ -168,7 +156,7 @@ def test_mixed_time_zones_are_named_without_library_noise(
     forecast["week"] = forecast["week"] + "T00:00:00+01:00"
     forecast.loc[3, "week"] = forecast.loc[3, "week"].replace("+01:00", "+02:00")
     project = make_project(forecast=forecast)
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "'week'" in err and "mixes time zones" in err and "utc=True" not in err
 
 
@@ -211,7 +199,7 @@ def test_a_period_column_mixing_date_formats_is_refused(
     forecast = forecast_frame(CURRENT)
     forecast.loc[5, "week"] = pd.Timestamp(forecast.loc[5, "week"]).strftime("%d/%m/%Y")
     project = make_project(forecast=forecast)
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     # 9 March written day first; a guess per value reads it as 3 September
     assert "forecast.csv" in err and "'week'" in err and "line 7: '09/03/2026'" in err
     assert "forecast.date_formats" in err and '"%d/%m/%Y"' in err
@@ -245,7 +233,7 @@ def test_a_column_named_twice_is_refused(make_project: Callable[..., Project],
     lines = path.read_text().splitlines()
     lines = [lines[0] + ",units_sold"] + [line + ",0" for line in lines[1:]]
     path.write_text("\n".join(lines) + "\n")
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "actuals.csv" in err and "2 columns named 'units_sold'" in err
 
 
@@ -256,7 +244,7 @@ def test_a_reserved_segment_name_in_the_mapping_is_refused(
     project = make_project()
     project.write("products.csv", pd.DataFrame({"product": ["P1", "P2", "P3"],
                                                 "category": ["tools", name, "plants"]}))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "products.csv" in err and "'category'" in err and f"line 3: '{name}'" in err
     assert "reserved segment name" in err
 
@@ -266,7 +254,7 @@ def test_actuals_keys_of_another_length_are_a_config_error(
     project = make_project()
     project.config.write_text(project.config.read_text().replace(
         "  value: units_sold\n", "  value: units_sold\n  keys: [store]\n"))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "actuals.keys ['store'] has 1 column(s)" in err
     assert "forecast.keys ['store', 'product'] has 2" in err
 
@@ -276,12 +264,12 @@ def test_a_horizon_past_the_calendar_is_refused(make_project: Callable[..., Proj
     project = make_project()
     project.config.write_text(project.config.read_text().replace("horizon: 4",
                                                                  "horizon: 100000"))
-    assert "at most 1000" in bad(project, capsys)
+    assert "at most 1000" in refused(project, capsys)
     # a weekly forecast issued in the calendar's last week: its horizon runs past 2262-04-11
     last = pd.Timestamp("2262-04-07")  # a Monday
     forecast = forecast_frame(last)
     project = make_project(forecast=forecast.loc[forecast["week"] == "2262-04-07"])
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "run past the calendar" in err and "`horizon`" in err
 
 
@@ -293,7 +281,7 @@ def test_a_spreadsheet_serial_date_is_named_plainly(make_project: Callable[..., 
     actuals = actuals_frame(CURRENT)
     serial = (pd.to_datetime(actuals["week"]) - pd.Timestamp("1899-12-30")).dt.days
     project = make_project(actuals=actuals.assign(week=serial))
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "line 2: '46027'" in err and "np.int64" not in err
 
 
@@ -304,5 +292,5 @@ def test_an_unquoted_decimal_comma_is_refused(make_project: Callable[..., Projec
     lines = path.read_text().splitlines()
     lines[2] = lines[2].replace(".0", ",5")  # 110,5 written with a decimal comma, unquoted
     path.write_text("\n".join(lines) + "\n")
-    err = bad(project, capsys)
+    err = refused(project, capsys)
     assert "actuals.csv" in err and "5 fields on line 3" in err and "decimal" in err

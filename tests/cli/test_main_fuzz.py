@@ -34,6 +34,30 @@ NON_FINITE = ["inf", "-inf", "nan", "Infinity", "-Infinity", "NaN", "1e308", "-1
               "1.7976931348623157e308"]
 
 
+def damaged_by(damage: st.SearchStrategy[str]) -> Callable[[Callable[..., None]],
+                                                          Callable[..., None]]:
+    """25 examples of one to three kinds of ``damage`` and a seed. Each example builds its
+    own project from the function-scoped fixture's factory, so reusing it is safe."""
+    def wrap(test: Callable[..., None]) -> Callable[..., None]:
+        drawn = given(kinds=st.lists(damage, min_size=1, max_size=3),
+                      seed=st.integers(0, 2**31 - 1))(test)
+        return settings(max_examples=25, deadline=None,
+                        suppress_health_check=[HealthCheck.function_scoped_fixture])(drawn)
+    return wrap
+
+
+def assert_verdict_or_message(project: Project, capsys: pytest.CaptureFixture[str],
+                              kinds: list[str]) -> None:
+    """The gate on ``project`` ends with a verdict (0, 1) or one line of error (2), never
+    an internal error or a traceback."""
+    code = main(["run", "--config", str(project.config), "-q", "--no-color", "--no-snapshot"])
+    out = capsys.readouterr()
+    assert code in (0, 1, 2), (kinds, out.err)
+    assert "Traceback" not in out.err and "internal error" not in out.err
+    if code == 2:
+        assert out.err.startswith("accuracy-checks: error: ") and out.err.count("\n") == 1
+
+
 def _other_date_format(value: object, rng: np.random.Generator) -> object:
     """The same date written day first, month first or as a spreadsheet serial number."""
     try:
@@ -101,9 +125,7 @@ def damage(frame: pd.DataFrame, kind: str, rng: np.random.Generator) -> pd.DataF
     return f
 
 
-@settings(max_examples=25, deadline=None,
-          suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(kinds=st.lists(DAMAGE, min_size=1, max_size=3), seed=st.integers(0, 2**31 - 1))
+@damaged_by(DAMAGE)
 def test_damaged_forecasts_get_a_verdict_or_a_clear_message(
         make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str],
         kinds: list[str], seed: int) -> None:
@@ -112,12 +134,7 @@ def test_damaged_forecasts_get_a_verdict_or_a_clear_message(
     for kind in kinds:
         frame = damage(frame, kind, rng)
     project = make_project(forecast=frame)
-    code = main(["run", "--config", str(project.config), "-q", "--no-color", "--no-snapshot"])
-    out = capsys.readouterr()
-    assert code in (0, 1, 2), (kinds, out.err)
-    assert "Traceback" not in out.err and "internal error" not in out.err
-    if code == 2:
-        assert out.err.startswith("accuracy-checks: error: ") and out.err.count("\n") == 1
+    assert_verdict_or_message(project, capsys, kinds)
 
 
 ACTUALS_DAMAGE = st.sampled_from([
@@ -129,9 +146,7 @@ ACTUALS_DAMAGE = st.sampled_from([
 ])
 
 
-@settings(max_examples=25, deadline=None,
-          suppress_health_check=[HealthCheck.function_scoped_fixture])
-@given(kinds=st.lists(ACTUALS_DAMAGE, min_size=1, max_size=3), seed=st.integers(0, 2**31 - 1))
+@damaged_by(ACTUALS_DAMAGE)
 def test_damaged_actuals_and_mappings_get_a_verdict_or_a_clear_message(
         make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str],
         kinds: list[str], seed: int) -> None:
@@ -198,12 +213,7 @@ def test_damaged_actuals_and_mappings_get_a_verdict_or_a_clear_message(
                 rng.choice(["1e308", "-1e308", "inf"]))
     project = make_project(actuals=actuals, earlier=earlier)
     project.write("products.csv", mapping)
-    code = main(["run", "--config", str(project.config), "-q", "--no-color", "--no-snapshot"])
-    out = capsys.readouterr()
-    assert code in (0, 1, 2), (kinds, out.err)
-    assert "Traceback" not in out.err and "internal error" not in out.err
-    if code == 2:
-        assert out.err.startswith("accuracy-checks: error: ") and out.err.count("\n") == 1
+    assert_verdict_or_message(project, capsys, kinds)
 
 
 NUMERIC_LOOKING = st.one_of(

@@ -16,27 +16,14 @@ from sqlalchemy import create_engine, text
 from sqlalchemy.engine import make_url
 from sqlalchemy.pool import NullPool
 
-from accuracy_checks.cli.main import main
 from accuracy_checks.store import StoreError, open_store
 from accuracy_checks.store import database as D
 from tests.store.test_archive import unwritable
+from tests.support.cli import refused
 from tests.support.project import Project
 from tests.support.store import pg_url_fixture  # noqa: F401  (fixture)
 
 SECRET = "s3cr3t-pw"
-
-
-def run(project: Project, *args: str) -> int:
-    return main(["run", "--config", str(project.config), "-q", "--no-color", *args])
-
-
-def refused(project: Project, capsys: pytest.CaptureFixture[str]) -> str:
-    code = run(project)
-    err = capsys.readouterr().err
-    assert code == 2, err
-    assert "Traceback" not in err and "internal error" not in err
-    assert not list(project.root.rglob("*.parquet")), "nothing may be archived"
-    return err
 
 
 # ------------------------------------------------------------------------ the SQLite file
