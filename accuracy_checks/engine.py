@@ -23,7 +23,7 @@ import pandas as pd
 from accuracy_checks.checks.accuracy import run_accuracy
 from accuracy_checks.checks.actuals import actuals_checks
 from accuracy_checks.checks.coverage import SERIES_COUNT, coverage_checks
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.checks.plugins import run_check_plugins
 from accuracy_checks.config import Config
@@ -316,7 +316,7 @@ def _cycles_of(results: list[CheckResult]) -> list[dict[str, object]]:
 def evaluate(config: Config, inputs: Inputs, *, progress: Progress = quiet) -> list[CheckResult]:
     """Every check result for already-loaded inputs (pure: no I/O)."""
     keys = list(config.forecast.keys)
-    book = ThresholdBook(config)
+    book = Thresholds(config)
     stage = _Stage(progress)
     qcols = [F.quantile_column(t) for t in config.forecast.quantiles]
     allow = config.forecast.allow_negative

@@ -42,7 +42,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.accuracy_groups import EvaluationGroups
-from accuracy_checks.checks.judge import ACCURACY, Figure, ThresholdBook, judge_figure, span_words
+from accuracy_checks.checks.judge import ACCURACY, Figure, Thresholds, judge_figure, span_words
 from accuracy_checks.checks.offenders import worst_offenders
 from accuracy_checks.config import Config
 from accuracy_checks.evaluation.baselines import (
@@ -81,7 +81,7 @@ _NEEDS_TEXT = {
 NOT_DETAILS = frozenset({"value", "reason", "group", "variant", "n_obs", "unit"})
 
 
-def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBook,
+def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: Thresholds,
                      measures: Sequence[str], lags: Sequence[int], min_obs: int,
                      window: Sequence[pd.Timestamp],
                      settings: MeasureSettings | None = None,
@@ -126,7 +126,7 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: ThresholdBoo
 
 
 def _measure_all(job: EvaluationGroups, defs: list[Measure], *, window: Sequence[pd.Timestamp],
-                 tracking: Sequence[pd.Timestamp] | None, book: ThresholdBook, min_obs: int,
+                 tracking: Sequence[pd.Timestamp] | None, book: Thresholds, min_obs: int,
                  offenders: int, keys: list[str]) -> list[CheckResult]:
     """Every measure of ``defs`` on every grouping of ``job``, judged."""
     out: list[CheckResult] = []
@@ -172,7 +172,7 @@ def _checked(measure: Measure, values: Any, data: MeasureData) -> pd.DataFrame:
 
 
 def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: EvaluationGroups,
-            book: ThresholdBook, min_obs: int, span: str, limit: int,
+            book: Thresholds, min_obs: int, span: str, limit: int,
             keys: list[str]) -> list[CheckResult]:
     base_n, dropped, negative, series, lags, segments = job.facts(data)
     extras = [c for c in values.columns if c not in NOT_DETAILS]
@@ -247,7 +247,7 @@ def _who(example: Mapping[str, Any]) -> str:
 
 
 def _not_configured(measure: Measure, data: MeasureData, missing: list[str],
-                    book: ThresholdBook) -> list[CheckResult]:
+                    book: Thresholds) -> list[CheckResult]:
     need = "; ".join(_NEEDS_TEXT.get(n, n) for n in missing)
     out = []
     for g in range(data.n_groups):
@@ -271,7 +271,7 @@ def _plugin_error(measure: Measure, data: MeasureData, exc: Exception) -> list[C
             for g in range(data.n_groups)]
 
 
-def _no_data(segment: str, lag: int, measure: str, book: ThresholdBook,
+def _no_data(segment: str, lag: int, measure: str, book: Thresholds,
              reason: str) -> CheckResult:
     level = book.level(measure, segment)
     return CheckResult(CHECK, "skipped", segment=segment, lag=lag, measure=measure,
@@ -306,7 +306,7 @@ def _float(value: object) -> float | None:
 
 
 def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *,
-                 book: ThresholdBook) -> list[CheckResult]:
+                 book: Thresholds) -> list[CheckResult]:
     """The accuracy results of a run: evaluation frame → measures → judged results, plus a
     warning for each rejected measure plugin."""
     keys = list(config.forecast.keys)

@@ -22,7 +22,7 @@ actuals' ``segment``, ``"unassigned"`` when unknown). When every series is in se
 previous cycle's forecast is given)
     value = 100 · (n_now − n_previous) / n_previous distinct series, segment ``"*"``.
 
-Each value is judged by the :class:`~accuracy_checks.checks.judge.ThresholdBook` (a level is
+Each value is judged by the :class:`~accuracy_checks.checks.judge.Thresholds` (a level is
 broken when the value is strictly beyond it). A segment without any forecast series gets
 ``skipped`` (``no_data``) for the checks about forecast series.
 
@@ -43,7 +43,7 @@ import pandas as pd
 
 from accuracy_checks.checks.examples import example_value, pct_text, plural, require_columns
 from accuracy_checks.checks.horizon import HORIZON, horizon_results
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.series_index import (
     Segments,
     SeriesIndex,
@@ -108,7 +108,7 @@ def _activity(series: SeriesIndex, actuals: pd.DataFrame, active_periods: int) -
 
 def _missing_series(series: SeriesIndex, activity: _Activity, segments: Segments,
                     actuals: pd.DataFrame, keys: list[str], active_periods: int,
-                    book: ThresholdBook, max_examples: int) -> list[CheckResult]:
+                    book: Thresholds, max_examples: int) -> list[CheckResult]:
     volume = activity.volume
     missing = activity.active & ~series.in_forecast
     window = {"active_periods": active_periods,
@@ -174,7 +174,7 @@ def _known_by_table(series: SeriesIndex, forecast: pd.DataFrame, keys: list[str]
 def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.DataFrame,
                        keys: list[str],
                        known_series: pd.DataFrame | Sequence[pd.DataFrame] | None,
-                       book: ThresholdBook, max_examples: int) -> list[CheckResult]:
+                       book: Thresholds, max_examples: int) -> list[CheckResult]:
     known = series.in_actuals.copy()
     tables = ([] if known_series is None else [known_series]
               if isinstance(known_series, pd.DataFrame) else list(known_series))
@@ -209,7 +209,7 @@ def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.Dat
 
 
 def _series_count(series: SeriesIndex, previous: pd.DataFrame, keys: list[str],
-                  previous_label: str | None, book: ThresholdBook) -> CheckResult:
+                  previous_label: str | None, book: Thresholds) -> CheckResult:
     missing = [k for k in keys if k not in previous.columns]
     if missing:
         raise InputError(
@@ -251,7 +251,7 @@ def coverage_checks(
     frequency: str,
     horizon: int,
     active_periods: int,
-    book: ThresholdBook,
+    book: Thresholds,
     known_series: pd.DataFrame | Sequence[pd.DataFrame] | None = None,
     previous: pd.DataFrame | None = None,
     previous_label: str | None = None,

@@ -47,7 +47,7 @@ from accuracy_checks.checks.drift_rules import (
     control_limits,
     false_alarm_rate,
 )
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.measures.catalogue import measure_directions
 from accuracy_checks.measures.registry import measure_label
 from accuracy_checks.measures.wording import format_number, unit_suffix, value_words
@@ -157,7 +157,7 @@ def drift_measures(config: Config, results: Sequence[CheckResult]) -> list[str]:
         return reported
     if drift.measures:
         return [m for m in drift.measures if m in reported]
-    book = ThresholdBook(config)
+    book = Thresholds(config)
     return [m for m in reported if book.has_threshold(m)]
 
 

@@ -21,7 +21,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.examples import example_value, plural
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.series_index import (
     SegmentPart,
     Segments,
@@ -168,7 +168,7 @@ def _message(part: SegmentPart, details: dict[str, Any], grid: str) -> str:
 
 
 def horizon_results(series: SeriesIndex, segments: Segments, forecast: pd.DataFrame,
-                    keys: list[str], frequency: str, horizon: int, book: ThresholdBook,
+                    keys: list[str], frequency: str, horizon: int, book: Thresholds,
                     max_examples: int) -> list[CheckResult]:
     """``coverage.horizon`` for each reported segment (``"*"`` first)."""
     steps = horizon_steps(series, forecast, frequency, horizon)

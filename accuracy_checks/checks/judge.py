@@ -43,7 +43,6 @@ __all__ = [
     "BUILTIN_DEFAULTS",
     "Figure",
     "Judgement",
-    "ThresholdBook",
     "Thresholds",
     "breaks",
     "judge",
@@ -116,7 +115,7 @@ def judge(value: float | None, warn: Bound | None, fail: Bound | None, direction
 
 
 class Thresholds:
-    """The thresholds of one config, ready to judge values (formerly ``ThresholdBook``)."""
+    """The thresholds of one config, ready to judge values."""
 
     def __init__(self, config: Config) -> None:
         self._default = {**BUILTIN_DEFAULTS, **config.thresholds.default}
@@ -300,4 +299,3 @@ def _facts(measure: str, result: CheckResult) -> str:
 
 #: The former name of :class:`Thresholds`, kept for one release for check plugins that
 #: annotate with it (a deprecation warning follows once the package itself no longer uses it).
-ThresholdBook = Thresholds

@@ -9,7 +9,7 @@ The function is called once per run, after the built-in checks, as
 ``check(inputs, config, book) -> list[CheckResult]``: ``inputs`` are the run's canonical frames
 (:class:`~accuracy_checks.engine.Inputs`: forecast, actuals, earlier forecasts, mapping),
 ``config`` the validated config and ``book`` the :class:`~accuracy_checks.checks.judge.
-ThresholdBook` to judge figures with. Its results join the run like any other: they are
+Thresholds` to judge figures with. Its results join the run like any other: they are
 waivable, recorded in the audit trail and shown in every output. Their ``check`` names must
 start with the entry point's name (``promo_calendar`` or ``promo_calendar.<anything>``), so a
 plugin cannot pass itself off as a built-in check.

@@ -19,7 +19,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.examples import all_of, plural, row_examples, verb
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.results import ALL_SERIES, CheckResult, Reason, Status
 from accuracy_checks.sources.codes import combine_codes
 from accuracy_checks.sources.frames import SEGMENT, UNASSIGNED
@@ -183,7 +183,7 @@ def by_segment(segments: Segments, relevant: np.ndarray,
 # --------------------------------------------------------------------------- results
 
 
-def judged(book: ThresholdBook, *, check: str, measure: str, segment: str,
+def judged(book: Thresholds, *, check: str, measure: str, segment: str,
            value: float | None, unit: str, **fields: Any) -> CheckResult:
     """A coverage result whose ``value`` is judged against the levels of ``measure``."""
     judgement = book.judge(measure, segment, value)

@@ -32,7 +32,7 @@ from pydantic import ValidationError
 from accuracy_checks.checks.accuracy import run_accuracy
 from accuracy_checks.checks.actuals import actuals_checks
 from accuracy_checks.checks.coverage import coverage_checks
-from accuracy_checks.checks.judge import BUILTIN_DEFAULTS, ThresholdBook
+from accuracy_checks.checks.judge import BUILTIN_DEFAULTS, Thresholds
 from accuracy_checks.config import Config, Level, validate
 from accuracy_checks.gx.batch import NOTE, ROW_KIND, select_rows
 from accuracy_checks.measures.catalogue import load_config, measure_catalogue
@@ -70,8 +70,8 @@ _PLACEHOLDER_SOURCES: dict[str, Any] = {
 
 def threshold_book(measure: str | None = None, thresholds: Levels | None = None,
                    segment_thresholds: Mapping[str, Levels] | None = None,
-                   undefined_status: str = "warn") -> ThresholdBook:
-    """A :class:`~accuracy_checks.checks.judge.ThresholdBook` holding ``measure``'s levels, as if
+                   undefined_status: str = "warn") -> Thresholds:
+    """A :class:`~accuracy_checks.checks.judge.Thresholds` holding ``measure``'s levels, as if
     the config said ``thresholds.default.<measure>`` = ``thresholds`` and
     ``thresholds.segments.<segment>.<measure>`` = ``segment_thresholds[segment]``.
 
@@ -93,7 +93,7 @@ def threshold_book(measure: str | None = None, thresholds: Levels | None = None,
         config = validate(raw, measure_catalogue)
     except ValidationError as exc:
         raise ValueError(f"invalid levels for measure {measure!r}: {_problems(exc)}") from None
-    return ThresholdBook(config)
+    return Thresholds(config)
 
 
 def result_from_dict(data: Mapping[str, Any]) -> CheckResult:
@@ -210,7 +210,7 @@ def accuracy_payload(frame: pd.DataFrame, *, spec: Mapping[str, Any],
             "and 'actuals' rows (accuracy_checks.gx.stack_frames or batch_from_config)"
         )
     config = accuracy_config(spec)
-    results = run_accuracy(config, earlier, actuals, book=ThresholdBook(config))
+    results = run_accuracy(config, earlier, actuals, book=Thresholds(config))
     measures = measures_to_report(config)
     return {"results": [r.to_dict() for r in results], "measures": measures,
             "levels": {m: measure_levels(config, m) for m in measures}}
@@ -280,10 +280,10 @@ def _previous_label(previous: pd.DataFrame) -> str | None:
     return label
 
 
-def rejudge(results: Sequence[CheckResult], book: ThresholdBook) -> list[CheckResult]:
+def rejudge(results: Sequence[CheckResult], book: Thresholds) -> list[CheckResult]:
     """``results`` judged again by ``book``. A ``skipped`` result (nothing to judge) stays
     as it is; the others get the status and levels ``book`` gives their value, exactly as the
-    coverage checks judge (:meth:`ThresholdBook.judge`)."""
+    coverage checks judge (:meth:`Thresholds.judge`)."""
     out = []
     for r in results:
         if r.status == "skipped" or r.measure is None:

@@ -6,7 +6,7 @@ Each expectation is a :class:`~great_expectations.expectations.expectation.Batch
 CLI's own code on the batch (:mod:`accuracy_checks.gx.compute`), and results are judged by the
 CLI's own rules with the expectation's levels: accuracy inside
 :func:`~accuracy_checks.checks.accuracy.run_accuracy` (some measures turn levels into their own
-bounds), coverage with :meth:`~accuracy_checks.checks.judge.ThresholdBook.judge`. The expectation
+bounds), coverage with :meth:`~accuracy_checks.checks.judge.Thresholds.judge`. The expectation
 then gates on its ``severity``:
 
 - ``severity="critical"`` (GX's default) fails when a segment is ``fail`` (beyond its fail

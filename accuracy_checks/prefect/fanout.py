@@ -34,7 +34,7 @@ from prefect import task
 from prefect.cache_policies import NO_CACHE
 
 from accuracy_checks.checks.accuracy import NOT_DETAILS as _NOT_DETAILS
-from accuracy_checks.checks.judge import Figure, ThresholdBook, judge_figure, span_words
+from accuracy_checks.checks.judge import Figure, Thresholds, judge_figure, span_words
 from accuracy_checks.config import Config
 from accuracy_checks.measures.registry import get_measure
 from accuracy_checks.measures.selection import measure_settings, measures_to_report
@@ -151,7 +151,7 @@ def judge_stats(stats: pd.DataFrame, config: Config, *, window: str = "the windo
     row of merged statistics, judged and worded by the single-process gate's own
     :func:`~accuracy_checks.checks.judge.judge_figure`. ``window`` is the window in words
     (:attr:`EvaluationRows.window`)."""
-    book = ThresholdBook(config)
+    book = Thresholds(config)
     settings = measure_settings(config)
     min_obs = config.evaluation.min_obs
     lags = stats[F.LAG].to_numpy()

@@ -14,7 +14,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from accuracy_checks.checks.accuracy import accuracy_results
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.measures import CORE_MEASURES
 from accuracy_checks.measures.catalogue import parse_config
 
@@ -62,7 +62,7 @@ def test_segment_measures_equal_numpy(data: st.DataObject, n: int, n_seg: int) -
     lag = np.array(data.draw(st.lists(st.sampled_from([1, 2]), min_size=n, max_size=n)))
     frame = pd.DataFrame({"sku": [f"s{i % 7}" for i in range(n)], "segment": seg, "lag": lag,
                           "forecast": f, "actual": y})
-    results = accuracy_results(frame, keys=["sku"], book=ThresholdBook(CONFIG),
+    results = accuracy_results(frame, keys=["sku"], book=Thresholds(CONFIG),
                                measures=CORE_MEASURES, lags=[1, 2], min_obs=1,
                                window=[pd.Timestamp("2026-01-01")])
     # every segment seen (and "*") at every configured lag, with or without rows there
@@ -124,7 +124,7 @@ def test_huge_values_overflow_visibly_and_leave_other_groups_exact(data: st.Data
     seg = np.array(data.draw(st.lists(st.sampled_from(["a", "b"]), min_size=n, max_size=n)))
     frame = pd.DataFrame({"sku": [f"s{i % 5}" for i in range(n)], "segment": seg, "lag": 1,
                           "forecast": f, "actual": y})
-    results = accuracy_results(frame, keys=["sku"], book=ThresholdBook(HUGE_CONFIG),
+    results = accuracy_results(frame, keys=["sku"], book=Thresholds(HUGE_CONFIG),
                                measures=CORE_MEASURES, lags=[1], min_obs=1,
                                window=[pd.Timestamp("2026-01-01")])
     for s in [*sorted(set(seg)), "*"]:

@@ -28,7 +28,7 @@ import pytest
 from accuracy_checks import load_config, sources
 from accuracy_checks.checks.accuracy import accuracy_results
 from accuracy_checks.checks.actuals import INVALID_ACTUALS, actuals_checks
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.offenders import worst_offenders
 from accuracy_checks.cli.main import main
 from accuracy_checks.config import Config
@@ -177,7 +177,7 @@ def test_ordinary_figures_are_unchanged(make_project: Callable[..., Project]) ->
     config, earlier, actuals = _canonical(project)
     ev = evaluation_frame(earlier, actuals, keys=["store", "product"], frequency="W-MON",
                           lags=[1], window=2)
-    results = accuracy_results(ev.frame, keys=["store", "product"], book=ThresholdBook(config),
+    results = accuracy_results(ev.frame, keys=["store", "product"], book=Thresholds(config),
                                measures=["wape", "rmse"], lags=[1], min_obs=2,
                                window=ev.window)
     e = ev.frame["actual"].to_numpy() - ev.frame["forecast"].to_numpy()
@@ -203,7 +203,7 @@ def test_huge_error_is_judged_beyond_its_level_not_as_no_data(
     config, earlier, actuals = _canonical(make_project(earlier=_huge_earlier()))
     ev = evaluation_frame(earlier, actuals, keys=["store", "product"], frequency="W-MON",
                           lags=[1], window=2)
-    results = accuracy_results(ev.frame, keys=["store", "product"], book=ThresholdBook(config),
+    results = accuracy_results(ev.frame, keys=["store", "product"], book=Thresholds(config),
                                measures=["bias_pct", "wape", "rmse", "mae"], lags=[1],
                                min_obs=2, window=ev.window)
     by = {(r.segment, r.measure): r for r in results}
@@ -230,7 +230,7 @@ def test_only_warn_level_overflow_warns(make_project: Callable[..., Project]) ->
     ev = evaluation_frame(earlier, actuals, keys=["store", "product"], frequency="W-MON",
                           lags=[1], window=2)
     [tools] = [r for r in accuracy_results(ev.frame, keys=["store", "product"],
-                                           book=ThresholdBook(config), measures=["wape"],
+                                           book=Thresholds(config), measures=["wape"],
                                            lags=[1], min_obs=2, window=ev.window)
                if r.segment == "tools"]
     assert (tools.status, tools.reason) == ("warn", "overflow")
@@ -255,7 +255,7 @@ def test_offenders_of_an_overflowed_group_have_no_undefined_numbers() -> None:
 
 def test_infinite_value_breaks_a_level(make_project: Callable[..., Project]) -> None:
     config = load_config(make_project().config)
-    book = ThresholdBook(config)
+    book = Thresholds(config)
     assert book.judge("wape", "*", float("inf")).status == "fail"
     assert book.judge("bias_pct", "*", float("-inf")).status == "fail"
     assert book.judge("wape", "*", float("nan")).status == config.evaluation.undefined_status

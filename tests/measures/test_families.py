@@ -19,7 +19,7 @@ from sklearn import metrics as sk
 from statsmodels.tools import eval_measures as sm
 
 from accuracy_checks.checks.accuracy import accuracy_results
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.measures import functions as fn
 from accuracy_checks.measures.catalogue import parse_config
@@ -104,7 +104,7 @@ def engine(names: list[str], m: int = 1, costs: CostTable | None = None,
     rows["__series"] = index.codes_of(rows)
     settings = MeasureSettings(seasonal_period=m, quantiles=(0.1, 0.5, 0.9),
                                costs=costs or CostTable(default=(1.0, 1.0)))
-    return accuracy_results(rows, keys=["sku"], book=ThresholdBook(CONFIG),
+    return accuracy_results(rows, keys=["sku"], book=Thresholds(CONFIG),
                             measures=measures or MEASURES, lags=[1], min_obs=1,
                             window=[START], settings=settings, history=index,
                             frequency="W-MON")
@@ -325,7 +325,7 @@ def test_elec_equip_seasonal_naive_mase_regression() -> None:
     index = ActualsIndex(actuals, ["sku"], "MS")
     rows["__series"] = index.codes_of(rows)
     results = accuracy_results(
-        rows, keys=["sku"], book=ThresholdBook(CONFIG), measures=["mase", "fva_seasonal_naive"],
+        rows, keys=["sku"], book=Thresholds(CONFIG), measures=["mase", "fva_seasonal_naive"],
         lags=[1], min_obs=1, window=[dates[-1]], settings=MeasureSettings(seasonal_period=12),
         history=index, frequency="MS")
     (mase,) = [r for r in results if r.measure == "mase" and r.segment == "all"]

@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from accuracy_checks.checks.accuracy import accuracy_results
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.measures.data import CostTable, MeasureSettings
@@ -379,7 +379,7 @@ def test_every_registry_measure_equals_its_direct_formula(series: list[Series], 
     rows["__series"] = index.codes_of(rows)
     cfg = MeasureSettings(seasonal_period=m, trigg_alpha=alpha, quantiles=(0.1, 0.5, 0.9),
                           costs=COSTS)
-    results = accuracy_results(rows, keys=["sku"], book=ThresholdBook(CONFIG),
+    results = accuracy_results(rows, keys=["sku"], book=Thresholds(CONFIG),
                                measures=list(registry), lags=[1], min_obs=1,
                                window=[START], settings=cfg, history=index, frequency="W-MON")
     got = {(r.segment, r.measure, r.details.get("variant", "")): r.value for r in results}

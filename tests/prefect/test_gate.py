@@ -23,9 +23,9 @@ from prefect.states import Completed, Failed, State
 
 import accuracy_checks.prefect.gate as gate_module
 from accuracy_checks.cli.main import main as cli_main
-from accuracy_checks.config import load_config
 from accuracy_checks.engine import archived_cycles, evaluate
 from accuracy_checks.errors import ConfigError, GateFailed, InputError
+from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.prefect import (
     WARNED_STATE_NAME,
     check_forecast,

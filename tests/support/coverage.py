@@ -10,7 +10,7 @@ from collections.abc import Iterable, Sequence
 import pandas as pd
 
 from accuracy_checks.checks.coverage import coverage_checks
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult
 
@@ -32,9 +32,9 @@ thresholds:
 
 def book(
     thresholds: str = "  default: {}", *, frequency: str = "W-MON", horizon: int = 3
-) -> ThresholdBook:
+) -> Thresholds:
     text = CONFIG.format(frequency=frequency, horizon=horizon, thresholds=thresholds)
-    return ThresholdBook(parse_config(text))
+    return Thresholds(parse_config(text))
 
 
 def forecast(
@@ -94,7 +94,7 @@ def check(
     fc: pd.DataFrame,
     act: pd.DataFrame,
     *,
-    b: ThresholdBook | None = None,
+    b: Thresholds | None = None,
     frequency: str = "W-MON",
     horizon: int = 3,
     active_periods: int = 4,

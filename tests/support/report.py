@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 
 from accuracy_checks.checks.drift import drift_checks
-from accuracy_checks.checks.judge import ThresholdBook
+from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.config import Config
 from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult, RunReport
@@ -73,7 +73,7 @@ def segment_names(n: int, *, xss: bool = False) -> list[str]:
 
 
 def accuracy_results(segments: Sequence[str], k: int, rng: np.random.Generator,
-                     book: ThresholdBook, *, step_segment: str | None,
+                     book: Thresholds, *, step_segment: str | None,
                      step_from: int) -> list[CheckResult]:
     """WAPE and bias % at lags 1 and 4 per segment and "*", with worst-series examples on
     breaches. ``step_segment`` gets 15 points more WAPE and +9 % bias from ``step_from``."""
@@ -98,7 +98,7 @@ def accuracy_results(segments: Sequence[str], k: int, rng: np.random.Generator,
     return out
 
 
-def coverage_results(segments: Sequence[str], k: int, book: ThresholdBook) -> list[CheckResult]:
+def coverage_results(segments: Sequence[str], k: int, book: Thresholds) -> list[CheckResult]:
     out = []
     for i, seg in enumerate(["*", *segments]):
         missing = 2.5 if (k % 9 == 4 and i % 5 == 1) else 0.0
@@ -125,7 +125,7 @@ def build_store(root: Path, *, n_segments: int = 5, n_cycles: int = 12, xss: boo
     url = f"sqlite:///{root / 'audit.db'}"
     config = parse_config(CONFIG.format(store=url, n=drift_cycles, min_history=min_history,
                                         m=sustained), source=root / "accuracy-checks.yaml")
-    book = ThresholdBook(config)
+    book = Thresholds(config)
     rng = np.random.default_rng(seed)
     segments = list(names) if names is not None else segment_names(n_segments, xss=xss)
     step_seg = segments[1] if len(segments) > 1 else None
