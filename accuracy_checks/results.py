@@ -22,6 +22,7 @@ __all__ = [
     "JUDGED",
     "NEEDS_ATTENTION",
     "OPEN_FINDINGS",
+    "WAIVABLE",
     "Bound",
     "CheckResult",
     "Reason",
@@ -75,6 +76,8 @@ DISPLAY_ORDER: dict[str, int] = {s.value: i for i, s in enumerate(Status)}
 JUDGED: frozenset[str] = frozenset({Status.PASS, Status.WARN, Status.FAIL, Status.WAIVED})
 #: Statuses of a figure beyond a level (``waived`` included: the breach happened).
 BREACHED: frozenset[str] = frozenset({Status.WARN, Status.FAIL, Status.WAIVED})
+#: Statuses of a breach not (yet) waived: what an active waiver turns into ``waived``.
+WAIVABLE: frozenset[str] = frozenset({Status.WARN, Status.FAIL})
 #: Statuses that fail the gate.
 FAILING: frozenset[str] = frozenset({Status.FAIL, Status.ERROR})
 #: Findings nobody has waived: they fail the gate or warn.

@@ -8,7 +8,7 @@
 Nothing here is real: no company, brand, place or person.
 """
 
-from accuracy_checks.demo.narrator import run_demo, top_findings
+from accuracy_checks.demo.narrator import run_demo
 from accuracy_checks.demo.scenario import (
     PlantedProblems,
     Scenario,
@@ -22,5 +22,4 @@ __all__ = [
     "describe_planted",
     "generate_scenario",
     "run_demo",
-    "top_findings",
 ]

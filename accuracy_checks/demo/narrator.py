@@ -4,8 +4,8 @@
 (:func:`~accuracy_checks.demo.scenario.generate_scenario`) into a folder, runs
 :func:`~accuracy_checks.engine.run_checks` on each weekly cycle with the actuals known on its
 issue date, the way a weekly job would, and prints each verdict with its top findings
-(:func:`top_findings`), then the planted problems and what was written where. Light: it needs
-neither Prefect nor Great Expectations.
+(:func:`~accuracy_checks.outputs.findings.top_findings`), then the planted problems and what
+was written where. Light: it needs neither Prefect nor Great Expectations.
 """
 
 from __future__ import annotations
@@ -24,56 +24,10 @@ from accuracy_checks.demo.scenario import (
 from accuracy_checks.demo.world import HORIZON, N_STORES, SEGMENTS
 from accuracy_checks.engine import run_checks
 from accuracy_checks.measures.catalogue import load_config
-from accuracy_checks.results import CheckResult, RunReport
+from accuracy_checks.outputs.findings import top_findings
+from accuracy_checks.results import RunReport
 
-__all__ = ["run_demo", "top_findings"]
-
-
-def _finding(result: CheckResult) -> str:
-    """The result's message, led by its segment when the message does not name it."""
-    text = result.message
-    if not text:
-        parts = [result.check]
-        if result.lag is not None:
-            parts.append(f"lag {result.lag}")
-        if result.measure:
-            value = "undefined" if result.value is None else f"{result.value:.3g}"
-            parts.append(f"{result.measure} = {value}")
-        text = f"{result.status}: {', '.join(parts)}"
-    segment = result.segment
-    if segment and segment not in text:
-        text = f"{'all series' if segment == '*' else segment}: {text}"
-    return text
-
-
-_RANK = {"fail": 0, "error": 0, "warn": 1}
-
-
-def top_findings(report: RunReport, n: int = 3) -> list[str]:
-    """The ``n`` most important findings of a run, in plain words (each result's message).
-
-    Failures and errors come before warnings. Within a status, different kinds of finding
-    (check and measure) come before a second finding of the same kind, the all-series segment
-    ``"*"`` before single segments, and lower lags first: so a store missing from every
-    segment shows once, next to a biased segment, rather than six times.
-    """
-    bad = [r for r in report.results if r.status in _RANK]
-    bad.sort(
-        key=lambda r: (
-            _RANK[r.status],
-            0 if r.segment == "*" else 1,
-            r.lag if r.lag is not None else 0,
-        )
-    )
-    seen: set[tuple[str, str | None]] = set()
-    first: list[CheckResult] = []
-    repeats: list[CheckResult] = []
-    for r in bad:
-        kind = (r.check, r.measure)
-        (repeats if kind in seen else first).append(r)
-        seen.add(kind)
-    ordered = sorted(first, key=lambda r: _RANK[r.status]) + repeats
-    return [_finding(r) for r in ordered[:n]]
+__all__ = ["run_demo"]
 
 
 def _count_line(report: RunReport) -> str:

@@ -50,6 +50,7 @@ from prefect.states import Completed, Failed, State
 
 from accuracy_checks.config import Config
 from accuracy_checks.errors import GateFailed, UsageError
+from accuracy_checks.outputs.findings import top_findings
 from accuracy_checks.outputs.markdown import render_markdown
 from accuracy_checks.outputs.wording import (
     describe_threshold,
@@ -58,10 +59,9 @@ from accuracy_checks.outputs.wording import (
     result_label,
     status_word,
 )
-from accuracy_checks.results import RunReport, sort_for_display
+from accuracy_checks.results import FAILING, NEEDS_ATTENTION, RunReport, sort_for_display
 
 __all__ = [
-    "ATTENTION",
     "MAX_TABLE_ROWS",
     "WARNED_STATE_NAME",
     "Alert",
@@ -79,8 +79,6 @@ __all__ = [
 
 #: Name of the ``Completed`` state of a gate that passed with warnings.
 WARNED_STATE_NAME = "Completed with warnings"
-#: Statuses listed in the findings table artifact (the Markdown summary lists them too).
-ATTENTION: tuple[str, ...] = ("fail", "error", "warn", "waived")
 #: Rows of the findings table artifact before it is cut (the description says so).
 MAX_TABLE_ROWS = 500
 #: Findings named in a GateFailed message and in the warn state's message.
@@ -148,9 +146,8 @@ def run_gate(config: Config | str | Path, *, forecast_path: str | Path | None = 
 
 
 def findings(report: RunReport, n: int = MAX_FINDINGS) -> list[str]:
-    """The ``n`` most important findings of ``report`` in plain words (failures first)."""
-    from accuracy_checks.demo.narrator import top_findings
-
+    """The ``n`` most important findings of ``report`` in plain words (failures first;
+    :func:`~accuracy_checks.outputs.findings.top_findings`)."""
     return top_findings(report, n)
 
 
@@ -182,12 +179,13 @@ def gate_failed_state(report: RunReport, *, fail_on: str = "fail") -> State:
 
 
 def findings_table(report: RunReport, *, limit: int = MAX_TABLE_ROWS) -> list[dict[str, Any]]:
-    """Rows of the findings table artifact: one per result with a status in :data:`ATTENTION`,
+    """Rows of the findings table artifact: one per result with a status in
+    :data:`~accuracy_checks.results.NEEDS_ATTENTION` (the Markdown summary lists them too),
     failures first, at most ``limit``. Values are worded as in every other output (sign in
     words, percent in percent); every cell is a str or an int (JSON-safe)."""
     rows: list[dict[str, Any]] = []
     for r in sort_for_display(report.results):
-        if r.status not in ATTENTION:
+        if r.status not in NEEDS_ATTENTION:
             continue
         if len(rows) == limit:
             break
@@ -243,7 +241,7 @@ def _in_run() -> bool:
 
 def _publish_artifacts(report: RunReport, key: str, logger: Any) -> None:
     rows = findings_table(report)
-    n_attention = sum(r.status in ATTENTION for r in report.results)
+    n_attention = sum(r.status in NEEDS_ATTENTION for r in report.results)
     cut = f" (first {len(rows)} of {n_attention})" if n_attention > len(rows) else ""
     line = headline(report)
     try:
@@ -335,7 +333,7 @@ def check_forecast(
     if _in_run():
         _publish_artifacts(report, artifact_key, logger)
     for r in sort_for_display(report.results):
-        if r.status in ("fail", "error"):
+        if r.status in FAILING:
             logger.error(f"{status_word(r.status)} {result_label(r)}: {r.message}")
         elif r.status == "warn":
             logger.warning(f"{status_word(r.status)} {result_label(r)}: {r.message}")

@@ -1,5 +1,6 @@
 """Building blocks of the report's sections: tables, figures, status cells, chart ids, and
 the words and orders every section shares (segment names, measure labels and order, bands).
+Everything about a measure (label, direction, order) comes from the measure registry.
 
 Every string from the data goes through :func:`~accuracy_checks.report.svg.esc`; no id or
 attribute value comes from the data (chart ids are counted by :class:`ChartIds`).
@@ -12,15 +13,12 @@ from collections.abc import Sequence
 from typing import Any
 
 from accuracy_checks.measures.catalogue import measure_directions
-from accuracy_checks.measures.registry import measure_label
+from accuracy_checks.measures.registry import display_order, headline_measures, measure_label
 from accuracy_checks.outputs.wording import format_example_value, format_number
 from accuracy_checks.report.svg import Band, esc, legend_swatch
 from accuracy_checks.results import ALL_SERIES, DISPLAY_ORDER, CheckResult
 
 __all__ = [
-    "BREACHED",
-    "JUDGED",
-    "MEASURE_ORDER",
     "ChartIds",
     "band_of",
     "directions",
@@ -37,13 +35,6 @@ __all__ = [
     "variant_of",
 ]
 
-#: preferred order of measures in the charts
-MEASURE_ORDER = ("wape", "bias_pct", "mape", "mae", "rmse", "sde", "me", "mase", "smape",
-                 "tracking_signal")
-#: statuses whose value is drawn in a trend chart
-JUDGED = ("pass", "warn", "fail", "waived")
-#: statuses of a figure that breached a threshold
-BREACHED = ("warn", "fail", "waived")
 
 
 class ChartIds:
@@ -111,9 +102,17 @@ def directions() -> dict[str, str]:
 
 
 def order_measures(measures: Sequence[str]) -> list[str]:
-    """The distinct measures in :data:`MEASURE_ORDER`, the others after them by name."""
-    rank = {m: i for i, m in enumerate(MEASURE_ORDER)}
-    return sorted(set(measures), key=lambda m: (rank.get(m, len(rank)), m))
+    """The distinct measures in the report's order: the candidate headline figures first,
+    best first (:func:`~accuracy_checks.measures.registry.headline_measures`), then the others
+    in the registry's table order (:func:`~accuracy_checks.measures.registry.display_order`;
+    unknown ids last, by id).
+
+    >>> order_measures(["me", "bias_pct", "zz", "wape", "pinball", "wape"])
+    ['wape', 'bias_pct', 'me', 'pinball', 'zz']
+    """
+    distinct = set(measures)
+    headline = [m for m in headline_measures() if m in distinct]
+    return headline + display_order(distinct.difference(headline))
 
 
 def band_of(r: CheckResult | dict[str, Any], directions: dict[str, str]) -> Band | None:

@@ -29,6 +29,7 @@ from accuracy_checks.report.svg import (
     tick_text,
     zone_rects,
 )
+from accuracy_checks.results import NEEDS_ATTENTION
 
 __all__ = [
     "DotRow",
@@ -313,7 +314,7 @@ def _line_path(ln: Line, n: int, f: _Frame, status_pts: dict[str, list[tuple[flo
         d.append(f"{'L' if run else 'M'}{px(gx)} {px(gy)}")
         run += 1
         st = ln.statuses[k] if k < len(ln.statuses) else "pass"
-        if st in ("warn", "fail", "waived", "error"):
+        if st in NEEDS_ATTENTION:
             status_pts.setdefault(st, []).append((gx, gy))
     if run == 1:
         d.append("l0 0")

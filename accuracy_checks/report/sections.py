@@ -10,6 +10,7 @@ from __future__ import annotations
 import math
 from collections.abc import Sequence
 
+from accuracy_checks.measures.registry import get_measure, headline_measures
 from accuracy_checks.outputs.wording import (
     describe_threshold,
     describe_value,
@@ -17,13 +18,13 @@ from accuracy_checks.outputs.wording import (
     unit_of,
 )
 from accuracy_checks.report.blocks import (
-    MEASURE_ORDER,
     ChartIds,
     band_of,
     example_text,
     html_figure,
     html_table,
     measure_label,
+    order_measures,
     segment_name,
     segment_order,
     status_cell,
@@ -33,9 +34,16 @@ from accuracy_checks.report.blocks import (
 from accuracy_checks.report.charts import DotRow, bias_chart, dot_chart
 from accuracy_checks.report.data import ReportData
 from accuracy_checks.report.svg import esc
-from accuracy_checks.results import ALL_SERIES, DISPLAY_ORDER, CheckResult
+from accuracy_checks.results import (
+    ALL_SERIES,
+    BREACHED,
+    DISPLAY_ORDER,
+    NEEDS_ATTENTION,
+    WAIVABLE,
+    CheckResult,
+)
 
-__all__ = ["MAX_WORST_RESULTS", "bias_section", "coverage_section", "drift_section",
+__all__ = ["MAX_WORST_RESULTS", "bias_measure", "bias_section", "coverage_section", "drift_section",
            "findings_table", "measures_section", "waivers_section", "worst_section"]
 
 #: breached results whose worst series are listed
@@ -62,9 +70,8 @@ def measures_section(latest: list[CheckResult], ids: ChartIds,
     if not judged:
         out.append("<p>No accuracy measure with thresholds in the latest run.</p>")
     order = segment_order(latest)
-    rank = {m: i for i, m in enumerate(MEASURE_ORDER)}
-    for (measure, lag, variant) in sorted(judged, key=lambda k: (
-            rank.get(k[0], len(rank)), k[0], k[1] or 0, k[2])):
+    rank = {m: i for i, m in enumerate(order_measures([k[0] for k in judged]))}
+    for (measure, lag, variant) in sorted(judged, key=lambda k: (rank[k[0]], k[1] or 0, k[2])):
         rows_r = sorted(judged[(measure, lag, variant)],
                         key=lambda r: order.get(r.segment or ALL_SERIES, 0))
         out += _measure_chart(rows_r, measure, lag, variant, ids, directions)
@@ -90,7 +97,7 @@ def _measure_chart(rows_r: list[CheckResult], measure: str, lag: int | None, var
     label = measure_label(measure) + (f" ({variant})" if variant else "")
     rows = [DotRow(segment_name(r.segment), r.value, r.status, describe_value(r),
                    band_of(r, directions)) for r in rows_r]
-    n_bad = sum(r.status in ("warn", "fail") for r in rows_r)
+    n_bad = sum(r.status in WAIVABLE for r in rows_r)
     title = f"{label} at lag {lag} by segment, latest run"
     desc = (f"{len(rows)} segments; {n_bad} breach a threshold. "
             + "; ".join(f"{row.label}: {row.text} ({row.status})" for row in rows[:12])
@@ -105,15 +112,24 @@ def _measure_chart(rows_r: list[CheckResult], measure: str, lag: int | None, var
                         table)]
 
 
+def bias_measure(latest: list[CheckResult]) -> str | None:
+    """The bias measure the latest run reports, if any: the first centred candidate headline
+    measure (:func:`~accuracy_checks.measures.registry.headline_measures`: ``bias_pct``, then
+    ``me``) among its accuracy results."""
+    reported = {r.measure for r in latest if r.check == "accuracy"}
+    return next((m for m in headline_measures()
+                 if m in reported and get_measure(m).direction == "centered"), None)
+
+
 def bias_section(latest: list[CheckResult], ids: ChartIds) -> str:
-    """Diverging bars of the bias measure (``bias_pct``, else ``me``) per segment, per lag."""
+    """Diverging bars of the bias measure (:func:`bias_measure`) per segment, per lag."""
     out = ['<section id="bias"><h2>Bias direction per segment</h2>',
            "<p>Error = actual − forecast. Bars to the right (solid) mean the actuals came in "
            "above the forecast: <strong>under-forecast</strong>; bars to the left (hatched) "
            "mean <strong>over-forecast</strong>. Each bar says so in words.</p>"]
-    measure = "bias_pct" if any(r.measure == "bias_pct" for r in latest) else "me"
+    measure = bias_measure(latest)
     acc = [r for r in latest if r.check == "accuracy" and r.measure == measure]
-    if not acc:
+    if measure is None or not acc:
         out.append("<p>The latest run reports no bias measure.</p></section>")
         return "".join(out)
     order = segment_order(latest)
@@ -128,7 +144,7 @@ def bias_section(latest: list[CheckResult], ids: ChartIds) -> str:
                 + "; ".join(f"{a}: {c}" for a, _, c in rows[:12])
                 + (" …" if len(rows) > 12 else ""))
         svg = bias_chart(rows, title=title, desc=desc, uid=ids(),
-                         unit="%" if measure == "bias_pct" else "")
+                         unit="%" if get_measure(measure).unit == "%" else "")
         table = html_table(["segment", "bias", "status", "thresholds"],
                            [[segment_name(r.segment), describe_value(r), r.status.upper(),
                              describe_threshold(r)] for r in rs])
@@ -146,8 +162,8 @@ def coverage_section(latest: list[CheckResult]) -> str:
     out = ['<section id="coverage"><h2>Coverage findings</h2>',
            "<p>Is the latest forecast whole: every active series forecast, every horizon step "
            "present, valid values.</p>"]
-    bad = [r for r in found if r.status not in ("pass", "skipped")]
-    good = [r for r in found if r.status in ("pass", "skipped")]
+    bad = [r for r in found if r.status in NEEDS_ATTENTION]
+    good = [r for r in found if r.status not in NEEDS_ATTENTION]
     if not found:
         out.append("<p>The latest run has no coverage or output results.</p>")
     if bad:
@@ -197,12 +213,12 @@ def drift_section(latest: list[CheckResult]) -> str:
                    "earlier cycles).</p></section>")
         return "".join(out)
     found.sort(key=lambda r: (DISPLAY_ORDER.get(r.status, 9), r.check, str(r.segment)))
-    bad = [r for r in found if r.status not in ("pass", "skipped")]
+    bad = [r for r in found if r.status in NEEDS_ATTENTION]
     counts = {s: sum(r.status == s for r in found) for s in DISPLAY_ORDER}
     out.append(f"<p>{esc(', '.join(f'{v} {k}' for k, v in counts.items() if v))}.</p>")
     if bad:
         out.append(findings_table(bad))
-    rest = [r for r in found if r.status in ("pass", "skipped")]
+    rest = [r for r in found if r.status not in NEEDS_ATTENTION]
     if rest:
         out.append(f"<details><summary>Within limits or not yet judged ({len(rest)})"
                    f"</summary>{findings_table(rest, messages=False)}</details>")
@@ -238,7 +254,7 @@ def worst_section(latest: list[CheckResult]) -> str:
            "most to the segment's error (or to its bias, for bias measures). Error = actual − "
            "forecast: positive is under-forecast.</p>"]
     found = [r for r in latest if r.examples and r.check == "accuracy"
-             and r.status in ("warn", "fail", "waived")]
+             and r.status in BREACHED]
     found.sort(key=lambda r: (DISPLAY_ORDER.get(r.status, 9), str(r.segment), r.measure or ""))
     if not found:
         out.append("<p>No breached accuracy result lists worst series.</p></section>")

@@ -14,7 +14,6 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.report.blocks import (
-    BREACHED,
     ChartIds,
     html_figure,
     html_table,
@@ -23,6 +22,7 @@ from accuracy_checks.report.blocks import (
 )
 from accuracy_checks.report.charts import timeline_chart
 from accuracy_checks.report.data import ReportData
+from accuracy_checks.results import BREACHED
 
 if TYPE_CHECKING:
     from accuracy_checks.store.waivers import Waiver

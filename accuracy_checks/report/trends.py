@@ -14,8 +14,6 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.report.blocks import (
-    BREACHED,
-    JUDGED,
     ChartIds,
     html_figure,
     html_table,
@@ -29,12 +27,16 @@ from accuracy_checks.report.blocks import (
 from accuracy_checks.report.charts import Line, TrendSpec, trend_chart
 from accuracy_checks.report.data import ReportData
 from accuracy_checks.report.svg import LAG_STYLES, Band, esc, legend_swatch
-from accuracy_checks.results import ALL_SERIES, CheckResult
+from accuracy_checks.results import ALL_SERIES, BREACHED, JUDGED, CheckResult
 
 __all__ = ["MAX_TREND_SEGMENTS", "legend", "trend_section"]
 
 #: segments that get trend charts (the breached ones first); the rest are listed by name
 MAX_TREND_SEGMENTS = 150
+
+#: the status sets as plain text, for numpy's isin
+_BREACHED = sorted(str(s) for s in BREACHED)
+_JUDGED = sorted(str(s) for s in JUDGED)
 
 #: a lag's values and statuses per cycle (NaN and "skipped" where it has none)
 _Grid = tuple[np.ndarray, np.ndarray]
@@ -179,7 +181,7 @@ def _trend_spec(rows: np.ndarray, col: dict[str, np.ndarray], n: int, lags: list
     spec = TrendSpec(cycles, lines, bands, limits, signals)
     first = grids.get(first_lag)
     defined = first[0][np.isfinite(first[0])] if first is not None else np.array([])
-    breaches = sum(int(np.isin(g[1].astype(str), BREACHED).sum()) for g in grids.values())
+    breaches = sum(int(np.isin(g[1].astype(str), _BREACHED).sum()) for g in grids.values())
     summary = (f"{defined.size} of {n} cycles measured at lag {first_lag}"
                + (f"; first {num_text(defined[0])}, last {num_text(defined[-1])}, lowest "
                   f"{num_text(defined.min())}, highest {num_text(defined.max())}"
@@ -194,7 +196,7 @@ def _lag_grid(sel: np.ndarray, col: dict[str, np.ndarray], n: int) -> _Grid:
     status = col["status"][sel].astype(str)
     value = col["value"][sel].astype(np.float64)
     values = np.full(n, np.nan)
-    values[ci] = np.where(np.isin(status, JUDGED), value, np.nan)
+    values[ci] = np.where(np.isin(status, _JUDGED), value, np.nan)
     statuses = np.full(n, "skipped", dtype=object)
     statuses[ci] = status
     return values, statuses

@@ -14,12 +14,13 @@ from typing import Any
 
 from sqlalchemy import ColumnElement, Connection, and_, case, false, func, or_, select
 
+from accuracy_checks.results import BREACHED, JUDGED
 from accuracy_checks.store.schema import results, runs
 
-#: result statuses that count as a breach in :func:`breaches` (a waived breach still is one)
-BREACH = ("warn", "fail", "waived")
-#: result statuses that judge a figure (skipped and error ones say nothing about it)
-JUDGED = ("pass", "warn", "fail", "waived")
+# the status sets as plain text for SQL filters: a breach in :func:`breaches` (a waived breach
+# still is one); a judged figure (skipped and error results say nothing about it)
+_BREACHED = sorted(str(s) for s in BREACHED)
+_JUDGED = sorted(str(s) for s in JUDGED)
 
 RUN_COLUMNS = (
     "run_id", "cycle", "attempt", "status", "started_at", "finished_at", "recorded_at",
@@ -146,7 +147,7 @@ def breaches(conn: Connection, *, segment: str | None = None,
     """
     key = [results.c.check_name, results.c.segment, results.c.measure, results.c.lag]
     where: list[ColumnElement[bool]] = [
-        results.c.measure.is_not(None), runs.c.cycle.is_not(None), results.c.status.in_(JUDGED)]
+        results.c.measure.is_not(None), runs.c.cycle.is_not(None), results.c.status.in_(_JUDGED)]
     if segment is not None:
         where.append(results.c.segment == segment)
     if measure is not None:
@@ -170,7 +171,7 @@ def breaches(conn: Connection, *, segment: str | None = None,
         .cte("ranked")
     )
     rkey = [ranked.c.check_name, ranked.c.segment, ranked.c.measure, ranked.c.lag]
-    first_ok = func.min(case((~ranked.c.status.in_(BREACH), ranked.c.k), else_=None)) \
+    first_ok = func.min(case((~ranked.c.status.in_(_BREACHED), ranked.c.k), else_=None)) \
         .over(partition_by=rkey)
     n = func.count().over(partition_by=rkey)
     streaked = select(ranked, first_ok.label("first_ok"), n.label("n")).cte("streaked")
@@ -183,7 +184,7 @@ def breaches(conn: Connection, *, segment: str | None = None,
     ).cte("final")
     q = (
         select(final)
-        .where(and_(final.c.k == 1, final.c.status.in_(BREACH)))
+        .where(and_(final.c.k == 1, final.c.status.in_(_BREACHED)))
         .order_by(final.c.segment, final.c.measure, final.c.lag, final.c.check_name)
     )
     out = []

@@ -22,11 +22,8 @@ from typing import Any
 
 from sqlalchemy import Connection, select
 
-from accuracy_checks.results import CheckResult
+from accuracy_checks.results import WAIVABLE, CheckResult
 from accuracy_checks.store.schema import waiver_revocations, waivers
-
-#: statuses a waiver turns into ``waived``; a check error is never waived
-WAIVABLE = ("warn", "fail")
 
 
 @dataclasses.dataclass(frozen=True)
@@ -112,7 +109,8 @@ def pick(candidates: Iterable[Waiver], result: CheckResult) -> Waiver | None:
 
 
 def apply_waivers(results: Sequence[CheckResult], active: Sequence[Waiver]) -> list[CheckResult]:
-    """``results`` with each warn/fail result covered by an active waiver set to ``waived``.
+    """``results`` with each warn/fail result (:data:`~accuracy_checks.results.WAIVABLE`; a
+    check error is never waived) covered by an active waiver set to ``waived``.
 
     The message starts with who waived it, until when and why; ``details["waiver"]`` holds
     the waiver (``id``, ``by``, ``until``, ``reason``) and ``details["waived_status"]`` the

@@ -7,7 +7,7 @@ from pathlib import Path
 
 import pytest
 
-from accuracy_checks.demo.narrator import run_demo, top_findings
+from accuracy_checks.demo.narrator import run_demo
 from accuracy_checks.demo.scenario import generate_scenario
 from accuracy_checks.errors import UsageError
 from accuracy_checks.results import RunReport
@@ -56,29 +56,3 @@ def test_run_demo_tells_the_story(tmp_path: Path) -> None:
     text = "\n".join(lines)
     assert "FAIL" in text and "accuracy-checks run --config" in text
     assert "invented" in text
-
-
-def test_top_findings_put_failures_and_distinct_kinds_first() -> None:
-    from accuracy_checks.results import CheckResult
-
-    def result(status: str, check: str, segment: str, measure: str, msg: str,
-               lag: int | None = None) -> CheckResult:
-        return CheckResult(check, status, segment=segment, lag=lag,  # type: ignore[arg-type]
-                           measure=measure, message=msg)
-
-    report = RunReport(
-        run_id="x", cycle="2025-05-12", attempt=1, started_at="", finished_at="",
-        results=[
-            result("pass", "accuracy", "*", "wape", "fine", lag=1),
-            result("warn", "coverage.series_count", "*", "series_count_change_pct", "fewer"),
-            result("fail", "coverage.missing_series", "tools", "missing_series_pct", "12 % gone"),
-            result("fail", "coverage.missing_series", "*", "missing_series_pct", "store gone"),
-            result("fail", "accuracy", "pet-care", "bias_pct", "under-forecast by 13 %", lag=1),
-        ],
-    )
-    assert top_findings(report) == [
-        "all series: store gone",  # all series before a single segment
-        "pet-care: under-forecast by 13 %",  # a second kind of failure before a repeat
-        "all series: fewer",  # then warnings, before repeats of a failure already shown
-    ]
-    assert top_findings(report, n=5)[3:] == ["tools: 12 % gone"]
