@@ -73,6 +73,12 @@ Timestamp = DateTime(timezone=True)
 
 metadata = MetaData()
 
+
+def _texts(*names: str) -> list[Column[str]]:
+    """Nullable ``TEXT`` columns of these names, in this order (free text or JSON documents)."""
+    return [Column(name, Text) for name in names]
+
+
 schema_version = Table(
     "schema_version",
     metadata,
@@ -93,13 +99,9 @@ runs = Table(
     Column("finished_at", Timestamp),
     Column("recorded_at", Timestamp, nullable=False),
     Column("tool_version", String(32), nullable=False),
-    Column("config_path", Text),
-    Column("config_text", Text),
+    *_texts("config_path", "config_text"),
     Column("config_hash", String(64)),
-    Column("inputs", Text),
-    Column("evaluated_cycles", Text),
-    Column("counts", Text),
-    Column("snapshot", Text),
+    *_texts("inputs", "evaluated_cycles", "counts", "snapshot"),
     Column("host", String(255)),
     Column("os_user", String(255)),
     Column("label", Text),
@@ -120,8 +122,7 @@ results = Table(
     Column("lag", Integer),
     Column("measure", String(64)),
     Column("value", Float),
-    Column("warn", Text),
-    Column("fail", Text),
+    *_texts("warn", "fail"),
     Column("n_series", BigInteger),
     Column("n_obs", BigInteger),
     Column("message", Text),

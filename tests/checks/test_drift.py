@@ -25,26 +25,16 @@ from accuracy_checks.errors import ConfigError
 from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult
 from accuracy_checks.store import open_store
+from tests.support.configs import levels, small_config
 from tests.support.project import CURRENT, EARLIER, Project
 from tests.support.store import make_report, store_url_fixture  # noqa: F401  (fixture)
 
-CONFIG = """\
-version: 1
-forecast: {{path: f.csv, keys: [store, product], period: week, value: units, issued: issued_on}}
-actuals: {{path: a.csv, period: week, value: units_sold}}
-store: {store}
-frequency: W-MON
-horizon: 13
-thresholds:
-  default:
-    wape: {{warn: 30, fail: 45}}
-    bias_pct: {{warn: 5, fail: 10}}
-drift: {{{drift}}}
-"""
-
 
 def config_for(store: str = "sqlite:///unused.db", drift: str = "") -> object:
-    return parse_config(CONFIG.format(store=store, drift=drift))
+    """A config of the given store, WAPE 30/45 and bias 5/10 %, and ``drift: {<drift>}``."""
+    return parse_config(small_config(
+        store=store, thresholds={"default": {"wape": levels(30, 45), "bias_pct": levels(5, 10)}},
+        drift=f"{{{drift}}}"))
 
 
 # --------------------------------------------------------------- from the audit trail

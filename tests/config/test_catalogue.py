@@ -20,14 +20,9 @@ from accuracy_checks.measures.catalogue import (
     parse_config,
 )
 from accuracy_checks.measures.registry import registered_measures
+from tests.support.configs import small_config
 
-BASE = """\
-version: 1
-forecast: {path: f.csv, keys: [store], period: week, value: units, issued: issued_on}
-actuals: {path: a.csv, period: week, value: units_sold}
-frequency: W-MON
-horizon: 13
-"""
+BASE = small_config(keys="[store]")
 SOURCE = Path("/cfg/accuracy-checks.yaml")
 
 

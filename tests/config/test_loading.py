@@ -10,15 +10,10 @@ import pytest
 
 from accuracy_checks.errors import ConfigError
 from accuracy_checks.measures.catalogue import json_schema, load_config, parse_config
+from tests.support.configs import small_config
 from tests.support.paths import REPO
 
-BASE = """\
-version: 1
-forecast: {path: f.csv, keys: [store, product], period: week, value: units, issued: issued_on}
-actuals: {path: a.csv, period: week, value: units_sold}
-frequency: W-MON
-horizon: 13
-"""
+BASE = small_config()
 
 
 def parse(extra: str = "", base: str = BASE) -> object:
@@ -90,29 +85,24 @@ def test_pair_bounds_only_for_centred_measures() -> None:
     assert "[low, high] pair only suits" in msg
 
 
-def test_horizon_must_be_positive() -> None:
-    msg = error_of(base=BASE.replace("horizon: 13", "horizon: 0"))
-    assert "`horizon`" in msg and "at least 1" in msg
+@pytest.mark.parametrize(("old", "new", "expected"), [
+    pytest.param("horizon: 13", "horizon: 0", ["`horizon`", "at least 1"],
+                 id="horizon-must-be-positive"),
+    pytest.param("W-MON", "fortnightly", ["`frequency`", "offset alias"], id="bad-frequency"),
+    pytest.param("frequency: W-MON\n", "", ["`frequency` is required"],
+                 id="missing-required-key"),
+    pytest.param("keys: [store, product]", "keys: [store, period]", ["reserved"],
+                 id="reserved-key-column-name"),
+])
+def test_a_broken_base_value_is_named(old: str, new: str, expected: list[str]) -> None:
+    assert old in BASE
+    msg = error_of(base=BASE.replace(old, new))
+    assert all(part in msg for part in expected), msg
 
 
 def test_lags_within_the_horizon() -> None:
     msg = error_of("evaluation: {lags: [1, 14]}\n")
     assert "[14] lie beyond the horizon of 13" in msg
-
-
-def test_bad_frequency() -> None:
-    msg = error_of(base=BASE.replace("W-MON", "fortnightly"))
-    assert "`frequency`" in msg and "offset alias" in msg
-
-
-def test_missing_required_key() -> None:
-    msg = error_of(base=BASE.replace("frequency: W-MON\n", ""))
-    assert "`frequency` is required" in msg
-
-
-def test_reserved_key_column_name() -> None:
-    msg = error_of(base=BASE.replace("keys: [store, product]", "keys: [store, period]"))
-    assert "reserved" in msg
 
 
 def test_yaml_errors_and_duplicate_keys_name_the_line() -> None:

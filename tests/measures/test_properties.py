@@ -201,14 +201,22 @@ def d_smape(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:
     return {"": _per_series_mean(series, one)}
 
 
-def d_mase(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:
+def _scaled_mean(series: list[Series], m: int, rows_of: Callable[[list[Any]], list[Any]],
+                 loss: Callable[[Any], float]) -> float:
+    """The mean over series of (the mean ``loss`` of a series' ``rows_of`` rows) / its naive
+    scale at season ``m``; a series with no rows or no positive scale is left out."""
     def one(s: Series) -> float:
-        rows = _usable(_pooled_rows([s]))
-        scale = _scale(s, cfg.seasonal_period)
+        rows = rows_of(_pooled_rows([s]))
+        scale = _scale(s, m)
         if not rows or math.isnan(scale) or scale == 0:
             return NAN
-        return sum(abs(y - f) for _, _, y, f, _, _ in rows) / len(rows) / scale
-    return {"": _per_series_mean(series, one)}
+        return sum(loss(r) for r in rows) / len(rows) / scale
+    return _per_series_mean(series, one)
+
+
+def d_mase(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:
+    return {"": _scaled_mean(series, cfg.seasonal_period, _usable,
+                             lambda r: abs(r[2] - r[3]))}
 
 
 def _period_errors(series: list[Series]) -> list[float]:
@@ -291,13 +299,8 @@ def d_mis(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:
 
 
 def d_msis(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:
-    def one(s: Series) -> float:
-        rows = _interval(_pooled_rows([s]))
-        scale = _scale(s, cfg.seasonal_period)
-        if not rows or math.isnan(scale) or scale == 0:
-            return NAN
-        return sum(_score(y, lo, hi) for _, _, y, _, lo, hi in rows) / len(rows) / scale
-    return {"80%": _per_series_mean(series, one)}
+    return {"80%": _scaled_mean(series, cfg.seasonal_period, _interval,
+                                lambda r: _score(r[2], r[4], r[5]))}
 
 
 def d_error_cost(series: list[Series], cfg: MeasureSettings) -> dict[str, float]:

@@ -1,5 +1,6 @@
 """The Prefect integration without a Prefect server: the gate task's body (``task.fn``), the
-example pipelines' forecaster, the plain CI step and the fan-out's mergeable statistics.
+example pipelines' forecaster and the plain CI step (the fan-out's mergeable statistics:
+``test_fanout.py``).
 
 Flow-level tests against a Prefect server are in ``test_flows.py`` (one test harness).
 """
@@ -31,13 +32,6 @@ from accuracy_checks.prefect import (
     check_forecast,
     findings_table,
     first_failure,
-)
-from accuracy_checks.prefect.fanout import (
-    evaluation_rows,
-    judge_stats,
-    merge_partition_stats,
-    partition_stats,
-    segment_partitions,
 )
 from accuracy_checks.results import RunReport
 from accuracy_checks.sources.load import load_inputs
@@ -364,55 +358,6 @@ def test_ci_gate_publishes_only_what_passes(make_project: Make, tmp_path: Path,
     assert ci_gate.main(["--config", str(project.config), "--publish-dir",
                          str(published)]) == 2
     assert "segmnts" in capsys.readouterr().err and not published.exists()
-
-
-# --------------------------------------------------------------------------- fan-out statistics
-
-
-@pytest.fixture(scope="module")
-def demo_latest(tmp_path_factory: pytest.TempPathFactory) -> Path:
-    """The demo's final-cycle config (every actual, the job's recent cycles as history)."""
-    from accuracy_checks.demo.scenario import generate_scenario
-    from flows.demo_nightly import LATEST_CONFIG, latest_config_text
-
-    scenario = generate_scenario(tmp_path_factory.mktemp("demo"))
-    path = scenario.out_dir / LATEST_CONFIG
-    path.write_text(latest_config_text(scenario), encoding="utf-8")
-    return path
-
-
-def single_process(config_path: Path) -> dict[tuple[str | None, int | None, str | None], Any]:
-    config = load_config(config_path)
-    results = evaluate(config, load_inputs(config, archive=archived_cycles(config)))
-    return {(r.segment, r.lag, r.measure): r for r in results if r.check == "accuracy"}
-
-
-@pytest.mark.parametrize("n_parts", [1, 2, 7])
-def test_fanned_out_statistics_equal_the_single_process_figures(demo_latest: Path,
-                                                                n_parts: int) -> None:
-    config = load_config(demo_latest)
-    rows = evaluation_rows(config)
-    parts = segment_partitions(rows.frame, n_parts)
-    assert len(parts) == min(n_parts, 5)  # five demo segments
-    assert sum(map(len, parts)) == len(rows.frame)
-    for part in parts:  # whole segments only
-        assert not set(part["segment"].astype(str)) & set().union(
-            *(set(p["segment"].astype(str)) for p in parts if p is not part))
-    stats = merge_partition_stats([partition_stats(p, rows.keys) for p in parts])
-    fanned = judge_stats(stats, config, window=rows.window)
-    reference = single_process(demo_latest)
-    assert len(fanned) == 7 * 6 * 2  # core measures × (5 segments + "*") × lags 1 and 4
-    assert {r.status for r in fanned} >= {"pass", "fail"}
-    for r in fanned:
-        ref = reference[(r.segment, r.lag, r.measure)]
-        assert (r.status, r.n_obs, r.n_series, r.warn, r.fail, r.reason) == (
-            ref.status, ref.n_obs, ref.n_series, ref.warn, ref.fail, ref.reason), r
-        if r.segment != "*":  # the same rows in the same order: bit for bit
-            assert r.value == ref.value, r
-        elif ref.value is None:
-            assert r.value is None
-        else:  # merged from the segments (parallel variance formula): to rounding
-            assert r.value == pytest.approx(ref.value, rel=1e-12, abs=1e-12), r
 
 
 def test_forecaster_doctests() -> None:

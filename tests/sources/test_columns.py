@@ -27,7 +27,7 @@ from accuracy_checks.sources.columns import (
     to_key,
     to_number,
 )
-from tests.support.sources import config, forecast_text, read_error
+from tests.support.sources import config, forecast_text, read_error, week_format
 
 # ----------------------------------------------------------------------- keys are text
 
@@ -121,7 +121,7 @@ def test_a_column_mixing_iso_and_day_month_year_is_refused(tmp_path: Path) -> No
 
 def test_an_explicit_format_reads_day_month_year_and_refuses_iso(tmp_path: Path) -> None:
     (tmp_path / "f.csv").write_text(forecast_text(["P1", "P2"], ["02/03/2026", "09/03/2026"]))
-    cfg = config(tmp_path, forecast_extra='  date_formats: {week: "%d/%m/%Y"}\n')
+    cfg = config(tmp_path, forecast_more=week_format("%d/%m/%Y"))
     frame = sources.read_forecast(cfg)
     # 9 March, not 3 September
     assert frame["period"].tolist() == [pd.Timestamp("2026-03-02"), pd.Timestamp("2026-03-09")]
@@ -138,7 +138,7 @@ def test_dates_of_digits_only_keep_their_leading_zeros(tmp_path: Path, fmt: str,
                                                        written: str) -> None:
     text = f"store,product,week,units_sold\nS1,P1,{written},1\nS1,P2,{written},2\n"
     (tmp_path / "a.csv").write_text(text)
-    cfg = config(tmp_path, actuals_extra=f'  date_formats: {{week: "{fmt}"}}\n')
+    cfg = config(tmp_path, actuals_more=week_format(fmt))
     assert sources.read_actuals(cfg)["period"].tolist() == [pd.Timestamp("2026-03-02")] * 2
 
 
@@ -184,7 +184,7 @@ def test_parquet_timestamps_and_dates_are_taken_as_they_are(tmp_path: Path) -> N
         "week": pa.array([date(2026, 3, 2)] * 2, pa.date32()),
         "units_sold": [1.0, 2.0]}), tmp_path / "a.parquet")
     cfg = config(tmp_path, actuals="a.parquet",
-                 actuals_extra='  date_formats: {week: "%d/%m/%Y"}\n')
+                 actuals_more=week_format("%d/%m/%Y"))
     assert sources.read_actuals(cfg)["period"].tolist() == [pd.Timestamp("2026-03-02")] * 2
 
 

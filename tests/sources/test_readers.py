@@ -16,7 +16,7 @@ from tests.support.sources import config, forecast_text, read_error
 def test_the_forecast_comes_back_with_canonical_names_and_quantiles(tmp_path: Path) -> None:
     text = forecast_text(["P1", "P2"]).replace("issued_on\n", "issued_on,p10\n")
     (tmp_path / "f.csv").write_text(text.replace("2026-03-02\n", "2026-03-02,8\n"))
-    cfg = config(tmp_path, forecast_extra="  quantiles: {0.1: p10}\n")
+    cfg = config(tmp_path, forecast_more={"quantiles": "{0.1: p10}"})
     assert [c.canonical for c in forecast_columns(cfg)] == [
         None, None, "period", "issued", "forecast", "q0.1"]
     frame = sources.read_forecast(cfg)
@@ -27,7 +27,7 @@ def test_the_forecast_comes_back_with_canonical_names_and_quantiles(tmp_path: Pa
 
 def test_actuals_keys_of_other_names_are_renamed_to_the_forecast_keys(tmp_path: Path) -> None:
     (tmp_path / "a.csv").write_text("shop,item,week,units_sold\nS1,P1,2026-02-23,3\n")
-    cfg = config(tmp_path, actuals_extra="  keys: [shop, item]\n")
+    cfg = config(tmp_path, actuals_more={"keys": "[shop, item]"})
     actuals = sources.read_actuals(cfg)
     assert list(actuals.columns) == ["store", "product", "period", "actual"]
     assert actuals[["store", "product"]].to_numpy().tolist() == [["S1", "P1"]]

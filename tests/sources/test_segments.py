@@ -11,7 +11,6 @@ import pytest
 
 from accuracy_checks import sources
 from accuracy_checks.errors import InputError
-from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.sources.segments import (
     assign_segments,
     attach_segments,
@@ -19,7 +18,7 @@ from accuracy_checks.sources.segments import (
     segments_of_series,
     unify_categories,
 )
-from tests.support.sources import CONFIG, config, forecast_text, read_error
+from tests.support.sources import config, forecast_text, read_error
 
 
 def cat(values: list[str | None]) -> pd.Series:
@@ -75,9 +74,7 @@ def test_a_mapping_that_shares_no_key_is_refused(tmp_path: Path) -> None:
 
 
 def test_no_mapping_configured_reads_none(tmp_path: Path) -> None:
-    text = CONFIG.format(forecast="f.csv", actuals="a.csv", mapping="m.csv", forecast_extra="",
-                         actuals_extra="").replace("  mapping: m.csv\n", "")
-    assert sources.read_mapping(parse_config(text, source=tmp_path / "c.yaml")) is None
+    assert sources.read_mapping(config(tmp_path, mapping=None)) is None
 
 
 # ----------------------------------------------------------------------- labels, segments
@@ -114,10 +111,7 @@ def test_assign_segments_from_the_frame_or_the_mapping(tmp_path: Path) -> None:
 
 
 def test_without_segment_columns_every_row_is_in_all_series(tmp_path: Path) -> None:
-    text = CONFIG.format(forecast="f.csv", actuals="a.csv", mapping="m.csv", forecast_extra="",
-                         actuals_extra="")
-    text = text.replace("segments:\n  columns: [category]\n  mapping: m.csv\n", "")
-    cfg = parse_config(text, source=tmp_path / "c.yaml")
+    cfg = config(tmp_path, segments=False)
     frame = pd.DataFrame({"store": cat(["S1"]), "product": cat(["P1"])})
     assert assign_segments(frame, cfg, None, role="forecast")["segment"].tolist() == ["*"]
     assert attach_segments(frame, cfg, None, pd.DataFrame)["segment"].tolist() == ["*"]

@@ -13,27 +13,19 @@ from accuracy_checks.checks.coverage import coverage_checks
 from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult
+from tests.support.configs import small_config
 
 KEYS = ["store", "product"]
 CYCLE = pd.Timestamp("2026-03-02")  # a Monday: the first forecast week
 ISSUED = pd.Timestamp("2026-02-27")
 Series = tuple[str, str]
 
-CONFIG = """\
-version: 1
-forecast: {{path: f.csv, keys: [store, product], period: week, value: units, issued: issued_on}}
-actuals: {{path: a.csv, period: week, value: units_sold}}
-frequency: {frequency}
-horizon: {horizon}
-thresholds:
-{thresholds}
-"""
-
 
 def book(
     thresholds: str = "  default: {}", *, frequency: str = "W-MON", horizon: int = 3
 ) -> Thresholds:
-    text = CONFIG.format(frequency=frequency, horizon=horizon, thresholds=thresholds)
+    """The thresholds of a small config; ``thresholds`` is the YAML text of its block."""
+    text = small_config(frequency=frequency, horizon=horizon) + f"thresholds:\n{thresholds}\n"
     return Thresholds(parse_config(text))
 
 

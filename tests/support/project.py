@@ -11,6 +11,15 @@ from typing import Any
 import pandas as pd
 import pytest
 
+from tests.support.configs import (
+    ACTUALS_COLUMNS,
+    FORECAST_COLUMNS,
+    flow,
+    levels,
+    template,
+    yaml_text,
+)
+
 KEYS = ["store", "product"]
 STORES = ["S1", "S2"]
 PRODUCTS = {"P1": "tools", "P2": "plants", "P3": "plants"}
@@ -52,37 +61,24 @@ def actuals_frame(until: pd.Timestamp) -> pd.DataFrame:
     return pd.DataFrame(rows)
 
 
-CONFIG = """\
-version: 1
-forecast:
-  path: data/forecast.csv
-  keys: [store, product]
-  period: week
-  value: units
-  issued: issued_on
-  quantiles: {{0.1: p10, 0.9: p90}}
-actuals:
-  path: data/actuals.csv
-  period: week
-  value: units_sold
-history: data/earlier.csv
-archive: archive
-frequency: W-MON
-horizon: 4
-segments:
-  columns: [category]
-  mapping: data/products.csv
-coverage:
-  active_periods: 4
-evaluation:
-  lags: [1]
-  window: 2
-  min_obs: 2
-thresholds:
-  default:
-    bias_pct: {{warn: 5, fail: 10}}
-    wape: {{warn: 25, fail: 40}}
-{extra}"""
+#: the small project's config (the keys: docs/config.md)
+PROJECT: dict[str, object] = {
+    "version": 1,
+    "forecast": {"path": "data/forecast.csv", **FORECAST_COLUMNS,
+                 "quantiles": flow({0.1: "p10", 0.9: "p90"})},
+    "actuals": {"path": "data/actuals.csv", **ACTUALS_COLUMNS},
+    "history": "data/earlier.csv",
+    "archive": "archive",
+    "frequency": "W-MON",
+    "horizon": HORIZON,
+    "segments": {"columns": "[category]", "mapping": "data/products.csv"},
+    "coverage": {"active_periods": 4},
+    "evaluation": {"lags": "[1]", "window": 2, "min_obs": 2},
+    "thresholds": {"default": {"bias_pct": levels(5, 10), "wape": levels(25, 40)}},
+}
+#: its text as a template: ``CONFIG.format(extra=...)`` appends ``extra`` (lines that go on
+#: the thresholds' block, or top-level keys)
+CONFIG = template(yaml_text(PROJECT)) + "{extra}"
 
 
 @dataclass

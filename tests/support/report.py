@@ -22,6 +22,7 @@ from accuracy_checks.config import Config
 from accuracy_checks.measures.catalogue import parse_config
 from accuracy_checks.results import CheckResult, RunReport
 from accuracy_checks.store import apply_waivers, open_store
+from tests.support.configs import flow, levels, small_config
 
 XSS = "<script>alert(1)</script>"
 #: segment names no report may trip over: markup, entities, quotes of both kinds, non-ASCII
@@ -36,20 +37,6 @@ HOSTILE = [
 ]
 FIRST_CYCLE = date(2025, 1, 6)  # a Monday
 
-CONFIG = """\
-version: 1
-forecast: {{path: f.csv, keys: [store, product], period: week, value: units, issued: issued_on}}
-actuals: {{path: a.csv, period: week, value: units_sold}}
-store: {store}
-frequency: W-MON
-horizon: 13
-evaluation: {{lags: [1, 4]}}
-thresholds:
-  default:
-    wape: {{warn: 30, fail: 45}}
-    bias_pct: {{warn: 5, fail: 10}}
-drift: {{cycles: {n}, min_history: {min_history}, sustained_cycles: {m}}}
-"""
 
 
 @dataclass
@@ -123,8 +110,12 @@ def build_store(root: Path, *, n_segments: int = 5, n_cycles: int = 12, xss: boo
     their number); ``label`` is each run's pipeline label (``{k}``: the cycle's index)."""
     root.mkdir(parents=True, exist_ok=True)
     url = f"sqlite:///{root / 'audit.db'}"
-    config = parse_config(CONFIG.format(store=url, n=drift_cycles, min_history=min_history,
-                                        m=sustained), source=root / "accuracy-checks.yaml")
+    text = small_config(
+        store=url, evaluation=flow({"lags": "[1, 4]"}),
+        thresholds={"default": {"wape": levels(30, 45), "bias_pct": levels(5, 10)}},
+        drift=flow({"cycles": drift_cycles, "min_history": min_history,
+                    "sustained_cycles": sustained}))
+    config = parse_config(text, source=root / "accuracy-checks.yaml")
     book = Thresholds(config)
     rng = np.random.default_rng(seed)
     segments = list(names) if names is not None else segment_names(n_segments, xss=xss)

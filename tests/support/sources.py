@@ -3,6 +3,7 @@ folder, a forecast file's text, and the one-paragraph message a reader raises.""
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from pathlib import Path
 
 import pytest
@@ -10,34 +11,41 @@ import pytest
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 from accuracy_checks.measures.catalogue import parse_config
+from tests.support.configs import ACTUALS_COLUMNS, FORECAST_COLUMNS, flow, yaml_text
 
-CONFIG = """\
-version: 1
-forecast:
-  path: {forecast}
-  keys: [store, product]
-  period: week
-  value: units
-  issued: issued_on
-{forecast_extra}actuals:
-  path: {actuals}
-  period: week
-  value: units_sold
-{actuals_extra}frequency: W-MON
-horizon: 2
-segments:
-  columns: [category]
-  mapping: {mapping}
-"""
+
+def config_text(*, forecast: str = "f.csv", actuals: str = "a.csv", mapping: str | None = "m.csv",
+                segments: bool = True, forecast_more: Mapping[str, object] | None = None,
+                actuals_more: Mapping[str, object] | None = None) -> str:
+    """The readers' config: forecast ``forecast`` and actuals ``actuals`` of the usual columns
+    and ``*_more`` settings (e.g. :func:`week_format`), weekly (W-MON), horizon 2, segments by
+    ``category`` from ``mapping`` (``None``: no mapping; ``segments=False``: no segments)."""
+    doc: dict[str, object] = {
+        "version": 1,
+        "forecast": {"path": forecast, **FORECAST_COLUMNS, **(forecast_more or {})},
+        "actuals": {"path": actuals, **ACTUALS_COLUMNS, **(actuals_more or {})},
+        "frequency": "W-MON", "horizon": 2}
+    if segments:
+        doc["segments"] = {"columns": "[category]",
+                           **({"mapping": mapping} if mapping is not None else {})}
+    return yaml_text(doc)
 
 
 def config(tmp_path: Path, *, forecast: str = "f.csv", actuals: str = "a.csv",
-           mapping: str = "m.csv", forecast_extra: str = "", actuals_extra: str = "") -> Config:
-    """The config of files ``f.csv`` (forecast), ``a.csv`` (actuals), ``m.csv`` (mapping of
-    ``category``) in ``tmp_path``, weekly (W-MON), keys store and product."""
-    text = CONFIG.format(forecast=forecast, actuals=actuals, mapping=mapping,
-                         forecast_extra=forecast_extra, actuals_extra=actuals_extra)
+           mapping: str | None = "m.csv", segments: bool = True,
+           forecast_more: Mapping[str, object] | None = None,
+           actuals_more: Mapping[str, object] | None = None) -> Config:
+    """The :func:`config_text` config read as if from ``tmp_path/c.yaml``: files ``f.csv``
+    (forecast), ``a.csv`` (actuals), ``m.csv`` (mapping of ``category``) in ``tmp_path`` unless
+    named otherwise."""
+    text = config_text(forecast=forecast, actuals=actuals, mapping=mapping, segments=segments,
+                       forecast_more=forecast_more, actuals_more=actuals_more)
     return parse_config(text, source=tmp_path / "c.yaml")
+
+
+def week_format(fmt: str) -> dict[str, object]:
+    """A source's setting: the ``week`` column's dates are written as ``fmt``."""
+    return {"date_formats": flow({"week": f'"{fmt}"'})}
 
 
 def forecast_text(products: list[str], weeks: list[str] | None = None) -> str:
