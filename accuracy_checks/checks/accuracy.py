@@ -70,13 +70,6 @@ from accuracy_checks.sources import frames as F
 
 CHECK = ACCURACY
 
-_NEEDS_TEXT = {
-    "history": "the actuals history (to scale errors or build the naive baselines)",
-    "quantiles": "quantile forecasts (forecast.quantiles)",
-    "intervals": "a central interval: two quantile levels τ and 1 − τ in forecast.quantiles "
-                 "(e.g. 0.1 and 0.9)",
-    "costs": "unit costs (the costs section of the config)",
-}
 #: columns of a measure's frame that are not details
 NOT_DETAILS = frozenset({"value", "reason", "group", "variant", "n_obs", "unit"})
 
@@ -248,7 +241,7 @@ def _who(example: Mapping[str, Any]) -> str:
 
 def _not_configured(measure: Measure, data: MeasureData, missing: list[str],
                     book: Thresholds) -> list[CheckResult]:
-    need = "; ".join(_NEEDS_TEXT.get(n, n) for n in missing)
+    need = measure.needs_words(missing)
     out = []
     for g in range(data.n_groups):
         lag, segment = int(data.groups[F.LAG].iat[g]), str(data.groups[F.SEGMENT].iat[g])

@@ -36,7 +36,7 @@ from accuracy_checks.config import Bound, Config, Direction, Level
 from accuracy_checks.measures.catalogue import measure_directions
 from accuracy_checks.measures.data import MeasureSettings
 from accuracy_checks.measures.registry import Measure
-from accuracy_checks.measures.wording import format_bound, format_number, value_words
+from accuracy_checks.measures.wording import format_bound, value_words
 from accuracy_checks.results import BREACHED, CheckResult, Reason, Status, StatusName
 
 __all__ = [
@@ -240,10 +240,10 @@ def judge_figure(measure: Measure, figure: Figure, book: Thresholds, *, min_obs:
     reason = None if figure.value is not None else (figure.reason or Reason.NO_DATA)
     result = CheckResult(ACCURACY, status, value=figure.value, reason=reason, **common)
     return CheckResult(**{**result.__dict__,
-                          "message": _message(result, label, span, measure.id) + note})
+                          "message": _message(result, label, span, measure) + note})
 
 
-def _message(result: CheckResult, label: str, span: str, measure: str) -> str:
+def _message(result: CheckResult, label: str, span: str, measure: Measure) -> str:
     what = value_words(result.value, measure=result.measure, unit=result.unit,
                        reason=result.reason)
     named = label.replace(" %", "") if result.value is not None else label  # "WAPE 23.4 %"
@@ -270,31 +270,8 @@ def _message(result: CheckResult, label: str, span: str, measure: str) -> str:
         text = f"{lead} {basis}, beyond the {result.status} level {format_bound(level)}."
     else:
         text = f"{lead} {basis}."
-    return text + _facts(measure, result)
-
-
-def _facts(measure: str, result: CheckResult) -> str:
-    """A sentence of the facts behind a value, per measure family."""
-    d = result.details
-    if measure == "tracking_signal" and d.get("window_periods"):
-        return f" Summed over {d['window_periods']} period(s)."
-    if measure in ("mase", "msis") and d.get("n_series_skipped"):
-        return (f" {d['n_series_skipped']} series skipped (too little history for "
-                f"m = {d.get('seasonal_period')}, or a zero scale).")
-    if measure == "interval_coverage" and d.get("p_value") is not None:
-        return (f" Nominal {format_number(d['nominal_pct'])} %; binomial p = "
-                f"{float(d['p_value']):.2g}.")
-    if measure.startswith("fva_") and d.get("wape_baseline") is not None:
-        return (f" Baseline WAPE {format_number(d['wape_baseline'])} % vs forecast "
-                f"{format_number(d['wape_forecast'])} %.")
-    if measure == "error_cost" and d.get("under_cost") is not None:
-        unit = result.unit or "money"
-        text = (f" Under-forecasting cost {format_number(d['under_cost'])} {unit}, "
-                f"over-forecasting {format_number(d['over_cost'])} {unit}")
-        if d.get("tau_star") is not None:
-            text += f"; cost-optimal quantile τ* = {format_number(d['tau_star'])}"
-        return text + "."
-    return ""
+    facts = measure.facts_words(result.details, result.unit)
+    return f"{text} {facts}" if facts else text
 
 
 #: The former name of :class:`Thresholds`, kept for one release for check plugins that

@@ -16,11 +16,15 @@ unit costs.
 
 from __future__ import annotations
 
+from collections.abc import Mapping
+from typing import Any
+
 import numpy as np
 import pandas as pd
 
 from accuracy_checks.measures.data import MeasureData, result_frame
-from accuracy_checks.measures.registry import Measure, register_measure
+from accuracy_checks.measures.registry import declare
+from accuracy_checks.measures.wording import format_number
 from accuracy_checks.sources import frames as F
 
 __all__ = ["error_cost_from_data"]
@@ -82,15 +86,23 @@ def error_cost_from_data(data: MeasureData) -> pd.DataFrame:
     )
 
 
-register_measure(Measure(
-    id="error_cost",
-    label="Cost of error",
-    unit="money",
-    direction="lower",
-    compute=error_cost_from_data,
-    needs=frozenset({"costs"}),
-    description="Σ c_under·max(e, 0) + c_over·max(−e, 0) in money (costs.currency), pooled; "
-    "= (c_under + c_over) × the pinball loss at τ* = c_under/(c_under + c_over). Segment * "
-    "adds every segment's money at its own unit costs (project choice; pinball: "
-    "docs/measures.md §14).",
-))
+def _cost_facts(details: Mapping[str, Any], unit: str | None) -> str:
+    """The money of each side, and τ* when the group's rows share one."""
+    if details.get("under_cost") is None:
+        return ""
+    unit = unit or "money"
+    text = (f"Under-forecasting cost {format_number(details['under_cost'])} {unit}, "
+            f"over-forecasting {format_number(details['over_cost'])} {unit}")
+    if details.get("tau_star") is not None:
+        text += f"; cost-optimal quantile τ* = {format_number(details['tau_star'])}"
+    return text + "."
+
+
+declare(
+    [dict(id="error_cost", label="Cost of error", unit="money", direction="lower",
+          compute=error_cost_from_data, needs=frozenset({"costs"}), facts=_cost_facts)],
+    {"error_cost": "Σ c_under·max(e, 0) + c_over·max(−e, 0) in money (costs.currency), pooled; "
+     "= (c_under + c_over) × the pinball loss at τ* = c_under/(c_under + c_over). Segment * "
+     "adds every segment's money at its own unit costs (project choice; pinball: "
+     "docs/measures.md §14)."},
+)

@@ -38,7 +38,8 @@ from accuracy_checks.measures.data import (
     result_frame,
     stack_variants,
 )
-from accuracy_checks.measures.registry import Levels, Measure, register_measure
+from accuracy_checks.measures.registry import Levels, declare
+from accuracy_checks.measures.wording import format_number, skipped_series_facts
 
 __all__ = [
     "coverage_from_data",
@@ -203,48 +204,34 @@ def _coverage_breach_counts(extras: Mapping[str, Any], settings: MeasureSettings
     return p_value is not None and float(p_value) < settings.coverage_test_level
 
 
-register_measure(Measure(
-    id="interval_coverage",
-    order=10, wording="level",
-    label="Interval coverage %",
-    unit="%",
-    direction="centered",
-    compute=coverage_from_data,
-    needs=frozenset({"intervals"}),
-    levels=_coverage_levels,
-    breach_counts=_coverage_breach_counts,
-    description="100·mean(1{L ≤ actual ≤ U}) in percent for each central interval, pooled, "
-    "judged by its distance from the nominal level (pp) and the one-sided binomial test "
-    "(as scipy.stats.binomtest). docs/measures.md §13 (Christoffersen 1998).",
-))
-register_measure(Measure(
-    id="pinball",
-    order=11,
-    label="Pinball loss",
-    unit="units",
-    direction="lower",
-    compute=pinball_from_data,
-    needs=frozenset({"quantiles"}),
-    description="Mean pinball loss of each quantile forecast, pooled, in data units; at τ = 0.5 "
+def _coverage_facts(details: Mapping[str, Any], unit: str | None) -> str:
+    if details.get("p_value") is None:
+        return ""
+    return (f"Nominal {format_number(details['nominal_pct'])} %; binomial p = "
+            f"{float(details['p_value']):.2g}.")
+
+
+_MEASURES: tuple[dict[str, Any], ...] = (
+    dict(id="interval_coverage", label="Interval coverage %", unit="%", direction="centered",
+         compute=coverage_from_data, needs=frozenset({"intervals"}), levels=_coverage_levels,
+         breach_counts=_coverage_breach_counts, facts=_coverage_facts, order=10,
+         wording="level"),
+    dict(id="pinball", label="Pinball loss", unit="units", direction="lower",
+         compute=pinball_from_data, needs=frozenset({"quantiles"}), order=11),
+    dict(id="mis", label="Interval score", unit="units", direction="lower",
+         compute=mis_from_data, needs=frozenset({"intervals"})),
+    dict(id="msis", label="MSIS", unit="", direction="lower", compute=msis_from_data,
+         needs=frozenset({"intervals", "history"}), facts=skipped_series_facts),
+)
+_DESCRIPTIONS = {
+    "interval_coverage": "100·mean(1{L ≤ actual ≤ U}) in percent for each central interval, "
+    "pooled, judged by its distance from the nominal level (pp) and the one-sided binomial "
+    "test (as scipy.stats.binomtest). docs/measures.md §13 (Christoffersen 1998).",
+    "pinball": "Mean pinball loss of each quantile forecast, pooled, in data units; at τ = 0.5 "
     "it is MAE/2. docs/measures.md §14 (Koenker & Bassett 1978).",
-))
-register_measure(Measure(
-    id="mis",
-    label="Interval score",
-    unit="units",
-    direction="lower",
-    compute=mis_from_data,
-    needs=frozenset({"intervals"}),
-    description="Mean interval score (U − L) + (2/α)·(miss below L or above U), pooled, in data "
+    "mis": "Mean interval score (U − L) + (2/α)·(miss below L or above U), pooled, in data "
     "units. docs/measures.md §15 (Gneiting & Raftery 2007).",
-))
-register_measure(Measure(
-    id="msis",
-    label="MSIS",
-    unit="",
-    direction="lower",
-    compute=msis_from_data,
-    needs=frozenset({"intervals", "history"}),
-    description="Mean interval score / s per series (s as for MASE), then the unweighted mean. "
+    "msis": "Mean interval score / s per series (s as for MASE), then the unweighted mean. "
     "docs/measures.md §15 (M4, 2020).",
-))
+}
+declare(_MEASURES, _DESCRIPTIONS)

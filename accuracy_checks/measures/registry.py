@@ -47,12 +47,14 @@ if TYPE_CHECKING:
 
 __all__ = [
     "CORE_MEASURES",
+    "INPUTS",
     "MEASURES",
     "REASONS",
     "Direction",
     "Levels",
     "Measure",
     "add_loader",
+    "declare",
     "display_order",
     "get_measure",
     "headline_measures",
@@ -74,6 +76,16 @@ REASONS: tuple[Reason, ...] = (
     Reason.NOT_CONFIGURED,
     Reason.OVERFLOW,
 )
+
+#: The inputs a measure may need (:attr:`Measure.needs`), in words: what a result of a
+#: measure that cannot be computed says is missing.
+INPUTS: dict[str, str] = {
+    "history": "the actuals history (to scale errors or build the naive baselines)",
+    "quantiles": "quantile forecasts (forecast.quantiles)",
+    "intervals": "a central interval: two quantile levels τ and 1 − τ in forecast.quantiles "
+                 "(e.g. 0.1 and 0.9)",
+    "costs": "unit costs (the costs section of the config)",
+}
 
 #: ``(warn, fail)`` levels; each ``None``, a number or a ``(low, high)`` pair.
 Levels = tuple[Any, Any]
@@ -139,6 +151,10 @@ class Measure:
     order: int | None = None
     #: rank as the headline figure of the accuracy-by-lag table (lower first); ``None``: never
     headline: int | None = None
+    #: the facts behind a value, read from a result's ``details`` and ``unit`` (the periods
+    #: summed, the series skipped, the baseline's WAPE …): a sentence that ends the result's
+    #: message (docs/checks.md), or ``""`` when the details hold none. ``None``: no facts.
+    facts: Callable[[Mapping[str, Any], str | None], str] | None = None
 
     @property
     def words(self) -> str:
@@ -146,6 +162,18 @@ class Measure:
         if self.wording is not None:
             return self.wording
         return "bias" if self.direction == "centered" else "level"
+
+    def facts_words(self, details: Mapping[str, Any], unit: str | None) -> str:
+        """The :attr:`facts` sentence of a result (``""`` without one)."""
+        return self.facts(details, unit) if self.facts is not None else ""
+
+    def needs_words(self, missing: Iterable[str]) -> str:
+        """The inputs ``missing`` of :attr:`needs` in words (:data:`INPUTS`), ``; ``-joined.
+
+        >>> get_measure("mase").needs_words(["history"])
+        'the actuals history (to scale errors or build the naive baselines)'
+        """
+        return "; ".join(INPUTS.get(need, need) for need in missing)
 
     def evaluate(self, data: MeasureData) -> pd.DataFrame:
         """The measure's frame for ``data`` (see the class doc)."""
@@ -206,12 +234,17 @@ def _me(stats: pd.DataFrame) -> pd.DataFrame:
     return _result(stats, _column(stats, "mean_e"), [(empty, Reason.NO_DATA)])
 
 
-def _bias_pct(stats: pd.DataFrame) -> pd.DataFrame:
+def _per_volume(stats: pd.DataFrame, numerator: str) -> pd.DataFrame:
+    """``100 · stats[numerator] / Σ|actual|`` in percent; undefined if ``Σ|actual| = 0``."""
     _, empty = _no_data(stats)
     sum_abs_y = _column(stats, "sum_abs_y")
-    value = _percent(_ratio(_column(stats, "sum_e"), sum_abs_y))
+    value = _percent(_ratio(_column(stats, numerator), sum_abs_y))
     return _result(stats, value,
                    [(empty, Reason.NO_DATA), (sum_abs_y == 0, Reason.ZERO_DENOMINATOR)])
+
+
+def _bias_pct(stats: pd.DataFrame) -> pd.DataFrame:
+    return _per_volume(stats, "sum_e")
 
 
 def _mae(stats: pd.DataFrame) -> pd.DataFrame:
@@ -235,11 +268,7 @@ def _mape(stats: pd.DataFrame) -> pd.DataFrame:
 
 
 def _wape(stats: pd.DataFrame) -> pd.DataFrame:
-    _, empty = _no_data(stats)
-    sum_abs_y = _column(stats, "sum_abs_y")
-    value = _percent(_ratio(_column(stats, "sum_abs_e"), sum_abs_y))
-    return _result(stats, value,
-                   [(empty, Reason.NO_DATA), (sum_abs_y == 0, Reason.ZERO_DENOMINATOR)])
+    return _per_volume(stats, "sum_abs_e")
 
 
 def _rmse(stats: pd.DataFrame) -> pd.DataFrame:
@@ -310,8 +339,8 @@ def check_measure(measure: Measure) -> None:
     """Raise ``ValueError`` if ``measure`` is not a usable definition (the message says why).
 
     Checked: the id (lower-case letters, digits, ``_``), the direction, that exactly one of
-    ``from_stats``/``compute`` is given and that it takes one positional argument, and the
-    window.
+    ``from_stats``/``compute`` is given and that it takes one positional argument, the
+    window, and that the hooks given (``levels``, ``breach_counts``, ``facts``) are callable.
     """
     if not isinstance(measure, Measure):
         raise ValueError(
@@ -337,6 +366,9 @@ def check_measure(measure: Measure) -> None:
             f"measure {measure.id!r}: window must be 'evaluation' or 'tracking', "
             f"got {measure.window!r}"
         )
+    for hook in ("levels", "breach_counts", "facts"):
+        if getattr(measure, hook) is not None and not callable(getattr(measure, hook)):
+            raise ValueError(f"measure {measure.id!r}: {hook} is not callable")
     given = [n for n in ("from_stats", "compute") if getattr(measure, n) is not None]
     if len(given) != 1:
         raise ValueError(
@@ -413,88 +445,54 @@ def register_measure(measure: Measure, *, replace: bool = False) -> None:
     MEASURES[measure.id] = measure
 
 
-for _measure in (
-    Measure(
-        id="me",
-        order=0,
-        headline=3,
-        wording="mean_bias",
-        label="Mean error",
-        unit="units",
-        direction="centered",
-        from_stats=_me,
-        bias_type=True,
-        description="Σe/n with e = actual − forecast; positive = under-forecast. "
-        "docs/measures.md §1 (common practice).",
-    ),
-    Measure(
-        id="bias_pct",
-        order=1,
-        headline=2,
-        label="Bias %",
-        unit="%",
-        direction="centered",
-        from_stats=_bias_pct,
-        bias_type=True,
-        description="100·Σe/Σ|actual| in percent, pooled (volume-weighted); positive = "
-        "under-forecast. Undefined if Σ|actual| = 0. docs/measures.md §2 (common practice).",
-    ),
-    Measure(
-        id="mae",
-        order=2,
-        headline=1,
-        label="MAE",
-        unit="units",
-        direction="lower",
-        from_stats=_mae,
-        description="Mean absolute error Σ|e|/n in data units (MAD). docs/measures.md §3 "
-        "(common practice; Brown 1959).",
-    ),
-    Measure(
-        id="mape",
-        order=3,
-        headline=4,
-        label="MAPE %",
-        unit="%",
-        direction="lower",
-        from_stats=_mape,
-        description="100·mean(|e|/|actual|) in percent, pooled over rows. Undefined if any "
-        "actual is 0; then mape_nonzero covers the nonzero rows. docs/measures.md §4 "
-        "(common practice; critiqued by Hyndman & Koehler 2006).",
-    ),
-    Measure(
-        id="wape",
-        order=4,
-        headline=0,
-        label="WAPE %",
-        unit="%",
-        direction="lower",
-        from_stats=_wape,
-        description="100·Σ|e|/Σ|actual| in percent (MAD/mean ratio), pooled. Undefined if "
-        "Σ|actual| = 0. docs/measures.md §5 (Kolassa & Schütz 2007).",
-    ),
-    Measure(
-        id="rmse",
-        order=6,
-        headline=6,
-        label="RMSE",
-        unit="units",
-        direction="lower",
-        from_stats=_rmse,
-        description="√(Σe²/n) in data units, pooled. docs/measures.md §7 "
-        "(common practice; Hyndman & Koehler 2006).",
-    ),
-    Measure(
-        id="sde",
-        order=7,
-        headline=7,
-        label="SD of errors",
-        unit="units",
-        direction="lower",
-        from_stats=_sde,
-        description="√(Σ(e − ME)²/(n − 1)) in data units, pooled. Undefined if n < 2. "
-        "docs/measures.md §8 (common practice).",
-    ),
-):
-    register_measure(_measure)
-del _measure
+def declare(specs: Iterable[Mapping[str, Any]], descriptions: Mapping[str, str]) -> None:
+    """Register the built-in measures of one module: ``specs`` holds one keyword dict of
+    :class:`Measure` fields per measure (in registry order), ``descriptions`` their
+    :attr:`~Measure.description` by id (every id needs one).
+
+    Raises
+    ------
+    ValueError
+        As :func:`register_measure` (an id registered twice, an unusable definition).
+    """
+    for spec in specs:
+        register_measure(Measure(**spec, description=descriptions[spec["id"]]))
+
+
+#: The core measures, one keyword dict of :class:`Measure` fields each (the table order is the
+#: registry's order); their descriptions follow by id.
+_CORE: tuple[dict[str, Any], ...] = (
+    dict(id="me", label="Mean error", unit="units", direction="centered", from_stats=_me,
+         order=0, headline=3, wording="mean_bias", bias_type=True),
+    dict(id="bias_pct", label="Bias %", unit="%", direction="centered", from_stats=_bias_pct,
+         order=1, headline=2, bias_type=True),
+    dict(id="mae", label="MAE", unit="units", direction="lower", from_stats=_mae, order=2,
+         headline=1),
+    dict(id="mape", label="MAPE %", unit="%", direction="lower", from_stats=_mape, order=3,
+         headline=4),
+    dict(id="wape", label="WAPE %", unit="%", direction="lower", from_stats=_wape, order=4,
+         headline=0),
+    dict(id="rmse", label="RMSE", unit="units", direction="lower", from_stats=_rmse, order=6,
+         headline=6),
+    dict(id="sde", label="SD of errors", unit="units", direction="lower", from_stats=_sde,
+         order=7, headline=7),
+)
+_CORE_DESCRIPTIONS = {
+    "me": "Σe/n with e = actual − forecast; positive = under-forecast. "
+          "docs/measures.md §1 (common practice).",
+    "bias_pct": "100·Σe/Σ|actual| in percent, pooled (volume-weighted); positive = "
+                "under-forecast. Undefined if Σ|actual| = 0. docs/measures.md §2 "
+                "(common practice).",
+    "mae": "Mean absolute error Σ|e|/n in data units (MAD). docs/measures.md §3 "
+           "(common practice; Brown 1959).",
+    "mape": "100·mean(|e|/|actual|) in percent, pooled over rows. Undefined if any "
+            "actual is 0; then mape_nonzero covers the nonzero rows. docs/measures.md §4 "
+            "(common practice; critiqued by Hyndman & Koehler 2006).",
+    "wape": "100·Σ|e|/Σ|actual| in percent (MAD/mean ratio), pooled. Undefined if "
+            "Σ|actual| = 0. docs/measures.md §5 (Kolassa & Schütz 2007).",
+    "rmse": "√(Σe²/n) in data units, pooled. docs/measures.md §7 "
+            "(common practice; Hyndman & Koehler 2006).",
+    "sde": "√(Σ(e − ME)²/(n − 1)) in data units, pooled. Undefined if n < 2. "
+           "docs/measures.md §8 (common practice).",
+}
+declare(_CORE, _CORE_DESCRIPTIONS)

@@ -12,11 +12,14 @@ the window's later cycles and every forecast is scaled by what was known when it
 
 from __future__ import annotations
 
+from typing import Any
+
 import numpy as np
 import pandas as pd
 
 from accuracy_checks.measures.data import SCALE_OK, SCALE_TOO_FEW_ROWS, MeasureData, result_frame
-from accuracy_checks.measures.registry import Measure, register_measure
+from accuracy_checks.measures.registry import declare
+from accuracy_checks.measures.wording import skipped_series_facts
 
 __all__ = ["mase_from_data", "smape_from_data"]
 
@@ -72,26 +75,18 @@ def mase_from_data(data: MeasureData) -> pd.DataFrame:
     )
 
 
-register_measure(Measure(
-    id="smape",
-    order=5, headline=5,
-    label="sMAPE %",
-    unit="%",
-    direction="lower",
-    compute=smape_from_data,
-    description="100·mean(2|e|/(|actual|+|forecast|)) in percent (0–200), per series then "
-    "the unweighted mean (M4). y = f = 0 scores 0. docs/measures.md §6 (Makridakis, Spiliotis & "
+_MEASURES: tuple[dict[str, Any], ...] = (
+    dict(id="smape", label="sMAPE %", unit="%", direction="lower", compute=smape_from_data,
+         order=5, headline=5),
+    dict(id="mase", label="MASE", unit="", direction="lower", compute=mase_from_data,
+         needs=frozenset({"history"}), facts=skipped_series_facts, order=8, headline=8),
+)
+_DESCRIPTIONS = {
+    "smape": "100·mean(2|e|/(|actual|+|forecast|)) in percent (0–200), per series then the "
+    "unweighted mean (M4). y = f = 0 scores 0. docs/measures.md §6 (Makridakis, Spiliotis & "
     "Assimakopoulos 2020).",
-))
-register_measure(Measure(
-    id="mase",
-    order=8, headline=8,
-    label="MASE",
-    unit="",
-    direction="lower",
-    compute=mase_from_data,
-    needs=frozenset({"history"}),
-    description="MAE / s per series, s = mean|y_t − y_{t−m}| of the actuals before the issue "
-    "date of the earliest cycle evaluated; then the unweighted mean. Below 1 beats the "
-    "in-sample (seasonal) naive forecast. docs/measures.md §9 (Hyndman & Koehler 2006; M4).",
-))
+    "mase": "MAE / s per series, s = mean|y_t − y_{t−m}| of the actuals before the issue date "
+    "of the earliest cycle evaluated; then the unweighted mean. Below 1 beats the in-sample "
+    "(seasonal) naive forecast. docs/measures.md §9 (Hyndman & Koehler 2006; M4).",
+}
+declare(_MEASURES, _DESCRIPTIONS)

@@ -28,7 +28,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.measures.data import MeasureData, MeasureSettings, result_frame
-from accuracy_checks.measures.registry import Levels, Measure, register_measure
+from accuracy_checks.measures.registry import Levels, declare
 
 __all__ = ["scaled_limit", "tracking_signal_from_data", "trigg_from_data"]
 
@@ -126,30 +126,24 @@ def _tracking_levels(configured: Levels | None, extras: Mapping[str, Any],
     return _scale_bound(warn, factor), _scale_bound(fail, factor)
 
 
-register_measure(Measure(
-    id="tracking_signal",
-    order=9, wording="signal",
-    label="Tracking signal",
-    unit="",
-    direction="centered",
-    compute=tracking_signal_from_data,
-    window="tracking",
-    levels=_tracking_levels,
-    bias_type=True,
-    description="Σe / MAD over the tracking window on the segment's series summed by period; "
-    "positive = sustained under-forecast. Limit z·1.25·√n (default z = 1.96) or a constant. "
-    "docs/measures.md §10 (Brown 1959).",
-))
-register_measure(Measure(
-    id="trigg",
-    wording="signal",
-    label="Trigg's signal",
-    unit="",
-    direction="centered",
-    compute=trigg_from_data,
-    window="tracking",
-    bias_type=True,
-    description="Smoothed error / smoothed absolute error (α = evaluation.trigg_alpha, "
-    "E0 = 0, M0 = window MAD) at the last period, in [−1, 1]; positive = under-forecast. "
-    "Simulated 95 %/99 % points of |T|: 0.54/0.67 at α = 0.1. docs/measures.md §11 (Trigg 1964).",
-))
+def _tracking_facts(details: Mapping[str, Any], unit: str | None) -> str:
+    periods = details.get("window_periods")
+    return f"Summed over {periods} period(s)." if periods else ""
+
+
+_MEASURES: tuple[dict[str, Any], ...] = (
+    dict(id="tracking_signal", label="Tracking signal", unit="", direction="centered",
+         compute=tracking_signal_from_data, window="tracking", levels=_tracking_levels,
+         facts=_tracking_facts, bias_type=True, order=9, wording="signal"),
+    dict(id="trigg", label="Trigg's signal", unit="", direction="centered",
+         compute=trigg_from_data, window="tracking", bias_type=True, wording="signal"),
+)
+_DESCRIPTIONS = {
+    "tracking_signal": "Σe / MAD over the tracking window on the segment's series summed by "
+    "period; positive = sustained under-forecast. Limit z·1.25·√n (default z = 1.96) or a "
+    "constant. docs/measures.md §10 (Brown 1959).",
+    "trigg": "Smoothed error / smoothed absolute error (α = evaluation.trigg_alpha, E0 = 0, "
+    "M0 = window MAD) at the last period, in [−1, 1]; positive = under-forecast. Simulated "
+    "95 %/99 % points of |T|: 0.54/0.67 at α = 0.1. docs/measures.md §11 (Trigg 1964).",
+}
+declare(_MEASURES, _DESCRIPTIONS)

@@ -12,13 +12,15 @@ perfect). Baselines use only the actuals known at each cycle's issue date
 
 from __future__ import annotations
 
-from collections.abc import Callable
+from collections.abc import Callable, Mapping
+from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from accuracy_checks.measures.data import MeasureData, result_frame
-from accuracy_checks.measures.registry import Measure, register_measure
+from accuracy_checks.measures.registry import declare
+from accuracy_checks.measures.wording import format_number
 
 __all__ = ["fva_from_data"]
 
@@ -58,25 +60,26 @@ def _compute(kind: str) -> Callable[[MeasureData], pd.DataFrame]:
     return compute
 
 
-register_measure(Measure(
-    id="fva_naive",
-    label="FVA vs naive",
-    unit="pp",
-    direction="higher",
-    compute=_compute("naive"),
-    needs=frozenset({"history"}),
-    description="WAPE(naive) − WAPE(forecast) in percentage points, pooled; naive = the last "
+def _fva_facts(details: Mapping[str, Any], unit: str | None) -> str:
+    if details.get("wape_baseline") is None:
+        return ""
+    return (f"Baseline WAPE {format_number(details['wape_baseline'])} % vs forecast "
+            f"{format_number(details['wape_forecast'])} %.")
+
+
+_MEASURES: tuple[dict[str, Any], ...] = tuple(
+    dict(id=f"fva_{kind}", label=f"FVA vs {kind.replace('_', ' ')}", unit="pp",
+         direction="higher", compute=_compute(kind), needs=frozenset({"history"}),
+         facts=_fva_facts)
+    for kind in ("naive", "seasonal_naive")
+)
+_DESCRIPTIONS = {
+    "fva_naive": "WAPE(naive) − WAPE(forecast) in percentage points, pooled; naive = the last "
     "actual before each cycle's issue date. > 0: the forecast adds value. Relative skill "
     "1 − MAE(f)/MAE(naive) in details. docs/measures.md §12 (Gilliland 2010; Davydenko & Fildes "
     "2013).",
-))
-register_measure(Measure(
-    id="fva_seasonal_naive",
-    label="FVA vs seasonal naive",
-    unit="pp",
-    direction="higher",
-    compute=_compute("seasonal_naive"),
-    needs=frozenset({"history"}),
-    description="WAPE(seasonal naive) − WAPE(forecast) in percentage points, pooled; the "
-    "baseline repeats the last m actuals before each cycle's issue date. docs/measures.md §12.",
-))
+    "fva_seasonal_naive": "WAPE(seasonal naive) − WAPE(forecast) in percentage points, pooled; "
+    "the baseline repeats the last m actuals before each cycle's issue date. docs/measures.md "
+    "§12.",
+}
+declare(_MEASURES, _DESCRIPTIONS)

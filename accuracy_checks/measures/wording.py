@@ -17,6 +17,8 @@ that the same figure reads the same everywhere (docs/results.md).
 from __future__ import annotations
 
 import math
+from collections.abc import Mapping
+from typing import Any
 
 from accuracy_checks.measures.registry import MEASURES, Measure
 from accuracy_checks.results import Reason
@@ -27,6 +29,7 @@ __all__ = [
     "format_number",
     "measure_unit",
     "non_finite_words",
+    "skipped_series_facts",
     "unit_suffix",
     "value_words",
 ]
@@ -181,3 +184,17 @@ def _in_text(label: str) -> str:
     """A sentence-case label inside a sentence: its first letter lowered, unless the label
     starts with a name (``Trigg's signal``)."""
     return label if label.split(" ", 1)[0].endswith("'s") else label[:1].lower() + label[1:]
+
+
+def skipped_series_facts(details: Mapping[str, Any], unit: str | None) -> str:
+    """The facts of a measure averaged per series with a MASE scale (MASE, MSIS): how many
+    series it skipped (:attr:`~accuracy_checks.measures.registry.Measure.facts`).
+
+    >>> skipped_series_facts({"n_series_skipped": 2, "seasonal_period": 7}, None)
+    '2 series skipped (too little history for m = 7, or a zero scale).'
+    """
+    skipped = details.get("n_series_skipped")
+    if not skipped:
+        return ""
+    return (f"{skipped} series skipped (too little history for "
+            f"m = {details.get('seasonal_period')}, or a zero scale).")

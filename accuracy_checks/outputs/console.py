@@ -30,23 +30,21 @@ from rich.text import Text
 
 from accuracy_checks.outputs.lag_table import lag_table, measure_name
 from accuracy_checks.outputs.wording import (
-    count_summary,
     describe_value,
     format_example,
     headline,
+    listing,
     result_label,
     status_word,
     threshold_parts,
 )
 from accuracy_checks.results import (
-    DISPLAY_ORDER,
     FAILING,
     NEEDS_ATTENTION,
     OPEN_FINDINGS,
     CheckResult,
     RunReport,
     Status,
-    sort_for_display,
 )
 
 __all__ = ["render_console"]
@@ -179,14 +177,10 @@ def render_console(
 
 def _print_report(console: Console, report: RunReport, *, verbose: bool) -> None:
     ascii_box = not console.is_terminal or not _is_tty(console.file)
-    ordered = sort_for_display(report.results)
-    shown = NEEDS_ATTENTION if not verbose else frozenset(DISPLAY_ORDER)
-    listed = [r for r in ordered if r.status in shown]
-    unlisted = [r for r in ordered if r.status not in shown]
-
-    rest = count_summary(unlisted, (Status.PASS, Status.SKIPPED))
-    if listed:
-        console.print(_results_table(listed, ascii_box))
+    shown = listing(report, verbose=verbose)
+    ordered, rest = shown.ordered, shown.rest
+    if shown.listed:
+        console.print(_results_table(shown.listed, ascii_box))
         if rest:
             console.print(Text(f"Not shown: {rest}."))
     elif rest:

@@ -32,11 +32,11 @@ from accuracy_checks.measures.registry import display_order
 from accuracy_checks.outputs.jsonfile import write_text_atomic
 from accuracy_checks.outputs.lag_table import lag_table, measure_name
 from accuracy_checks.outputs.wording import (
-    count_summary,
     describe_value,
     format_example_value,
     format_number,
     headline,
+    listing,
     result_label,
     status_word,
     threshold_parts,
@@ -46,11 +46,9 @@ from accuracy_checks.outputs.wording import (
 from accuracy_checks.results import (
     ALL_SERIES,
     FAILING,
-    NEEDS_ATTENTION,
     OPEN_FINDINGS,
     CheckResult,
     RunReport,
-    Status,
     sort_for_display,
 )
 
@@ -222,24 +220,23 @@ def _examples_section(results: list[CheckResult]) -> list[str]:
 
 def render_markdown(report: RunReport) -> str:
     """The Markdown summary of ``report`` (see module doc); deterministic, newline-ended."""
-    ordered = sort_for_display(report.results)
+    shown = listing(report)
+    ordered = shown.ordered
     lines = [
         f"## accuracy-checks: {status_word(report.status)}",
         "",
         f"**{escape_cell(headline(report))}**",
     ]
-    attention = [r for r in ordered if r.status in NEEDS_ATTENTION]
-    if attention:
-        lines += ["", *_attention_section(attention)]
+    if shown.listed:
+        lines += ["", *_attention_section(shown.listed)]
     segment_lines = _segment_section(ordered)
     if segment_lines:
         lines += ["", *segment_lines]
     lag_lines = _lag_section(ordered)
     if lag_lines:
         lines += ["", *lag_lines]
-    rest = count_summary(ordered, (Status.PASS, Status.SKIPPED))
-    if rest:
-        lines += ["", escape_cell(f"{rest[0].upper()}{rest[1:]}.")]
+    if shown.rest:
+        lines += ["", escape_cell(f"{shown.rest[0].upper()}{shown.rest[1:]}.")]
     example_lines = _examples_section(ordered)
     if example_lines:
         lines += ["", *example_lines]

@@ -20,6 +20,7 @@ from __future__ import annotations
 import datetime as _dt
 import math
 from collections.abc import Iterable, Mapping, Sequence
+from dataclasses import dataclass
 from typing import Any
 
 from accuracy_checks.measures.registry import MEASURES
@@ -30,9 +31,17 @@ from accuracy_checks.measures.wording import (
     unit_suffix,
     value_words,
 )
-from accuracy_checks.results import CheckResult, RunReport
+from accuracy_checks.results import (
+    DISPLAY_ORDER,
+    NEEDS_ATTENTION,
+    CheckResult,
+    RunReport,
+    Status,
+    sort_for_display,
+)
 
 __all__ = [
+    "Listing",
     "count_summary",
     "describe_threshold",
     "describe_value",
@@ -41,6 +50,7 @@ __all__ = [
     "format_example_value",
     "format_number",
     "headline",
+    "listing",
     "result_label",
     "status_word",
     "threshold_parts",
@@ -321,3 +331,32 @@ def format_example(example: Any) -> str:
     if isinstance(example, Mapping):
         return ", ".join(f"{k}={format_example_value(v)}" for k, v in example.items())
     return format_example_value(example)
+
+
+@dataclass(frozen=True)
+class Listing:
+    """What a renderer lists of a run, and the line that counts the rest (:func:`listing`)."""
+
+    #: every result, failures first (:func:`~accuracy_checks.results.sort_for_display`)
+    ordered: list[CheckResult]
+    #: the results listed one by one: those that need attention (every result if verbose)
+    listed: list[CheckResult]
+    #: the passes and skips not listed, in words (:func:`count_summary`); ``""`` for none
+    rest: str
+
+
+def listing(report: RunReport, *, verbose: bool = False) -> Listing:
+    """Split ``report`` as the console and the Markdown summary show it: the results that
+    need attention (fail, error, warn, waived) are listed, the passes and skips are counted.
+
+    >>> report = RunReport("r", None, None, [CheckResult("accuracy", "pass"),
+    ...                    CheckResult("output.rows", "fail")], "t0", "t1")
+    >>> shown = listing(report)
+    >>> [r.check for r in shown.listed], shown.rest
+    (['output.rows'], '1 passed')
+    """
+    ordered = sort_for_display(report.results)
+    shown = frozenset(DISPLAY_ORDER) if verbose else NEEDS_ATTENTION
+    listed = [r for r in ordered if r.status in shown]
+    unlisted = [r for r in ordered if r.status not in shown]
+    return Listing(ordered, listed, count_summary(unlisted, (Status.PASS, Status.SKIPPED)))

@@ -3,7 +3,7 @@
 ``registry_snapshot.json`` was written from the registry before its declarations became tables
 (docs/measures.md lists the same measures); a change to any field of a built-in measure (id,
 label, unit, direction, wording, display order, headline rank, inputs, window, formula, hooks,
-description) must show up here as a deliberate edit of that file.
+facts, description) must show up here as a deliberate edit of that file.
 """
 
 from __future__ import annotations
@@ -30,7 +30,7 @@ def snapshot() -> list[dict[str, Any]]:
          "needs": sorted(m.needs), "window": m.window, "bias_type": m.bias_type,
          "origin": m.origin, "from_stats": _name(m.from_stats), "compute": _name(m.compute),
          "levels": _name(m.levels), "breach_counts": _name(m.breach_counts),
-         "description": m.description}
+         "facts": _name(m.facts), "description": m.description}
         for m in MEASURES.values() if m.origin == "built-in"
     ]
 
@@ -41,3 +41,18 @@ def test_every_built_in_measure_keeps_its_registry_fields() -> None:
     assert [m["id"] for m in actual] == [m["id"] for m in expected]
     for got, want in zip(actual, expected, strict=True):
         assert got == want, got["id"]
+
+
+def test_a_measure_words_its_facts_and_the_inputs_it_lacks() -> None:
+    mase = MEASURES["mase"]
+    assert mase.facts_words({"n_series_skipped": 0}, None) == ""
+    assert mase.facts_words({"n_series_skipped": 3, "seasonal_period": 7}, None) == (
+        "3 series skipped (too little history for m = 7, or a zero scale).")
+    assert MEASURES["wape"].facts_words({"anything": 1}, "%") == ""
+    assert MEASURES["error_cost"].facts_words(
+        {"under_cost": 12.0, "over_cost": 3.5, "tau_star": None}, "EUR") == (
+        "Under-forecasting cost 12 EUR, over-forecasting 3.5 EUR.")
+    assert MEASURES["msis"].needs_words(["history", "intervals", "other"]) == (
+        "the actuals history (to scale errors or build the naive baselines); a central "
+        "interval: two quantile levels τ and 1 − τ in forecast.quantiles (e.g. 0.1 and 0.9); "
+        "other")
