@@ -10,10 +10,11 @@ re-run of an older cycle recorded later does not become the current state; it is
 (:attr:`ReportData.later_runs`). Only a store whose runs carry no cycle at all falls back to
 the last recorded run.
 
-Reads (all with bound parameters): the runs (one row each), the figure results of the
-chosen runs (those with a measure: thresholds, values, statuses, waiver links; details only
-for control-limit results and results with a variant), every result of the latest run in full
-(messages, examples, details), and every waiver.
+Reads, through the store's queries (:mod:`accuracy_checks.store.queries`; the report holds
+no SQL): the runs (one row each), the figure results of the chosen runs (those with a
+measure: thresholds, values, statuses, waiver links; details only for control-limit results
+and results with a variant), every result of the latest run in full (messages, examples,
+details), and every waiver.
 """
 
 from __future__ import annotations
@@ -26,6 +27,7 @@ from typing import TYPE_CHECKING, Any
 import pandas as pd
 
 from accuracy_checks.results import CheckResult
+from accuracy_checks.store.queries import figures_of_runs, result_dict, results_of_run
 
 if TYPE_CHECKING:
     from accuracy_checks.store import Store, Waiver
@@ -68,11 +70,6 @@ class ReportData:
 def load_report_data(store: Store, *, since: date | None = None,
                      now: datetime | None = None) -> ReportData:
     """Read what the report needs from ``store`` (see the module docstring)."""
-    from sqlalchemy import case, or_, select
-
-    from accuracy_checks.store.queries import result_dict
-    from accuracy_checks.store.schema import results, runs
-
     generated = now or datetime.now(UTC)
     every = store.history()
     floor = since.isoformat() if since is not None else None
@@ -91,26 +88,9 @@ def load_report_data(store: Store, *, since: date | None = None,
              if latest is not None else [])
     later.sort(key=_recorded)
     with store.db.read() as conn:
-        ids = dict(conn.execute(select(runs.c.run_id, runs.c.id).where(
-            runs.c.run_id.in_([r["run_id"] for r in by_cycle.values()]
-                              + ([latest["run_id"]] if latest else []))
-        )).all())
-        pk_cycle = {ids[r["run_id"]]: c for c, r in by_cycle.items() if r["run_id"] in ids}
-        keep_details = or_(results.c.check_name == "drift.control_limit",
-                           results.c.details.like('%"variant"%'))
-        rows = conn.execute(
-            select(results.c.run_pk, results.c.check_name, results.c.segment,
-                   results.c.measure, results.c.lag, results.c.status, results.c.value,
-                   results.c.unit, results.c.warn, results.c.fail, results.c.waiver_id,
-                   case((keep_details, results.c.details), else_=None))
-            .where(results.c.run_pk.in_(list(pk_cycle)), results.c.measure.is_not(None))
-        ).all() if pk_cycle else []
-        latest_rows: list[Any] = []
-        if latest is not None and latest["run_id"] in ids:
-            latest_rows = list(conn.execute(
-                select(results).where(results.c.run_pk == ids[latest["run_id"]])
-                .order_by(results.c.seq)).mappings())
-    figures = _figures(list(rows), pk_cycle)
+        rows = figures_of_runs(conn, [r["run_id"] for r in by_cycle.values()])
+        latest_rows = results_of_run(conn, latest["run_id"]) if latest is not None else []
+    figures = _figures(rows, {r["run_id"]: c for c, r in by_cycle.items()})
     latest_results = [_result(result_dict(r), r) for r in latest_rows]
     waivers = store.waivers(include_inactive=True)
     return ReportData(store_url=store.url, generated_at=generated, since=since, runs=in_range,
@@ -124,14 +104,16 @@ def _recorded(run: dict[str, Any]) -> tuple[str, str]:
     return (run["recorded_at"] or run["started_at"] or "", run["started_at"] or "")
 
 
-def _figures(rows: list[Any], pk_cycle: dict[int, str]) -> pd.DataFrame:
-    names = ["run_pk", "check", "segment", "measure", "lag", "status", "value", "unit",
+def _figures(rows: list[tuple[Any, ...]], cycle_of: dict[str, str]) -> pd.DataFrame:
+    """The figure rows of :func:`~accuracy_checks.store.queries.figures_of_runs` as
+    :attr:`ReportData.figures` (each run's cycle from ``cycle_of``)."""
+    names = ["run_id", "check", "segment", "measure", "lag", "status", "value", "unit",
              "warn", "fail", "waiver_id", "details"]
     cols = dict(zip(names, (list(c) for c in zip(*rows, strict=True)), strict=True)) if rows \
         else {n: [] for n in names}
     details = _parse_json(cols["details"], default={})
     frame = pd.DataFrame({
-        "cycle": [pk_cycle.get(pk) for pk in cols["run_pk"]],
+        "cycle": [cycle_of.get(run_id) for run_id in cols["run_id"]],
         "check": pd.Series(cols["check"], dtype=object),
         "segment": pd.Series(cols["segment"], dtype=object),
         "measure": pd.Series(cols["measure"], dtype=object),

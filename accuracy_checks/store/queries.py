@@ -263,3 +263,39 @@ def trail_of_figures(conn: Connection, *, before: str | None, cycles: int,
             variant = variants[details]
         out.append((check, segment, measure, lag, variant, pk_cycle[run_pk], status, value))
     return out
+
+
+#: the columns of :func:`figures_of_runs`' rows
+FIGURE_ROW_COLUMNS = ("run_id", "check_name", "segment", "measure", "lag", "status", "value",
+                      "unit", "warn", "fail", "waiver_id", "details")
+
+
+def figures_of_runs(conn: Connection, run_ids: Sequence[str]) -> list[tuple[Any, ...]]:
+    """The figures of the runs ``run_ids`` (their results with a measure), one row each with
+    :data:`FIGURE_ROW_COLUMNS` (bounds and details as stored JSON text). ``details`` is kept
+    only for ``drift.control_limit`` results and results with a variant (the rest is
+    ``None``: the report's trends read nothing else of it). Unknown run ids are left out."""
+    if not run_ids:
+        return []
+    pk_run = {pk: run_id for run_id, pk in conn.execute(
+        select(runs.c.run_id, runs.c.id).where(runs.c.run_id.in_(list(run_ids)))).all()}
+    if not pk_run:
+        return []
+    keep_details = or_(results.c.check_name == "drift.control_limit",
+                       results.c.details.like('%"variant"%'))
+    rows = conn.execute(
+        select(results.c.run_pk, results.c.check_name, results.c.segment,
+               results.c.measure, results.c.lag, results.c.status, results.c.value,
+               results.c.unit, results.c.warn, results.c.fail, results.c.waiver_id,
+               case((keep_details, results.c.details), else_=None))
+        .where(results.c.run_pk.in_(list(pk_run)), results.c.measure.is_not(None))
+    ).all()
+    return [(pk_run[r[0]], *r[1:]) for r in rows]
+
+
+def results_of_run(conn: Connection, run_id: str) -> list[Any]:
+    """Every result of the run ``run_id`` in recorded order, all columns (row mappings, for
+    :func:`result_dict`); empty when no such run is recorded."""
+    pk = select(runs.c.id).where(runs.c.run_id == run_id).scalar_subquery()
+    return list(conn.execute(
+        select(results).where(results.c.run_pk == pk).order_by(results.c.seq)).mappings())
