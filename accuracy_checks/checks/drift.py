@@ -55,6 +55,7 @@ from accuracy_checks.results import (
     ALL_SERIES,
     BREACHED,
     JUDGED,
+    WAIVABLE,
     CheckResult,
     Reason,
     Status,
@@ -84,8 +85,6 @@ CONTROL_LIMIT = "drift.control_limit"
 SUSTAINED_BREACH = "drift.sustained_breach"
 #: statuses of a result of this run that judged its figure (waivers are applied after drift)
 _JUDGED_NOW = JUDGED - {Status.WAIVED}
-#: statuses of a result of this run that breached a threshold
-_BREACHED_NOW = BREACHED - {Status.WAIVED}
 _KEY = ["check", "segment", "measure", "lag", "variant"]
 
 
@@ -164,7 +163,7 @@ def drift_measures(config: Config, results: Sequence[CheckResult]) -> list[str]:
 def _breached_now(results: Sequence[CheckResult], drift: Drift) -> list[CheckResult]:
     if drift.sustained_cycles < 2:
         return []
-    return [r for r in results if r.status in _BREACHED_NOW and r.measure is not None
+    return [r for r in results if r.status in WAIVABLE and r.measure is not None
             and not r.check.startswith("drift.")]
 
 

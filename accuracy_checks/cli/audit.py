@@ -22,8 +22,10 @@ from typing import TYPE_CHECKING, Any
 if TYPE_CHECKING:
     from accuracy_checks.store import Store
 
+from accuracy_checks.results import DISPLAY_ORDER
+
 COMMANDS = ("history", "breaches", "waive", "waivers", "revoke", "verify")
-STATUSES = ("pass", "warn", "fail", "skipped", "waived", "error")
+STATUSES = tuple(DISPLAY_ORDER)
 
 
 def iso_day(text: str) -> date:

@@ -43,7 +43,7 @@ from accuracy_checks.outputs.wording import (
     format_example,
     result_label,
 )
-from accuracy_checks.results import FAILING, CheckResult, RunReport, sort_for_display
+from accuracy_checks.results import FAILING, CheckResult, RunReport, Status, sort_for_display
 
 __all__ = ["MAX_EXAMPLES", "to_junit_xml", "write_junit"]
 
@@ -135,7 +135,7 @@ def _suite_counts(results: list[CheckResult], *, with_skipped: bool = True) -> d
     """The count attributes of a ``<testsuite>`` (``with_skipped=False``: of ``<testsuites>``,
     where the schema has no ``skipped``)."""
     failures = sum(r.status in FAILING for r in results)
-    skipped = sum(r.status in ("skipped", "waived") for r in results)
+    skipped = sum(r.status in (Status.SKIPPED, Status.WAIVED) for r in results)
     counts = {"tests": str(len(results)), "failures": str(failures), "errors": "0"}
     if with_skipped:
         counts["skipped"] = str(skipped)
