@@ -98,7 +98,7 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
         else:
             frame = _read_csv_columns(file, columns, role)
     except READ_ERRORS as exc:
-        raise InputError(f"The {role} file {file} cannot be read: {exc}") from None
+        raise InputError(f"The {role} file {file} cannot be read: {why(exc)}") from None
     first_line = 1 if is_parquet else 2  # CSV: line 1 is the header
     out: dict[str, pd.Series] = {}
     for c in columns:
@@ -116,7 +116,8 @@ def check_header(file: Path, columns: Sequence[Column], role: str) -> None:
         raise InputError(
             f"The {role} file {file} has no column {c.name!r} (config key `{c.key}`). "
             f"Its columns are: {', '.join(map(str, present)) or '(none)'}. "
-            "Fix the column name in the config or in the file."
+            + _separator_hint(present, file)
+            + "Fix the column name in the config or in the file."
         )
     counts = Counter(present)
     twice = [c for c in columns if counts[c.name] > 1]
@@ -127,6 +128,27 @@ def check_header(file: Path, columns: Sequence[Column], role: str) -> None:
             f"`{c.key}`); which one holds the data cannot be told. Rename or "
             "drop the extra column(s)."
         )
+
+
+def why(exc: BaseException) -> str:
+    """The reason a file cannot be read, in the user's terms (an encoding problem says how to
+    fix it; other errors keep the reader's own words)."""
+    if isinstance(exc, UnicodeDecodeError):
+        return (f"it is not UTF-8 text (byte 0x{exc.object[exc.start]:02x} at position "
+                f"{exc.start:,} is not valid UTF-8). Save it as UTF-8 (with or without a BOM).")
+    return str(exc)
+
+
+def _separator_hint(present: Sequence[str], file: Path) -> str:
+    """A hint when a CSV header read as one column holds another separator."""
+    if file.suffix.lower() in PARQUET or len(present) != 1:
+        return ""
+    for sep, name in ((";", "semicolons"), ("\t", "tabs"), ("|", "vertical bars")):
+        if sep in present[0]:
+            expected = "tabs (a .tsv file)" if file.suffix.lower() == ".tsv" else "commas"
+            return (f"The header reads as one column: the file seems separated by {name}, "
+                    f"but this reader expects {expected}. ")
+    return ""
 
 
 def file_header(file: Path, role: str) -> list[str]:
@@ -147,7 +169,7 @@ def file_header(file: Path, role: str) -> list[str]:
         ) from None
     except READ_ERRORS as exc:
         kind = "Parquet" if is_parquet else "CSV"
-        raise InputError(f"The {role} file {file} cannot be read as {kind}: {exc}") from None
+        raise InputError(f"The {role} file {file} cannot be read as {kind}: {why(exc)}") from None
     if len(first) == 0:
         return []
     return [str(v) for v in first.iloc[0].tolist()]

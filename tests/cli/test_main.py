@@ -294,3 +294,18 @@ def test_an_unquoted_decimal_comma_is_refused(make_project: Callable[..., Projec
     path.write_text("\n".join(lines) + "\n")
     err = refused(project, capsys)
     assert "actuals.csv" in err and "5 fields on line 3" in err and "decimal" in err
+
+
+def test_unusual_separators_and_encodings_are_named(make_project: Callable[..., Project],
+                                                    capsys: pytest.CaptureFixture[str]) -> None:
+    project = make_project()
+    path = project.data / "forecast.csv"
+    text = path.read_text()
+    path.write_text(text.replace(",", ";"))
+    assert "seems separated by semicolons" in refused(project, capsys)
+    path.write_text(text.replace("S1", "Sö1"), encoding="latin-1")
+    err = refused(project, capsys)
+    assert "forecast.csv" in err and "it is not UTF-8 text" in err
+    # a BOM and Windows line ends are read as the same file
+    path.write_text(text.replace("\n", "\r\n"), encoding="utf-8-sig", newline="")
+    assert run(project) == 0

@@ -162,3 +162,19 @@ def test_a_tsv_is_read_with_tabs(tmp_path: Path, text: str) -> None:
     name = "f.tsv" if "\t" in text else "f.csv"
     (tmp_path / name).write_text(text)
     assert file_header(tmp_path / name, "forecast") == ["a", "b"]
+
+
+def test_a_header_read_as_one_column_names_the_separator_it_holds(tmp_path: Path) -> None:
+    (tmp_path / "f.csv").write_text("store;product\nS1;P1\n")
+    column = Column("product", "key", "forecast.keys")
+    msg = read_error(check_header, tmp_path / "f.csv", [column], "forecast")
+    assert "seems separated by semicolons, but this reader expects commas" in msg
+
+
+@pytest.mark.parametrize("encoding", ["latin-1", "utf-16"])
+def test_a_file_that_is_not_utf8_says_so_and_how_to_fix_it(tmp_path: Path,
+                                                            encoding: str) -> None:
+    (tmp_path / "f.csv").write_text("störe,product\nS1,P1\n", encoding=encoding)
+    column = Column("product", "key", "forecast.keys")
+    msg = read_error(check_header, tmp_path / "f.csv", [column], "forecast")
+    assert "it is not UTF-8 text" in msg and "Save it as UTF-8" in msg
