@@ -27,6 +27,7 @@ from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.checks.plugins import run_check_plugins
 from accuracy_checks.config import Config
+from accuracy_checks.errors import UsageError
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.frames import cycle_label
@@ -38,6 +39,7 @@ from accuracy_checks.sources.load import (
     load_inputs,
     quiet,
 )
+from accuracy_checks.sources.memory import GivenFrames
 from accuracy_checks.store.archive import (
     Archive,
     Snapshot,
@@ -49,7 +51,7 @@ from accuracy_checks.store.archive import (
 if TYPE_CHECKING:
     from accuracy_checks.store import Store
 
-__all__ = ["ARCHIVE_CHECK", "archived_cycles", "evaluate", "run_checks",
+__all__ = ["ARCHIVE_CHECK", "archived_cycles", "evaluate", "given_frames", "run_checks",
            "unmatched_thresholds"]
 
 T = TypeVar("T")
@@ -173,8 +175,17 @@ def _series_count_not_compared(cycle: str) -> CheckResult:
 
 def run_checks(config: Config, *, forecast_path: Path | None = None,
                actuals_path: Path | None = None, progress: Progress | None = None,
-               snapshot: bool = True, label: str | None = None) -> RunReport:
+               snapshot: bool = True, label: str | None = None,
+               forecast: object = None, actuals: object = None, history: object = None,
+               mapping: object = None) -> RunReport:
     """Run every check of ``config`` on the current forecast, record the run, return it.
+
+    ``forecast``, ``actuals``, ``history`` (one frame or a list) and ``mapping`` take pandas
+    DataFrames or pyarrow Tables with the configured column names: a frame given replaces
+    the config's place for that input and is validated like a file, a bad one raising the
+    same :class:`~accuracy_checks.errors.InputError` naming the frame and the column
+    (:mod:`accuracy_checks.sources.memory`). ``forecast_path``/``actuals_path`` override the
+    config's paths instead (not both for one input).
 
     Every input is read and validated first: an unusable input raises before anything is
     written. The drift checks (:mod:`accuracy_checks.checks.drift`, unless ``drift.enabled`` is
@@ -195,9 +206,13 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
     progress = progress or quiet
     started = datetime.now(UTC)
     run_id = uuid.uuid4().hex
+    frames = given_frames(forecast=forecast, actuals=actuals, history=history,
+                          mapping=mapping, forecast_path=forecast_path,
+                          actuals_path=actuals_path)
     recorded = _prepare_store_and_archive(config, snapshot=snapshot, progress=progress)
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
-                         progress=progress, archive=archived_cycles(config, recorded))
+                         progress=progress, archive=archived_cycles(config, recorded),
+                         frames=frames)
     results = evaluate(config, inputs, progress=progress)
     cycle = cycle_label(inputs.issued)
     with open_store(config) as store:
@@ -219,6 +234,21 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
         _record(config, store, report, staged, forecast_path=forecast_path,
                 actuals_path=actuals_path, progress=progress)
     return report
+
+
+def given_frames(*, forecast: object = None, actuals: object = None, history: object = None,
+                 mapping: object = None, forecast_path: Path | None = None,
+                 actuals_path: Path | None = None) -> GivenFrames | None:
+    """The frames given to a run (``None`` when none is); a frame and a path for the same
+    input is a :class:`~accuracy_checks.errors.UsageError`, a value that is not a frame an
+    :class:`~accuracy_checks.errors.InputError`."""
+    for name, frame, path in (("forecast", forecast, forecast_path),
+                              ("actuals", actuals, actuals_path)):
+        if frame is not None and path is not None:
+            raise UsageError(f"Both a {name} frame (argument `{name}`) and a {name} path "
+                             f"(`{name}_path`) were given: give one of them.")
+    frames = GivenFrames(forecast=forecast, actuals=actuals, history=history, mapping=mapping)
+    return frames if frames.any else None
 
 
 def _prepare_store_and_archive(config: Config, *, snapshot: bool,

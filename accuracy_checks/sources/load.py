@@ -7,6 +7,11 @@ and from the archive (the reader the caller passes: the archive belongs to the s
 above this one), each cut to the rows of a configured lag inside the evaluation span right
 after reading; then one set of categories per key and segment column across every frame, and
 the ``segment`` column of each.
+
+Frames given in memory (:class:`~accuracy_checks.sources.memory.GivenFrames`) replace the
+config's place of their input and go through the same steps
+(:mod:`accuracy_checks.sources.memory`); ``Inputs.info`` then says the input came from a
+frame, with its fingerprint instead of a path.
 """
 
 from __future__ import annotations
@@ -25,6 +30,14 @@ from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
 from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.codes import duplicated_rows, n_distinct
+from accuracy_checks.sources.memory import (
+    Given,
+    GivenFrames,
+    actuals_from_frame,
+    forecast_from_frame,
+    history_from_frame,
+    mapping_from_frame,
+)
 from accuracy_checks.sources.prereads import actual_periods, actual_series, cycle_starts
 from accuracy_checks.sources.readers import read_actuals, read_forecast
 from accuracy_checks.sources.segments import (
@@ -92,26 +105,30 @@ ArchiveReader = Callable[[pd.Timestamp, set[pd.Timestamp], Prune], ArchivedCycle
 
 def load_inputs(config: Config, *, forecast_path: Path | None = None,
                 actuals_path: Path | None = None, progress: Progress = quiet,
-                archive: ArchiveReader | None = None) -> Inputs:
+                archive: ArchiveReader | None = None,
+                frames: GivenFrames | None = None) -> Inputs:
     """Read and validate every input (no writes). Raises InputError on unusable input.
 
     Key columns come back as categoricals sharing one set of categories across every frame,
     so joins and group-bys run on integer codes. ``archive`` reads the earlier cycles kept in
     the archive (the engine's :func:`~accuracy_checks.engine.archived_cycles`: the last
     recorded snapshot of each cycle, warnings in ``Inputs.notes`` for the cycles left out);
-    ``None``: the earlier cycles come from the history files only.
+    ``None``: the earlier cycles come from the history files only. ``frames`` replace the
+    config's place of the inputs they give (:mod:`accuracy_checks.sources.memory`).
     """
+    given = frames or GivenFrames()
     keys, seg_cols = list(config.forecast.keys), list(config.segments.columns)
-    mapping = read_mapping(config)
-    forecast = _read_current(config, forecast_path, seg_cols, progress)
+    mapping = (mapping_from_frame(config, given.mapping) if given.mapping is not None
+               else read_mapping(config))
+    forecast = _read_current(config, forecast_path, seg_cols, progress, given)
     issued = pd.Timestamp(forecast[F.ISSUED].max())
-    actuals, older = _read_actuals(config, actuals_path, progress)
+    actuals, older = _read_actuals(config, actuals_path, progress, given)
 
     t0 = time.perf_counter()
     # earlier forecasts: only rows of a configured lag inside the evaluation span are ever
     # used, so they are cut right at reading (Parquet: filtered while reading)
     span = window_periods(actuals, evaluation_span(config))
-    history, history_cycles = _read_history(config, issued, span, seg_cols)
+    history, history_cycles = _read_history(config, issued, span, seg_cols, given)
     archived = (archive(issued, history_cycles, lambda frame: prune_earlier(
         frame, periods=span, lags=list(config.evaluation.lags), frequency=config.frequency))
         if archive is not None else ArchivedCycles())
@@ -134,32 +151,64 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
     actuals = attach_segments(got["actuals"], config, mapping,
                               lambda: segments_of_series([forecast, *parts], keys))
     info: dict[str, object] = {
-        "forecast": {"path": str(forecast_path or config.forecast.path), "rows": len(forecast),
-                     "series": n_distinct(forecast, keys)},
-        "actuals": {"path": str(actuals_path or config.actuals.path), "rows": len(actuals)},
+        "forecast": {**_place(given.forecast, forecast_path or config.forecast.path, config),
+                     "rows": len(forecast), "series": n_distinct(forecast, keys)},
+        "actuals": {**_place(given.actuals, actuals_path or config.actuals.path, config),
+                    "rows": len(actuals)},
         "earlier": {"rows": len(earlier), "history_rows": len(history_frame),
                     "archive_rows": len(archived_frame)},
     }
+    if given.history is not None:
+        info["history"] = [_place(h, None, config) for h in given.history]
+    if given.mapping is not None:
+        info["mapping"] = _place(given.mapping, None, config)
     return Inputs(forecast, actuals, earlier, mapping, got.get("previous"),
                   archived.previous_label, issued, info, got.get("older"), archived.notes)
 
 
+def _place(given: Given | None, path: Path | None, config: Config) -> dict[str, object]:
+    """Where an input came from, for ``Inputs.info``: its path, or the frame's kind and
+    fingerprint (the columns the tool reads)."""
+    if given is None:
+        return {"path": str(path)}
+    names = [str(c) for c in given.frame.columns]
+    fc, ac = config.forecast, config.actuals
+    wanted = {
+        "forecast": [*fc.keys, fc.period, fc.issued, fc.value, *fc.quantiles.values(),
+                     *config.segments.columns],
+        "history": [*fc.keys, fc.period, fc.issued, fc.value, *fc.quantiles.values(),
+                    *config.segments.columns],
+        "actuals": [*config.actual_keys, ac.period, ac.value],
+        "mapping": [*fc.keys, *config.segments.columns],
+    }[given.role]
+    return given.info([n for n in wanted if n in names])
+
+
 def _read_current(config: Config, path: Path | None, seg_cols: list[str],
-                  progress: Progress) -> pd.DataFrame:
+                  progress: Progress, given: GivenFrames) -> pd.DataFrame:
     """The current forecast, with the segment columns it holds."""
     t0 = time.perf_counter()
-    forecast = read_forecast(config, path, segment_columns=seg_cols)
+    if given.forecast is not None:
+        forecast = forecast_from_frame(config, given.forecast, segment_columns=seg_cols)
+    else:
+        forecast = read_forecast(config, path, segment_columns=seg_cols)
     progress(f"read forecast: {len(forecast):,} rows in {time.perf_counter() - t0:.1f} s")
     return forecast
 
 
-def _read_actuals(config: Config, path: Path | None, progress: Progress
+def _read_actuals(config: Config, path: Path | None, progress: Progress, given: GivenFrames
                   ) -> tuple[pd.DataFrame, pd.DataFrame | None]:
     """The actuals: only the recent periods the checks use (:func:`actuals_span`) when the
-    Parquet pre-reads can tell them, with the series the older rows know (kept for the
-    unexpected-series check); else every row and ``None``."""
+    Parquet pre-reads (or a frame) can tell them, with the series the older rows know (kept
+    for the unexpected-series check); else every row and ``None``."""
     t0 = time.perf_counter()
     needed = actuals_span(config)
+    if given.actuals is not None:
+        actuals, older = actuals_from_frame(config, given.actuals, needed=needed)
+        cut = f" of the last {needed} periods" if older is not None else ""
+        progress(f"read actuals: {len(actuals):,} rows{cut} from the frame in "
+                 f"{time.perf_counter() - t0:.1f} s")
+        return actuals, older
     periods = actual_periods(config, path) if needed is not None else None
     if needed is not None and periods is not None and len(periods) > needed:
         actuals = read_actuals(config, path, periods=list(periods[-needed:]))
@@ -174,12 +223,23 @@ def _read_actuals(config: Config, path: Path | None, progress: Progress
 
 
 def _read_history(config: Config, issued: pd.Timestamp, span: list[pd.Timestamp],
-                  seg_cols: list[str]) -> tuple[list[pd.DataFrame], set[pd.Timestamp]]:
-    """The rows of each history file the evaluation can use (cycles issued before the run's,
-    configured lags, target in ``span``) and the issue dates of every cycle the files hold."""
+                  seg_cols: list[str], given: GivenFrames
+                  ) -> tuple[list[pd.DataFrame], set[pd.Timestamp]]:
+    """The rows of each history file (or frame) the evaluation can use (cycles issued before
+    the run's, configured lags, target in ``span``) and the issue dates of every cycle the
+    files hold."""
     lags = list(config.evaluation.lags)
     history = []
     history_cycles: set[pd.Timestamp] = set()
+    if given.history is not None:
+        for h in given.history:
+            part, cycles = history_from_frame(
+                config, h, issued=issued, span=span, segment_columns=seg_cols,
+                prune=lambda frame, starts: prune_earlier(
+                    frame, periods=span, lags=lags, frequency=config.frequency, starts=starts))
+            history.append(part)
+            history_cycles |= cycles
+        return history, history_cycles
     for p in config.history_paths:
         starts = cycle_starts(p, config)
         part = read_forecast(config, p, role="history", key="history",

@@ -250,18 +250,27 @@ def _sha256(path: Path) -> tuple[str, int]:
 def input_fingerprints(config: Config, info: dict[str, Any], *,
                        forecast_path: Path | None = None,
                        actuals_path: Path | None = None) -> dict[str, Any]:
-    """Fingerprints of every input of a run, with the row counts from the run's ``info``."""
+    """Fingerprints of every input of a run, with the row counts from the run's ``info``.
+    An input given as a frame has no file: its ``info`` entry (``"frame"``, rows, content
+    hash; :mod:`accuracy_checks.sources.memory`) is its fingerprint."""
     out: dict[str, Any] = {}
     for role, path in (("forecast", forecast_path or config.forecast.path),
                        ("actuals", actuals_path or config.actuals.path)):
-        entry = file_fingerprint(path)
         seen = info.get(role)
+        if isinstance(seen, dict) and "frame" in seen:
+            out[role] = dict(seen)
+            continue
+        entry = file_fingerprint(path)
         if isinstance(seen, dict):
             entry.update({k: v for k, v in seen.items() if k != "path"})
         out[role] = entry
-    if config.history_paths:
+    if isinstance(info.get("history"), list):
+        out["history"] = list(info["history"])
+    elif config.history_paths:
         out["history"] = [file_fingerprint(p) for p in config.history_paths]
-    if config.segments.mapping is not None:
+    if isinstance(info.get("mapping"), dict):
+        out["mapping"] = dict(info["mapping"])
+    elif config.segments.mapping is not None:
         out["mapping"] = file_fingerprint(config.segments.mapping)
     earlier = info.get("earlier")
     if isinstance(earlier, dict):
