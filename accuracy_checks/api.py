@@ -20,6 +20,7 @@ from accuracy_checks.sources import frames as F
 
 if TYPE_CHECKING:
     from accuracy_checks.sources.load import Inputs
+    from accuracy_checks.sources.memory import GivenFrames
 
 __all__ = ["evaluation_frame", "read_config"]
 
@@ -33,7 +34,9 @@ def read_config(config: str | os.PathLike[str] | Config) -> Config:
 
 def evaluation_frame(config: str | os.PathLike[str] | Config, *,
                      forecast_path: Path | None = None,
-                     actuals_path: Path | None = None) -> pd.DataFrame:
+                     actuals_path: Path | None = None, forecast: object = None,
+                     actuals: object = None, history: object = None,
+                     mapping: object = None) -> pd.DataFrame:
     """The frame the accuracy checks of ``config`` run on: earlier cycles' forecasts joined
     with the actuals that have arrived since.
 
@@ -52,25 +55,35 @@ def evaluation_frame(config: str | os.PathLike[str] | Config, *,
     forecast or actual are kept; the measures count them as dropped (``n_dropped``). The
     tracking signals look further back (``evaluation.tracking_window`` periods); their extra
     rows are not in this frame.
-    ``forecast_path``/``actuals_path`` override the config's paths, as on the command line.
+    ``forecast_path``/``actuals_path`` override the config's paths, as on the command line;
+    ``forecast``, ``actuals``, ``history`` and ``mapping`` take frames (pandas DataFrames or
+    pyarrow Tables) in place of the config's places, as
+    :func:`~accuracy_checks.engine.run_checks` does.
 
     Raises :class:`~accuracy_checks.errors.ConfigError` or
     :class:`~accuracy_checks.errors.InputError` on an unusable config or input.
     """
+    from accuracy_checks.engine import given_frames
+
     cfg = read_config(config)
-    frame, _ = _evaluation(cfg, forecast_path=forecast_path, actuals_path=actuals_path)
+    frames = given_frames(forecast=forecast, actuals=actuals, history=history,
+                          mapping=mapping, forecast_path=forecast_path,
+                          actuals_path=actuals_path)
+    frame, _ = _evaluation(cfg, forecast_path=forecast_path, actuals_path=actuals_path,
+                           frames=frames)
     return frame
 
 
 def _evaluation(config: Config, *, forecast_path: Path | None = None,
-                actuals_path: Path | None = None) -> tuple[pd.DataFrame, Inputs]:
+                actuals_path: Path | None = None,
+                frames: GivenFrames | None = None) -> tuple[pd.DataFrame, Inputs]:
     """The evaluation frame (columns ordered) and the loaded inputs."""
     from accuracy_checks.engine import archived_cycles
     from accuracy_checks.evaluation.join import evaluation_frame as join
     from accuracy_checks.sources.load import load_inputs
 
     inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
-                         archive=archived_cycles(config))
+                         archive=archived_cycles(config), frames=frames)
     keys = list(config.forecast.keys)
     ev = join(inputs.earlier, inputs.actuals, keys=keys, frequency=config.frequency,
               lags=config.evaluation.lags, window=config.evaluation.window)

@@ -14,6 +14,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 import pytest
 
 import accuracy_checks
@@ -67,3 +68,14 @@ def test_evaluation_frame_takes_a_config_object(make_project: Callable[..., Proj
 def test_evaluation_frame_reports_a_bad_config(tmp_path: Path) -> None:
     with pytest.raises(accuracy_checks.ConfigError, match="does not exist"):
         accuracy_checks.evaluation_frame(f"{tmp_path}/missing.yaml")
+
+
+def test_evaluation_frame_from_frames_equals_the_files(make_project: Callable[..., Project]
+                                                       ) -> None:
+    project = make_project()
+    from_files = accuracy_checks.evaluation_frame(project.config)
+    earlier = pa.Table.from_pandas(pd.read_csv(project.data / "earlier.csv"))
+    from_frames = accuracy_checks.evaluation_frame(
+        project.config, history=earlier, actuals=pd.read_csv(project.data / "actuals.csv"),
+        mapping=pd.read_csv(project.data / "products.csv"))
+    pd.testing.assert_frame_equal(from_frames, from_files, check_categorical=False)

@@ -81,6 +81,27 @@ def test_biased_segment_fails_and_others_pass(make_project: Callable[..., Projec
     assert report.status == "fail"
 
 
+def test_frames_in_memory_give_the_numpy_figures(make_project: Callable[..., Project]) -> None:
+    """run_checks with every input as a frame: the plants' bias and WAPE recomputed with
+    numpy from the same frames (docs/measures.md formulas)."""
+    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
+    plants = earlier["product"].isin(["P2", "P3"])
+    earlier.loc[plants, "units"] = earlier.loc[plants, "units"] / 0.97 * 0.85
+    project = make_project(earlier=earlier)
+    actuals = actuals_frame(CURRENT)
+    report = run_checks(load_config(project.config), forecast=forecast_frame(CURRENT),
+                        actuals=actuals, history=[earlier],
+                        mapping=pd.read_csv(project.data / "products.csv"))
+    periods = ["2026-02-16", "2026-02-23"]
+    want = direct(earlier, actuals, periods, lambda j: j["product"].isin(["P2", "P3"]))
+    got = find(report, "accuracy", "plants", "bias_pct", 1)
+    assert got.value == pytest.approx(want["bias_pct"], rel=1e-12) and got.status == "fail"
+    assert find(report, "accuracy", "plants", "wape", 1).value == pytest.approx(
+        want["wape"], rel=1e-12)
+    assert got.n_obs == want["n"]
+    assert report.inputs["forecast"]["frame"] == "pandas.DataFrame"
+
+
 def test_segment_override_and_asymmetric_bounds(make_project: Callable[..., Project]) -> None:
     earlier = pd.concat([forecast_frame(d, bias=1.08) for d in EARLIER], ignore_index=True)
     extra = ("  segments:\n    plants:\n      bias_pct: {warn: [-9, 5], fail: [-12, 10]}\n"

@@ -278,3 +278,27 @@ def _config() -> Any:
         "           issued: issued_on, quantiles: {0.1: p10, 0.9: p90}}\n"
         "actuals: {path: a.csv, period: week, value: units_sold}\n"
         "frequency: W-MON\nhorizon: 4\n")
+
+
+def test_history_frame_is_cut_to_the_lags_and_span_before_conversion(
+        make_project: Callable[..., Project]) -> None:
+    """Reading only what is used: a history row whose target period lies outside the
+    evaluation span (no actual yet) is never converted, so text in its number column changes
+    nothing; damage in a used row is the file's error, naming the rows by their position in
+    the whole frame (the unused one too, as a file's message would)."""
+    project = a_project(make_project)
+    frames = read_text_frames(project)
+    history = frames["history"]
+    unused = int(((history["week"] > history["issued_on"])
+                  & (history["week"] == "2026-03-02")).to_numpy().argmax())
+    used = int((history["week"] == history["issued_on"]).to_numpy()[::-1].argmax())
+    used = len(history) - 1 - used
+    damaged = history.astype({"units": object})
+    damaged.loc[unused, "units"] = "x"
+    want = run_checks(load_config(copy_of(project, "clean")), history=history)
+    got = run_checks(load_config(copy_of(project, "damaged")), history=damaged)
+    assert_same(got, want)
+    damaged.loc[used, "units"] = "y"
+    with pytest.raises(InputError, match=rf"history frame \(argument `history`\), column "
+                                         rf"'units'.*\(row {unused}: 'x', row {used}: 'y'\)"):
+        run_checks(load_config(copy_of(project, "used")), history=damaged)
