@@ -11,6 +11,8 @@ the registered measures.
 - :mod:`~accuracy_checks.config.catalogue`: the catalogue a config is checked against.
 - :mod:`~accuracy_checks.config.loading`: YAML → :class:`Config`; the error messages.
 - :mod:`~accuracy_checks.config.schema`: the JSON Schema for editors.
+- :mod:`~accuracy_checks.config.places`: where an input is: a path, or a table or query.
+- :mod:`~accuracy_checks.config.urls`: ``${NAME}`` in URLs, passwords masked.
 
 Every problem is raised as :class:`~accuracy_checks.errors.ConfigError` naming the file, the
 key path and, for a misspelt key, the closest valid key.
@@ -30,7 +32,10 @@ from accuracy_checks.config.models import (
     Evaluation,
     ForecastSource,
     Level,
+    Place,
     Segments,
+    SqlPlace,
+    SqlSource,
     Thresholds,
     UnitCosts,
 )
@@ -51,7 +56,10 @@ __all__ = [
     "ForecastSource",
     "Level",
     "MeasureInfo",
+    "Place",
     "Segments",
+    "SqlPlace",
+    "SqlSource",
     "Thresholds",
     "UnitCosts",
     "check_level",

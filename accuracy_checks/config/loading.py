@@ -20,7 +20,8 @@ import yaml
 from pydantic import BaseModel, ValidationError
 
 from accuracy_checks.config.catalogue import CONTEXT_KEY, Catalogue, did_you_mean
-from accuracy_checks.config.models import Config
+from accuracy_checks.config.models import Config, SqlPlace, SqlSource
+from accuracy_checks.config.urls import expand_env
 from accuracy_checks.errors import ConfigError
 
 __all__ = ["CatalogueSource", "load_config", "parse_config", "validate"]
@@ -108,6 +109,11 @@ def parse_config(text: str, *, catalogue: CatalogueSource, source: Path | None =
         config = validate(raw, catalogue)
     except ValidationError as exc:
         raise ConfigError(_explain(exc, name)) from None
+    for key, sql in config.sql_sources:
+        try:
+            expand_env(sql.url, f"{key}.url")
+        except ConfigError as exc:
+            raise ConfigError(f"Config file {name}: {exc}") from None
     base = source.resolve().parent if source else Path.cwd()
     config = _resolve_paths(config, base)
     config._source = source.resolve() if source else None
@@ -115,32 +121,46 @@ def parse_config(text: str, *, catalogue: CatalogueSource, source: Path | None =
     return config
 
 
+def _file_url(url: str, res: Callable[[Path], Path]) -> str:
+    """An SQLite or DuckDB URL with a relative database file made absolute (``res``); any
+    other URL as it is."""
+    for prefix in ("sqlite:///", "duckdb:///"):
+        if url.startswith(prefix) and not url.startswith(prefix + "/"):
+            rest, sep, query = url[len(prefix):].partition("?")
+            if rest and rest != ":memory:" and not rest.startswith("${"):
+                return prefix + str(res(Path(rest))) + sep + query
+    return url
+
+
 def _resolve_paths(config: Config, base: Path) -> Config:
     def res(p: Path) -> Path:
         p = p.expanduser()
         return p if p.is_absolute() else (base / p)
 
+    def sql(s: SqlSource) -> SqlSource:
+        return s.model_copy(update={"url": _file_url(s.url, res)})
+
+    def place(p: Any) -> Any:
+        if isinstance(p, SqlPlace):
+            return p.model_copy(update={"sql": sql(p.sql)})
+        return res(p) if isinstance(p, Path) else p
+
+    def section(s: Any) -> Any:
+        return s.model_copy(update={"path": place(s.path),
+                                    "sql": sql(s.sql) if s.sql is not None else None})
+
     history = config.history
-    if isinstance(history, list):
-        history = [res(p) for p in history]
-    elif history is not None:
-        history = res(history)
-    store = config.store
-    prefix = "sqlite:///"
-    if store and store.startswith(prefix) and not store.startswith(prefix + "/"):
-        rest = store[len(prefix) :]
-        if rest and rest != ":memory:":
-            store = prefix + str(res(Path(rest)))
-    mapping = config.segments.mapping
+    history = [place(p) for p in history] if isinstance(history, list) else place(history)
+    store = _file_url(config.store, res) if config.store else config.store
     return config.model_copy(
         update={
-            "forecast": config.forecast.model_copy(update={"path": res(config.forecast.path)}),
-            "actuals": config.actuals.model_copy(update={"path": res(config.actuals.path)}),
+            "forecast": section(config.forecast),
+            "actuals": section(config.actuals),
             "history": history,
             "archive": res(config.archive),
             "store": store,
             "segments": config.segments.model_copy(
-                update={"mapping": res(mapping) if mapping else None}
+                update={"mapping": place(config.segments.mapping)}
             ),
         }
     )
@@ -176,7 +196,8 @@ def _explain(exc: ValidationError, name: str) -> str:
 def _is_union_tag(part: Any) -> bool:
     # pydantic inserts the member type's name into the location of union errors
     return isinstance(part, str) and (
-        part in {"float", "tuple[float, float]", "bool", "list[str]", "list[Path]", "Path"}
+        part in {"float", "tuple[float, float]", "bool", "list[str]", "list[Path]", "Path",
+                 "SqlPlace", "SqlSource", "list"}
         or part.startswith(("function-", "tuple[", "list["))
     )
 
@@ -185,6 +206,12 @@ def _fields_at(loc: tuple[Any, ...]) -> list[str]:
     """The valid keys of the model found at ``loc`` (for "did you mean")."""
     tp: Any = Config
     for part in loc:
+        if isinstance(part, int):  # an item of a list (``history[0]``)
+            lists = [a for a in _members(tp) if typing.get_origin(a) is list]
+            if not lists:
+                return []
+            tp = typing.get_args(lists[0])[0]
+            continue
         tp = _unwrap(tp)
         if isinstance(tp, type) and issubclass(tp, BaseModel):
             field = tp.model_fields.get(str(part))
@@ -201,11 +228,24 @@ def _fields_at(loc: tuple[Any, ...]) -> list[str]:
     return []
 
 
+def _members(tp: Any) -> list[Any]:
+    """The members of a union (``Annotated`` removed), or ``[tp]``."""
+    while typing.get_origin(tp) is Annotated:
+        tp = typing.get_args(tp)[0]
+    if typing.get_origin(tp) in (typing.Union, types.UnionType):
+        return [m for a in typing.get_args(tp) for m in _members(a)]
+    return [tp]
+
+
 def _unwrap(tp: Any) -> Any:
     origin = typing.get_origin(tp)
     if origin is Annotated:
         return _unwrap(typing.get_args(tp)[0])
     if origin in (typing.Union, types.UnionType):
-        models = [a for a in typing.get_args(tp) if a is not type(None)]
-        return _unwrap(models[0]) if len(models) == 1 else tp
+        members = [_unwrap(a) for a in typing.get_args(tp) if a is not type(None)]
+        if len(members) == 1:
+            return members[0]
+        # a path or a model (``history``, ``segments.mapping``): keys are the model's
+        models = [m for m in members if isinstance(m, type) and issubclass(m, BaseModel)]
+        return models[0] if len(models) == 1 else tp
     return tp

@@ -16,8 +16,10 @@ from typing import Annotated, Literal
 from pydantic import (
     BaseModel,
     ConfigDict,
+    Discriminator,
     Field,
     PrivateAttr,
+    Tag,
     ValidationInfo,
     field_validator,
     model_validator,
@@ -32,6 +34,14 @@ from accuracy_checks.config.catalogue import (
     unmet_inputs,
 )
 from accuracy_checks.config.levels import Bound, check_level
+from accuracy_checks.config.places import (
+    Place,
+    PlaceEntry,
+    SqlPlace,
+    SqlSource,
+    entry_kind,
+    one_place,
+)
 
 __all__ = [
     "MAX_HORIZON",
@@ -44,7 +54,10 @@ __all__ = [
     "Evaluation",
     "ForecastSource",
     "Level",
+    "Place",
     "Segments",
+    "SqlPlace",
+    "SqlSource",
     "Thresholds",
     "UnitCosts",
 ]
@@ -81,9 +94,11 @@ class Level(_Strict):
 
 
 class ForecastSource(_Strict):
-    """Where the forecast is and which columns hold what."""
+    """Where the forecast is (``path``, or ``sql``: a table or query) and which columns hold
+    what."""
 
-    path: Path
+    path: Path | None = None
+    sql: SqlSource | None = None
     keys: Annotated[list[str], Field(min_length=1)]
     period: str
     value: str
@@ -120,6 +135,16 @@ class ForecastSource(_Strict):
             raise ValueError("two quantile levels name the same column")
         return dict(sorted(quantiles.items()))
 
+    @property
+    def place(self) -> Place:
+        """The forecast's place: its path, or its SQL source."""
+        return self.sql if self.sql is not None else self.path  # type: ignore[return-value]
+
+    @model_validator(mode="after")
+    def _place(self) -> ForecastSource:
+        one_place("forecast", self.path, self.sql)
+        return self
+
     @model_validator(mode="after")
     def _date_formats(self) -> ForecastSource:
         _check_date_formats("forecast", self.date_formats, {"period": self.period,
@@ -128,15 +153,27 @@ class ForecastSource(_Strict):
 
 
 class ActualsSource(_Strict):
-    """Where the actuals are; ``keys`` default to the forecast's keys."""
+    """Where the actuals are (``path``, or ``sql``: a table or query); ``keys`` default to the
+    forecast's keys."""
 
-    path: Path
+    path: Path | None = None
+    sql: SqlSource | None = None
     period: str
     value: str
     keys: list[str] | None = None
     #: the one format of the period column when written as text (``{column: "%d/%m/%Y"}``);
     #: default ISO 8601 (YYYY-MM-DD)
     date_formats: dict[str, str] = Field(default_factory=dict)
+
+    @property
+    def place(self) -> Place:
+        """The actuals' place: their path, or their SQL source."""
+        return self.sql if self.sql is not None else self.path  # type: ignore[return-value]
+
+    @model_validator(mode="after")
+    def _place(self) -> ActualsSource:
+        one_place("actuals", self.path, self.sql)
+        return self
 
     @model_validator(mode="after")
     def _date_formats(self) -> ActualsSource:
@@ -187,7 +224,13 @@ class Segments(_Strict):
     """How series are grouped into segments that share thresholds."""
 
     columns: list[str] = Field(default_factory=list)
-    mapping: Path | None = None
+    #: a file, or a table or query (``{sql: {url, table}}``)
+    mapping: PlaceEntry | None = None
+
+    @property
+    def mapping_place(self) -> Place | None:
+        """The mapping's place: its path or its SQL source (``None``: no mapping)."""
+        return self.mapping.sql if isinstance(self.mapping, SqlPlace) else self.mapping
 
 
 class Coverage(_Strict):
@@ -309,7 +352,13 @@ class Config(_Strict):
     version: Literal[1] = 1
     forecast: ForecastSource
     actuals: ActualsSource
-    history: Path | list[Path] | None = None
+    #: earlier forecasts: a file or folder, a table or query (``{sql: {url, table}}``), or a
+    #: list of them
+    history: Annotated[
+        Annotated[Path, Tag("Path")] | Annotated[SqlPlace, Tag("SqlPlace")]
+        | Annotated[list[PlaceEntry], Tag("list")],
+        Discriminator(entry_kind),
+    ] | None = None
     archive: Path = Path(".accuracy_checks/archive")
     store: str | None = None
     frequency: str
@@ -343,10 +392,23 @@ class Config(_Strict):
         return list(self.actuals.keys or self.forecast.keys)
 
     @property
-    def history_paths(self) -> list[Path]:
+    def history_paths(self) -> list[Place]:
+        """The place of each history entry: a path, or a SQL source."""
         if self.history is None:
             return []
-        return list(self.history) if isinstance(self.history, list) else [self.history]
+        entries = self.history if isinstance(self.history, list) else [self.history]
+        return [e.sql if isinstance(e, SqlPlace) else e for e in entries]
+
+    @property
+    def sql_sources(self) -> list[tuple[str, SqlSource]]:
+        """``(config key, source)`` of every input read from a database."""
+        found: list[tuple[str, Place | None]] = [
+            ("forecast.sql", self.forecast.sql), ("actuals.sql", self.actuals.sql),
+            ("segments.mapping.sql", self.segments.mapping_place)]
+        several = isinstance(self.history, list)
+        found += [(f"history[{i}].sql" if several else "history.sql", p)
+                  for i, p in enumerate(self.history_paths)]
+        return [(key, p) for key, p in found if isinstance(p, SqlSource)]
 
     @field_validator("horizon")
     @classmethod

@@ -1,4 +1,5 @@
-"""Finding the data files and reading their raw columns: CSV and Parquet, a file or a folder.
+"""Finding the data files and reading their raw columns: CSV and Parquet, a file or a folder
+(a table or query goes to :mod:`accuracy_checks.sources.sql`).
 
 :func:`read_columns` reads the configured columns
 (:class:`~accuracy_checks.sources.columns.Column`) of every file at a path and converts them
@@ -31,11 +32,13 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from accuracy_checks.config import Place, SqlSource
 from accuracy_checks.errors import InputError
+from accuracy_checks.sources import sql
 from accuracy_checks.sources.columns import SHOWN, Column, convert
 
 __all__ = ["PARQUET", "READ_ERRORS", "check_header", "columns_of", "file_header", "is_timestamp",
-           "list_files", "read_columns"]
+           "list_files", "read_columns", "sql_key"]
 
 PARQUET = {".parquet", ".pq"}
 _CSV = {".csv", ".txt", ".tsv"}
@@ -66,14 +69,29 @@ def list_files(path: Path, role: str, key: str) -> list[Path]:
     return [path]
 
 
-def read_columns(path: Path, columns: Sequence[Column], *, role: str, key: str,
+def sql_key(key: str) -> str:
+    """The config key of a place read from a database (``forecast.path`` → ``forecast.sql``).
+
+    >>> sql_key("forecast.path"), sql_key("history"), sql_key("segments.mapping")
+    ('forecast.sql', 'history.sql', 'segments.mapping.sql')
+    """
+    return key.removesuffix(".path") + ".sql"
+
+
+def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
                  allow_empty: bool = False,
                  row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
-    """Read ``columns`` from a file or folder and convert them to their kinds.
+    """Read ``columns`` from a file or folder, or a table or query (an
+    :class:`~accuracy_checks.config.SqlSource`: :mod:`accuracy_checks.sources.sql`), and
+    convert them to their kinds.
 
     ``row_filter`` = (date column, dates): Parquet files whose column is a timestamp keep only
-    the rows on those dates, filtered while reading; other files are read whole.
+    the rows on those dates, filtered while reading (a table: in its WHERE clause); other
+    files are read whole.
     """
+    if isinstance(path, SqlSource):
+        return sql.read_sql_columns(path, columns, role=role, key=sql_key(key),
+                                    allow_empty=allow_empty, row_filter=row_filter)
     parts = [_read_file(f, columns, role=role, row_filter=row_filter)
              for f in list_files(path, role, key)]
     frame = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)
@@ -270,8 +288,10 @@ def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],
     return table.to_pandas()
 
 
-def columns_of(path: Path, role: str, key: str) -> list[str]:
-    """The column names of the first file at ``path``, as written."""
+def columns_of(path: Place, role: str, key: str) -> list[str]:
+    """The column names of the first file at ``path`` as written (a table's or query's)."""
+    if isinstance(path, SqlSource):
+        return sql.sql_columns(path, role, sql_key(key))
     return file_header(list_files(path, role, key)[0], role)
 
 

@@ -1,8 +1,10 @@
-"""Pre-reads of Parquet inputs: what a run needs to know before reading the rows it uses.
+"""Pre-reads of Parquet inputs and tables: what a run needs to know before reading the rows it
+uses.
 
-Each reads a few columns of Parquet files only (Arrow does the grouping) and gives up —
-returns ``None`` — on anything unusual (a CSV file, dates that are not timestamps, a column
-named twice, dates beyond the calendar): the full read then reports the problem with its
+Each reads a few columns of Parquet files only (Arrow does the grouping; for a table or query,
+a ``GROUP BY``/``DISTINCT`` query in the database: :mod:`accuracy_checks.sources.sql`) and
+gives up — returns ``None`` — on anything unusual (a CSV file, dates that are not timestamps,
+a column named twice, dates beyond the calendar): the full read then reports the problem with its
 proper message. So a run reads only the recent actuals and the earlier forecasts it uses:
 
 - :func:`cycle_starts`: the first period of every cycle of an earlier-forecasts file (lags
@@ -14,25 +16,29 @@ proper message. So a run reads only the recent actuals and the earlier forecasts
 from __future__ import annotations
 
 from pathlib import Path
+from typing import Any
 
 import pandas as pd
 from pandas.errors import OutOfBoundsDatetime
 
-from accuracy_checks.config import Config
+from accuracy_checks.config import Config, Place, SqlSource
 from accuracy_checks.sources import frames as F
+from accuracy_checks.sources import sql
 from accuracy_checks.sources.columns import Column, to_key
 from accuracy_checks.sources.files import PARQUET, is_timestamp, list_files
 
 __all__ = ["actual_periods", "actual_series", "cycle_starts"]
 
 
-def cycle_starts(path: Path, config: Config, *, role: str = "history",
+def cycle_starts(path: Place, config: Config, *, role: str = "history",
                  key: str = "history") -> pd.Series | None:
-    """The first period of every cycle in a Parquet file or folder, read from its two date
-    columns only (``None`` when a file is CSV or its dates are not timestamps)."""
+    """The first period of every cycle in a Parquet file or folder (or a table), read from its
+    two date columns only (``None`` when a file is CSV or its dates are not timestamps)."""
     import pyarrow.parquet as pq
 
     issued, period = config.forecast.issued, config.forecast.period
+    if isinstance(path, SqlSource):
+        return sql.cycle_starts(path, issued, period, role=role, key=f"{key}.sql")
     parts = []
     for f in list_files(path, role, key):
         if f.suffix.lower() not in PARQUET:
@@ -57,16 +63,19 @@ def cycle_starts(path: Path, config: Config, *, role: str = "history",
         return None  # dates beyond the calendar: the full read names them
 
 
-def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex | None:
+def actual_periods(config: Config, path: Place | None = None) -> pd.DatetimeIndex | None:
     """The sorted distinct periods that hold at least one actual, read from the period and
-    value columns of Parquet files only (``None`` when a file is CSV or its period column is
-    not a timestamp: such inputs are read whole)."""
+    value columns of Parquet files (or a table) only (``None`` when a file is CSV or its period
+    column is not a timestamp: such inputs are read whole)."""
     import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
     ac = config.actuals
+    place = path or ac.place
+    if isinstance(place, SqlSource):
+        return sql.actual_periods(place, ac.period, ac.value)
     found = []
-    for f in list_files(path or ac.path, "actuals", "actuals.path"):
+    for f in list_files(place, "actuals", "actuals.path"):
         if f.suffix.lower() not in PARQUET:
             return None
         try:
@@ -87,21 +96,26 @@ def actual_periods(config: Config, path: Path | None = None) -> pd.DatetimeIndex
         return None  # dates beyond the calendar: the full read names them
 
 
-def actual_series(config: Config, path: Path | None = None) -> pd.DataFrame:
-    """The distinct series (key columns) over every row of Parquet actuals, grouped in Arrow:
-    the series the actuals know, without loading their rows."""
+def actual_series(config: Config, path: Place | None = None) -> pd.DataFrame:
+    """The distinct series (key columns) over every row of Parquet actuals (grouped in Arrow)
+    or of a table (``SELECT DISTINCT``): the series the actuals know, without loading their
+    rows."""
     import pyarrow.parquet as pq
 
     ac = config.actuals
     src = list(config.actual_keys)
-    parts = []
-    for f in list_files(path or ac.path, "actuals", "actuals.path"):
-        table = pq.read_table(f, columns=src)
-        parts.append(table.group_by(src).aggregate([]).to_pandas())
-    table = pd.concat(parts, ignore_index=True)
+    place = path or ac.place
+    if isinstance(place, SqlSource):
+        table = sql.distinct_rows(place, src, role="actuals", key="actuals.sql")
+    else:
+        parts = []
+        for f in list_files(place, "actuals", "actuals.path"):
+            parts.append(pq.read_table(f, columns=src).group_by(src).aggregate([]).to_pandas())
+        table = pd.concat(parts, ignore_index=True)
     table = table.rename(columns=dict(zip(src, config.forecast.keys, strict=False)))
     column = Column("", "key", "actuals.keys")
-    out = {k: to_key(table[k], Path(str(path or ac.path)), column, "actuals", 1,
+    shown: Any = place if isinstance(place, SqlSource) else Path(str(place))
+    out = {k: to_key(table[k], shown, column, "actuals", 1,
                       allow_missing=True) for k in config.forecast.keys}
     return pd.DataFrame(out).drop_duplicates()
 

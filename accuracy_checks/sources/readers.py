@@ -8,11 +8,10 @@ segment mapping is read by :func:`accuracy_checks.sources.segments.read_mapping`
 from __future__ import annotations
 
 from collections.abc import Sequence
-from pathlib import Path
 
 import pandas as pd
 
-from accuracy_checks.config import Config
+from accuracy_checks.config import Config, Place
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.codes import duplicated_rows
@@ -38,15 +37,17 @@ def forecast_columns(config: Config) -> list[Column]:
     return cols
 
 
-def read_forecast(config: Config, path: Path | None = None, *, role: str = "forecast",
+def read_forecast(config: Config, path: Place | None = None, *, role: str = "forecast",
                   key: str = "forecast.path", segment_columns: Sequence[str] = (),
                   allow_empty: bool = False,
                   periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
     """The forecast (or an earlier-cycles file with the same columns), canonical names.
 
+    ``path`` is a file or folder, or a table or query (default: the forecast's place).
     ``segment_columns`` present in the file are read too (as text); with ``periods``, Parquet
-    files whose period column is a timestamp keep only the rows of those periods."""
-    path = path or config.forecast.path
+    files whose period column is a timestamp keep only the rows of those periods (a table:
+    ``period IN (…)`` in the WHERE clause)."""
+    path = path or config.forecast.place
     cols = forecast_columns(config)
     names = {c.name for c in cols}
     present = columns_of(path, role, key)
@@ -70,13 +71,13 @@ def actual_columns(config: Config) -> list[Column]:
     return cols
 
 
-def read_actuals(config: Config, path: Path | None = None,
+def read_actuals(config: Config, path: Place | None = None,
                  periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
     """The actuals (all rows, or with ``periods`` only those periods: filtered while reading
-    Parquet, after reading CSV), key columns named as the forecast's. Refuses a series with
-    two actuals in one period."""
+    Parquet or in a table's WHERE clause, after reading CSV), key columns named as the
+    forecast's. Refuses a series with two actuals in one period."""
     ac = config.actuals
-    path = path or ac.path
+    path = path or ac.place
     frame = read_columns(path, actual_columns(config), role="actuals", key="actuals.path",
                          row_filter=(ac.period, periods) if periods is not None else None)
     if periods is not None:
@@ -89,7 +90,7 @@ def read_actuals(config: Config, path: Path | None = None,
     return frame
 
 
-def _refuse_repeated_actuals(frame: pd.DataFrame, keys: list[str], path: Path) -> None:
+def _refuse_repeated_actuals(frame: pd.DataFrame, keys: list[str], path: Place) -> None:
     """Raise when rows of ``frame`` repeat a series and period, naming the first ones."""
     dup = duplicated_rows(frame, [*keys, F.PERIOD])
     if not dup.any():

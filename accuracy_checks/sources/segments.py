@@ -10,12 +10,11 @@ lookups and joins run on integer codes.
 from __future__ import annotations
 
 from collections.abc import Callable, Sequence
-from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.config import Config
+from accuracy_checks.config import Config, Place
 from accuracy_checks.errors import InputError
 from accuracy_checks.results import ALL_SERIES
 from accuracy_checks.sources import frames as F
@@ -28,8 +27,9 @@ __all__ = ["assign_segments", "attach_segments", "read_mapping", "segment_labels
 
 def read_mapping(config: Config) -> pd.DataFrame | None:
     """The segment mapping table (key columns it shares with the forecast + segment columns),
-    ``None`` when none is configured. Refuses a series mapped to two segments."""
-    path = config.segments.mapping
+    read from its file or its table (``segments.mapping: {sql: …}``), ``None`` when none is
+    configured. Refuses a series mapped to two segments."""
+    path = config.segments.mapping_place
     if path is None:
         return None
     present = columns_of(path, "mapping", "segments.mapping")
@@ -49,7 +49,7 @@ def read_mapping(config: Config) -> pd.DataFrame | None:
 
 
 def _refuse_two_segments(table: pd.DataFrame, keys: list[str], seg: list[str],
-                         path: Path) -> None:
+                         path: Place) -> None:
     """Raise when the mapping puts a series in more than one segment, naming the first."""
     twice = table.duplicated(keys, keep=False).to_numpy()
     if not twice.any():

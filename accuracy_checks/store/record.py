@@ -224,8 +224,11 @@ def _canon(value: Any) -> Any:
 # ------------------------------------------------------------------------ input fingerprints
 
 
-def file_fingerprint(path: Path) -> dict[str, Any]:
-    """``{"path", "sha256", "bytes"}`` of a file, or of a folder's files (see module doc)."""
+def file_fingerprint(path: Any) -> dict[str, Any]:
+    """``{"path", "sha256", "bytes"}`` of a file, or of a folder's files (see module doc); a
+    table or query (``SqlSource``) is named only (its ``str``, password masked)."""
+    if not isinstance(path, str | Path):
+        return {"path": str(path), "sha256": None, "bytes": None}
     path = Path(path)
     if path.is_dir():
         h = hashlib.sha256()
@@ -254,8 +257,8 @@ def input_fingerprints(config: Config, info: dict[str, Any], *,
     An input given as a frame has no file: its ``info`` entry (``"frame"``, rows, content
     hash; :mod:`accuracy_checks.sources.memory`) is its fingerprint."""
     out: dict[str, Any] = {}
-    for role, path in (("forecast", forecast_path or config.forecast.path),
-                       ("actuals", actuals_path or config.actuals.path)):
+    for role, path in (("forecast", forecast_path or config.forecast.place),
+                       ("actuals", actuals_path or config.actuals.place)):
         seen = info.get(role)
         if isinstance(seen, dict) and "frame" in seen:
             out[role] = dict(seen)
@@ -270,8 +273,8 @@ def input_fingerprints(config: Config, info: dict[str, Any], *,
         out["history"] = [file_fingerprint(p) for p in config.history_paths]
     if isinstance(info.get("mapping"), dict):
         out["mapping"] = dict(info["mapping"])
-    elif config.segments.mapping is not None:
-        out["mapping"] = file_fingerprint(config.segments.mapping)
+    elif config.segments.mapping_place is not None:
+        out["mapping"] = file_fingerprint(config.segments.mapping_place)
     earlier = info.get("earlier")
     if isinstance(earlier, dict):
         out["earlier"] = dict(earlier)

@@ -1,0 +1,358 @@
+"""Tables and queries as sources: ``sql: {url, table}`` or ``sql: {url, query}``.
+
+The SQL twin of :mod:`accuracy_checks.sources.files`: :func:`read_sql_columns` reads the
+configured columns (:class:`~accuracy_checks.sources.columns.Column`) of a table or query and
+converts them with the same converters as files (:func:`~accuracy_checks.sources.columns.
+convert`: keys as text, an integer key as its plain decimal text; dates as dates; numbers as
+float), so a table and a file holding the same data give the same frames. The pre-reads
+(:func:`cycle_starts`, :func:`actual_periods`, :func:`distinct_rows`) are ``GROUP BY`` and
+``DISTINCT`` queries: the database does the grouping.
+
+**Never pasted.** Statements are built with SQLAlchemy Core: table and column names are quoted
+identifiers, a ``query`` is wrapped as a subquery (``SELECT … FROM (query) AS src``), and the
+span filter (``period IN (…)``) goes into the WHERE clause as bound parameters. The filter is
+pushed down only when the column holds dates or naive timestamps (the rows read are filtered
+again after conversion, so the result never depends on it).
+
+**Drivers.** ``duckdb:///file.duckdb`` is read with DuckDB's own client, results as Arrow
+(extra ``warehouse``); PostgreSQL (``postgresql+psycopg://…``) and any other SQLAlchemy URL
+through SQLAlchemy. A connection gives up after :data:`CONNECT_TIMEOUT_S` seconds unless the
+URL sets ``connect_timeout``. ``${NAME}`` in the URL is replaced from the environment when
+the connection opens.
+
+**Errors** (:class:`~accuracy_checks.errors.InputError`, exit 2; the URL's password masked):
+a database that cannot be reached, a missing driver, a missing table, a missing column (naming
+the table's columns), a query the database refuses (with the database's message).
+"""
+
+from __future__ import annotations
+
+import datetime as dt
+from collections.abc import Callable, Iterator, Sequence
+from contextlib import contextmanager
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+from pandas.errors import OutOfBoundsDatetime
+
+from accuracy_checks.config import SqlSource
+from accuracy_checks.config.urls import expand_env, mask_secrets
+from accuracy_checks.errors import InputError
+from accuracy_checks.sources.columns import Column, convert
+
+__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows",
+           "read_sql_columns", "sql_columns"]
+
+#: seconds a connection to a database may take before the run gives up (exit 2)
+CONNECT_TIMEOUT_S = 10
+_DUCKDB = "duckdb:///"
+
+
+# ------------------------------------------------------------------------- connections
+
+
+class _Connection:
+    """One open connection: runs SQLAlchemy Core statements, returns Arrow or pandas."""
+
+    def __init__(self, source: SqlSource, role: str, key: str) -> None:
+        self.source, self.role, self.key = source, role, key
+        self.url = expand_env(source.url, f"{key}.url")
+        self._duck: Any = None
+        self._conn: Any = None
+        self._engine: Any = None
+
+    def open(self) -> None:
+        try:
+            if self.url.startswith(_DUCKDB):
+                import duckdb
+
+                path = self.url[len(_DUCKDB):].partition("?")[0] or ":memory:"
+                if path != ":memory:" and not Path(path).is_file():
+                    raise InputError(
+                        f"The {self.role} {self.source} (config key `{self.key}`): the DuckDB "
+                        f"file {path} does not exist. Check the URL; a relative file is "
+                        "resolved against the config file's folder."
+                    )
+                self._duck = duckdb.connect(path, read_only=path != ":memory:")
+                return
+            import sqlalchemy as sa
+            from sqlalchemy.pool import NullPool
+
+            url = sa.engine.make_url(self.url)
+            args: dict[str, Any] = {}
+            if (url.get_backend_name() == "postgresql" and "connect_timeout" not in url.query
+                    and url.get_driver_name() in ("psycopg", "psycopg2", "")):
+                args["connect_timeout"] = CONNECT_TIMEOUT_S
+            self._engine = sa.create_engine(url, poolclass=NullPool, connect_args=args)
+            self._conn = self._engine.connect()
+        except InputError:
+            raise
+        except ModuleNotFoundError as exc:
+            raise InputError(self._no_driver(str(exc.name))) from None
+        except Exception as exc:
+            if type(exc).__name__ == "NoSuchModuleError":
+                raise InputError(self._no_driver(str(exc))) from None
+            raise InputError(
+                f"Cannot connect to the database of the {self.role} {self.source} (config key "
+                f"`{self.key}.url`): {self._why(exc)}. Check the host, port, database name and "
+                f"credentials (a connection gives up after {CONNECT_TIMEOUT_S} s unless the "
+                "URL sets connect_timeout)."
+            ) from None
+
+    def close(self) -> None:
+        if self._duck is not None:
+            self._duck.close()
+        if self._conn is not None:
+            self._conn.close()
+            self._engine.dispose()
+
+    def _no_driver(self, what: str) -> str:
+        return (f"The {self.role} {self.source} (config key `{self.key}.url`) needs a database "
+                f"driver that is not installed ({mask_secrets(what)}). Install it: "
+                "pip install \"accuracy-checks[warehouse]\" for DuckDB, "
+                "\"accuracy-checks[postgres]\" for PostgreSQL.")
+
+    @staticmethod
+    def _why(exc: BaseException) -> str:
+        """The database's own words, one line, passwords masked."""
+        orig = getattr(exc, "orig", None) or exc
+        text = " ".join(str(orig).split())
+        return mask_secrets(text).rstrip(".") or type(exc).__name__
+
+    def run(self, stmt: Any) -> pd.DataFrame:
+        """The rows of a Core statement as a frame (Arrow-backed for DuckDB)."""
+        try:
+            if self._duck is not None:
+                import pyarrow as pa
+                from sqlalchemy.dialects import postgresql
+
+                compiled = stmt.compile(dialect=postgresql.dialect(paramstyle="numeric_dollar"),
+                                        compile_kwargs={"render_postcompile": True})
+                params = [compiled.params[n] for n in compiled.positiontup or []]
+                table = self._duck.sql(compiled.string, params=params).to_arrow_table()
+                # decimals as floats (as a number column needs); a decimal key stays refused
+                fields = [f.with_type(pa.float64()) if pa.types.is_decimal(f.type) else f
+                          for f in table.schema]
+                return table.cast(pa.schema(fields)).to_pandas(date_as_object=False)
+            result = self._conn.execute(stmt)
+            return pd.DataFrame(result.fetchall(), columns=list(result.keys()))
+        except InputError:
+            raise
+        except Exception as exc:
+            what = "query" if self.source.query is not None else "table"
+            raise InputError(
+                f"The {self.role} {self.source} (config key `{self.key}`) cannot be read: the "
+                f"database refused the statement: {self._why(exc)}. Check the {what} in the "
+                "config."
+            ) from None
+
+    def has_table(self) -> bool:
+        schema, name = self.source.table_parts
+        if self._duck is not None:
+            import sqlalchemy as sa
+
+            tables = sa.table("tables", sa.column("table_schema"), sa.column("table_name"),
+                              schema="information_schema")
+            stmt = sa.select(tables.c.table_name).where(tables.c.table_name == name)
+            if schema is not None:
+                stmt = stmt.where(tables.c.table_schema == schema)
+            return len(self.run(stmt)) > 0
+        import sqlalchemy as sa
+
+        try:
+            return bool(sa.inspect(self._conn).has_table(name, schema=schema))
+        except Exception:
+            return True  # a dialect without the inspection: the read names the problem
+
+
+@contextmanager
+def _connect(source: SqlSource, role: str, key: str) -> Iterator[_Connection]:
+    conn = _Connection(source, role, key)
+    conn.open()
+    try:
+        yield conn
+    finally:
+        conn.close()
+
+
+# ---------------------------------------------------------------------------- statements
+
+
+def _from(source: SqlSource, names: Sequence[str]) -> Any:
+    """The source as a Core selectable with ``names`` as its columns: the (quoted) table, or
+    the query as a subquery ``src``."""
+    import sqlalchemy as sa
+
+    columns: list[Any] = [sa.column(n) for n in dict.fromkeys(names)]
+    if source.table is not None:
+        schema, name = source.table_parts
+        return sa.table(name, *columns, schema=schema)
+    # a colon is literal text in the user's query, never a bound parameter
+    text = source.query.strip().rstrip(";").replace(":", "\\:")  # type: ignore[union-attr]
+    return sa.text(text).columns(*columns).subquery("src")
+
+
+def _header(conn: _Connection) -> list[str]:
+    """The column names of the source as the database gives them."""
+    import sqlalchemy as sa
+
+    src = conn.source
+    if src.table is not None and not conn.has_table():
+        raise InputError(
+            f"The {conn.role} {src} (config key `{conn.key}.table`) does not exist. Check the "
+            "table name (and its schema: `schema.table`); names are matched as the database "
+            "stores them."
+        )
+    stmt = sa.select(sa.text("*")).select_from(_from(src, [])).where(sa.false())
+    return [str(c) for c in conn.run(stmt).columns]
+
+
+def _check_columns(conn: _Connection, columns: Sequence[Column]) -> list[str]:
+    present = _header(conn)
+    missing = [c for c in columns if c.name not in present]
+    if missing:
+        c = missing[0]
+        raise InputError(
+            f"The {conn.role} {conn.source} (config key `{conn.key}`) has no column {c.name!r} "
+            f"(config key `{c.key}`). Its columns are: {', '.join(present) or '(none)'}. Fix the "
+            "column name in the config or in the table (names are matched as the database "
+            "stores them)."
+        )
+    return present
+
+
+def _date_kind(conn: _Connection, name: str) -> type | None:
+    """``dt.date`` or ``dt.datetime`` when column ``name`` holds dates or naive timestamps
+    (so a filter on it can be pushed into the WHERE clause), else ``None``."""
+    import sqlalchemy as sa
+
+    src = _from(conn.source, [name])
+    col = src.c[name]
+    value = conn.run(sa.select(col).where(col.is_not(None)).limit(1))
+    if not len(value):
+        return None
+    first = value.iloc[0, 0]
+    if isinstance(first, pd.Timestamp):
+        first = first.to_pydatetime()
+    if isinstance(first, dt.datetime):
+        return dt.datetime if first.tzinfo is None else None
+    return dt.date if isinstance(first, dt.date) else None
+
+
+def _params(kind: type, dates: Sequence[pd.Timestamp]) -> list[Any]:
+    stamps = [pd.Timestamp(d) for d in dates]
+    if kind is dt.date:
+        return [s.date() for s in stamps]
+    return [s.to_pydatetime() for s in stamps]
+
+
+# ------------------------------------------------------------------------------- reading
+
+
+def sql_columns(source: SqlSource, role: str, key: str) -> list[str]:
+    """The column names of a table or query."""
+    with _connect(source, role, key) as conn:
+        return _header(conn)
+
+
+def read_sql_columns(source: SqlSource, columns: Sequence[Column], *, role: str, key: str,
+                     allow_empty: bool = False,
+                     row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None
+                     ) -> pd.DataFrame:
+    """Read ``columns`` of a table or query and convert them to their kinds (as files).
+
+    ``row_filter`` = (date column, dates): when the column holds dates or naive timestamps,
+    only the rows on those dates are read (``column IN (…)``, bound parameters)."""
+    import sqlalchemy as sa
+
+    names = list(dict.fromkeys(c.name for c in columns))
+    with _connect(source, role, key) as conn:
+        _check_columns(conn, columns)
+        src = _from(source, names)
+        stmt = sa.select(*[src.c[n] for n in names])
+        if row_filter is not None:
+            kind = _date_kind(conn, row_filter[0])
+            if kind is not None:
+                stmt = stmt.where(src.c[row_filter[0]].in_(_params(kind, row_filter[1])))
+        raw = conn.run(stmt)
+    if len(raw) == 0 and not allow_empty:
+        raise InputError(
+            f"The {role} {source} (config key `{key}`) has no rows; a {role} with no data "
+            "cannot be checked."
+        )
+    shown: Any = source  # messages name it by its str(): the table or query, password masked
+    out: dict[str, pd.Series] = {}
+    for c in columns:
+        if c.name not in out:
+            out[c.name] = convert(raw[c.name], shown, c, role, 1)
+    frame = pd.DataFrame(out)
+    return frame.rename(columns={c.name: c.canonical for c in columns if c.canonical})
+
+
+def _grouped(source: SqlSource, role: str, key: str, names: Sequence[str],
+             build: Callable[[Any, _Connection], Any | None]) -> pd.DataFrame | None:
+    """Run the statement ``build(selectable, conn)`` makes (``None``: give up) when every
+    column of ``names`` exists; ``None`` otherwise (the full read reports the problem)."""
+    with _connect(source, role, key) as conn:
+        if not set(names) <= set(_header(conn)):
+            return None
+        stmt = build(_from(source, names), conn)
+        return None if stmt is None else conn.run(stmt)
+
+
+def cycle_starts(source: SqlSource, issued: str, period: str, *, role: str = "history",
+                 key: str = "history") -> pd.Series | None:
+    """The first period of every cycle: ``SELECT issued, MIN(period) … GROUP BY issued``
+    (``None`` when a date column is not a date type: the full read then names it)."""
+    import sqlalchemy as sa
+
+    def build(src: Any, conn: _Connection) -> Any | None:
+        if _date_kind(conn, issued) is None or _date_kind(conn, period) is None:
+            return None
+        return sa.select(src.c[issued].label("i"), sa.func.min(src.c[period]).label("p")
+                         ).group_by(src.c[issued])
+
+    rows = _grouped(source, role, key, [issued, period], build)
+    if rows is None:
+        return None
+    try:
+        index = pd.DatetimeIndex(pd.to_datetime(rows["i"])).as_unit("ns")
+        values = pd.to_datetime(rows["p"]).astype("datetime64[ns]").to_numpy()
+    except (OutOfBoundsDatetime, OverflowError, ValueError):
+        return None  # dates beyond the calendar: the full read names them
+    return pd.Series(values, index=index, dtype="datetime64[ns]").groupby(level=0).min()
+
+
+def actual_periods(source: SqlSource, period: str, value: str) -> pd.DatetimeIndex | None:
+    """The sorted distinct periods holding at least one actual: ``SELECT DISTINCT period …
+    WHERE value IS NOT NULL`` (``None`` when the period column is not a date type)."""
+    import sqlalchemy as sa
+
+    def build(src: Any, conn: _Connection) -> Any | None:
+        if _date_kind(conn, period) is None:
+            return None
+        return sa.select(src.c[period]).where(src.c[value].is_not(None)).distinct()
+
+    rows = _grouped(source, "actuals", "actuals.sql", [period, value], build)
+    if rows is None:
+        return None
+    try:
+        return pd.DatetimeIndex(pd.to_datetime(rows.iloc[:, 0])).as_unit("ns").sort_values()
+    except (OutOfBoundsDatetime, OverflowError, ValueError):
+        return None
+
+
+def distinct_rows(source: SqlSource, names: Sequence[str], *, role: str,
+                  key: str) -> pd.DataFrame:
+    """The distinct combinations of columns ``names``: ``SELECT DISTINCT …`` (raw values)."""
+    import sqlalchemy as sa
+
+    def build(src: Any, conn: _Connection) -> Any:
+        return sa.select(*[src.c[n] for n in names]).distinct()
+
+    rows = _grouped(source, role, key, names, build)
+    if rows is None:
+        raise InputError(f"The {role} {source} (config key `{key}`) lacks one of the columns "
+                         f"{', '.join(names)}.")
+    return rows
