@@ -101,7 +101,7 @@ def _validate(args: argparse.Namespace) -> int:
     from accuracy_checks.measures.catalogue import load_config
 
     cfg = load_config(args.config)
-    print(f"{args.config}: valid (forecast {cfg.forecast.path}, horizon {cfg.horizon}, "
+    print(f"{args.config}: valid (forecast {cfg.forecast.place}, horizon {cfg.horizon}, "
           f"frequency {cfg.frequency})")
     return EXIT_PASS
 
