@@ -69,6 +69,9 @@ def _parser() -> argparse.ArgumentParser:
     demo.add_argument("--out", type=Path, default=Path("accuracy-checks-demo"),
                       help="folder to write the demo into (default: ./accuracy-checks-demo)")
     demo.add_argument("--cycles", type=int, default=6, help="number of weekly cycles (default 6)")
+    demo.add_argument("--warehouse", action="store_true",
+                      help="load the scenario into a DuckDB file and run the gate on its final "
+                           "cycle from SQL (needs the warehouse extra)")
 
     add_audit_commands(sub)  # history, breaches, waive, waivers, revoke, verify
     return p
@@ -126,9 +129,14 @@ def _schema(args: argparse.Namespace) -> int:
 
 
 def _demo(args: argparse.Namespace) -> int:
-    from accuracy_checks.demo import run_demo
+    if args.warehouse:
+        from accuracy_checks.demo.warehouse import run_warehouse_demo
 
-    run_demo(args.out, cycles=args.cycles)
+        run_warehouse_demo(args.out, cycles=args.cycles)
+    else:
+        from accuracy_checks.demo import run_demo
+
+        run_demo(args.out, cycles=args.cycles)
     return EXIT_PASS
 
 
