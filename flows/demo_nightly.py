@@ -75,8 +75,8 @@ def _verdict_lines(night: DemoNight, out_dir: Path) -> list[str]:
     if isinstance(error, GateFailed):
         lines = [f"  Gate: {error.summary.get('headline', 'FAIL')}"]
         lines += [f"    - {f}" for f in error.summary.get("findings", [])]
-        lines.append("  Published: nothing. The flow run failed, so the forecast stays in the "
-                     "staging folder.")
+        lines.append("  Published: nothing. The flow run failed; the forecast is kept in the "
+                     "archive's snapshot of its cycle.")
         return lines
     return [f"  The flow run ended {state.name}: {state.message}"]
 
@@ -125,8 +125,8 @@ def run_flow_demo(out_dir: Path, run_night: RunNight, *, server_note: str | None
         f"  accuracy-checks.yaml, {LATEST_CONFIG}  the configs of night 1 and night 2\n"
         "  data/                          invented actuals, earlier cycles, products, stores\n"
         f"  {PUBLISHED}/                     forecasts that passed the gate (night 1 only)\n"
-        "  .accuracy_checks/staging/      every forecast the flow made, published or not\n"
-        "  .accuracy_checks/archive/      snapshots of every gated forecast, by cycle\n"
+        "  .accuracy_checks/archive/      snapshots of every gated forecast, by cycle "
+        "(published or not)\n"
         "  .accuracy_checks/audit.db      the audit record of both runs\n"
         "Each gate run also left two Prefect artifacts (accuracy-gate-findings, a table, and "
         "accuracy-gate-summary, Markdown);\nthe temporary server is gone now: start "

@@ -52,6 +52,7 @@ __all__ = [
     "publish_file",
     "seasonal_naive",
     "write_forecast",
+    "write_frame",
 ]
 
 
@@ -233,20 +234,28 @@ def _with_segment_columns(frame: pd.DataFrame,
 def write_forecast(cycle: NextCycle, config: Config, folder: Path) -> Path:
     """Write ``cycle`` to ``folder/forecast_<issue date>.csv`` (``.parquet`` when the config's
     forecast is Parquet or a folder), atomically; return the path."""
+    return write_frame(cycle.frame, config, folder)
+
+
+def write_frame(frame: pd.DataFrame, config: Config, folder: Path) -> Path:
+    """Write a forecast frame (the config's column names) to
+    ``folder/forecast_<issue date>.csv`` (``.parquet`` when the config's forecast is Parquet
+    or a folder), atomically (a reader never sees half a file); return the path."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
     target = config.forecast.path
     parquet = target.is_dir() or target.suffix.lower() in (".parquet", ".pq")
-    stamp = cycle.issued.strftime("%Y-%m-%d") if cycle.issued == cycle.issued.normalize() \
-        else cycle.issued.strftime("%Y-%m-%dT%H%M")
+    issued = pd.Timestamp(frame[config.forecast.issued].max())
+    stamp = issued.strftime("%Y-%m-%d") if issued == issued.normalize() \
+        else issued.strftime("%Y-%m-%dT%H%M")
     path = folder / f"forecast_{stamp}.{'parquet' if parquet else 'csv'}"
     tmp = folder / f".{path.name}.incoming"
     if parquet:
-        cycle.frame.to_parquet(tmp, index=False)
+        frame.to_parquet(tmp, index=False)
     else:
         dated = [config.forecast.period, config.forecast.issued]
-        midnight = all((cycle.frame[c] == cycle.frame[c].dt.normalize()).all() for c in dated)
-        cycle.frame.to_csv(tmp, index=False, date_format="%Y-%m-%d" if midnight else None)
+        midnight = all((frame[c] == frame[c].dt.normalize()).all() for c in dated)
+        frame.to_csv(tmp, index=False, date_format="%Y-%m-%d" if midnight else None)
     os.replace(tmp, path)
     return path
 

@@ -3,12 +3,14 @@
 Steps (tasks), in one flow run:
 
 1. ``make-forecast``: read the actuals and the earlier cycles named by the config, forecast
-   every active series for the next cycle (seasonal naive, :mod:`flows.forecasting`) and write
-   the file to a staging folder (``<archive>/../staging``; never the publish folder);
-2. ``accuracy-gate``: :data:`accuracy_checks.prefect.check_forecast` on that file: the output,
-   coverage and accuracy checks, the audit record (on every verdict), the artifacts;
-3. ``publish-forecast``: copy the file into the publish folder, atomically; it waits for the
-   gate and never runs when the gate failed.
+   every active series for the next cycle (seasonal naive, :mod:`flows.forecasting`) and
+   return it as a DataFrame with the config's column names (nothing is written);
+2. ``accuracy-gate``: :data:`accuracy_checks.prefect.check_forecast` on that frame, in memory
+   (``forecast=``, validated like a file): the output, coverage and accuracy checks, the
+   snapshot in the archive and the audit record (on every verdict), the artifacts;
+3. ``publish-forecast``: write the frame into the publish folder, atomically; it waits for
+   the gate and never runs when the gate failed (the stopped forecast stays in the archive's
+   snapshot of its cycle).
 
 The flow returns the failed task's state when a step failed (a flow that returns ``None``
 would end ``Completed`` even then), so a failed gate fails the flow run, and calling the flow
@@ -39,6 +41,7 @@ if __package__ in (None, ""):  # run as a script: make the repository's packages
 # "database is locked" on SQLite); an explicit setting of the user's wins.
 os.environ.setdefault("PREFECT_SERVER_ANALYTICS_ENABLED", "false")
 
+import pandas as pd
 from prefect import flow, get_run_logger, task
 from prefect.cache_policies import NO_CACHE
 from prefect.futures import wait
@@ -50,7 +53,7 @@ from accuracy_checks.outputs.wording import headline
 from accuracy_checks.prefect import check_forecast, cli_message, first_failure, usage_failure
 from accuracy_checks.prefect.gate import findings
 from flows.demo_nightly import run_flow_demo
-from flows.forecasting import forecast_next_cycle, publish_file, write_forecast
+from flows.forecasting import forecast_next_cycle, write_frame
 
 __all__ = ["main", "make_forecast", "nightly_forecast", "publish_forecast", "run_nightly"]
 
@@ -64,10 +67,10 @@ SERVER_NOTE = (
 
 
 @task(name="make-forecast", cache_policy=NO_CACHE, persist_result=False)
-def make_forecast(config: str, staging_dir: str | None = None) -> str | State:
-    """Forecast the next cycle from the config's actuals and earlier cycles; write it to the
-    staging folder and return its path. An unusable config or input fails the task with the
-    CLI's message (no traceback)."""
+def make_forecast(config: str) -> pd.DataFrame | State:
+    """Forecast the next cycle from the config's actuals and earlier cycles and return it as
+    a frame (the config's column names). An unusable config or input fails the task with
+    the CLI's message (no traceback)."""
     logger = get_run_logger()
     try:
         cfg = load_config(config)
@@ -75,39 +78,39 @@ def make_forecast(config: str, staging_dir: str | None = None) -> str | State:
     except UsageError as exc:
         logger.error(cli_message(exc))
         return usage_failure(exc)
-    folder = Path(staging_dir) if staging_dir else cfg.archive.parent / "staging"
-    path = write_forecast(cycle, cfg, folder)
     naive = cycle.n_series - cycle.n_seasonal
     logger.info(
         f"forecast the cycle of {cycle.issued:%Y-%m-%d} ({cfg.horizon} periods of "
         f"{cfg.frequency}) for {cycle.n_series:,} active series from the actuals up to "
         f"{cycle.last_actual:%Y-%m-%d}: seasonal naive (m = {cycle.season}) for "
-        f"{cycle.n_seasonal:,}, naive for {naive:,} with less history; staged at {path}")
-    return str(path)
+        f"{cycle.n_seasonal:,}, naive for {naive:,} with less history; "
+        f"{len(cycle.frame):,} rows handed to the gate in memory")
+    return cycle.frame
 
 
 @task(name="publish-forecast", cache_policy=NO_CACHE, persist_result=False)
-def publish_forecast(path: str, publish_dir: str) -> str:
-    """Copy the gated forecast into the publish folder (atomically) and return its new path."""
-    dest = publish_file(Path(path), Path(publish_dir))
+def publish_forecast(forecast: pd.DataFrame, config: str, publish_dir: str) -> str:
+    """Write the gated forecast into the publish folder (atomically: a reader never sees half
+    a file) and return its path."""
+    dest = write_frame(forecast, load_config(config), Path(publish_dir))
     get_run_logger().info(f"published {dest}")
     return str(dest)
 
 
 @flow(name="nightly-forecast", log_prints=False)
 def nightly_forecast(config: str, publish_dir: str, *, fail_on: Literal["warn", "fail"] = "fail",
-                     label: str | None = None,
-                     staging_dir: str | None = None) -> dict[str, Any] | State:
+                     label: str | None = None) -> dict[str, Any] | State:
     """Forecast, gate, publish (module docstring). Returns a summary on pass or warn: the
     verdict, its headline, cycle, attempt, run id, the findings and the published path."""
-    staged = make_forecast.submit(config, staging_dir)
-    # a future as an argument: Prefect passes its result, or never runs the task if it failed
-    check = check_forecast.submit(config, forecast_path=staged,  # type: ignore[call-overload]
+    made = make_forecast.submit(config)
+    # a future as an argument: Prefect passes its result (the frame, in memory), or never
+    # runs the task if it failed
+    check = check_forecast.submit(config, forecast=made,  # type: ignore[call-overload]
                                   fail_on=fail_on, label=label)
-    published = publish_forecast.submit(staged, publish_dir,  # type: ignore[call-overload]
+    published = publish_forecast.submit(made, config, publish_dir,  # type: ignore[call-overload]
                                         wait_for=[check])
-    wait([staged, check, published])
-    failed = first_failure(staged, check, published)
+    wait([made, check, published])
+    failed = first_failure(made, check, published)
     if failed is not None:
         return failed  # fails the flow run: never return None after a failed step
     report = check.result()
@@ -131,13 +134,11 @@ def needs_temporary_server() -> bool:
 
 
 def run_nightly(config: str | Path, publish_dir: str | Path, *, fail_on: str = "fail",
-                label: str | None = None,
-                staging_dir: str | Path | None = None) -> tuple[int, State]:
+                label: str | None = None) -> tuple[int, State]:
     """Run the flow once; return its exit code (0 published, 1 gate failed, 2 unusable
     input, 3 other) and its final state."""
     state = nightly_forecast(str(config), str(publish_dir), fail_on=fail_on,  # type: ignore[arg-type]
-                             label=label, staging_dir=str(staging_dir) if staging_dir else None,
-                             return_state=True)
+                             label=label, return_state=True)
     return exit_code(state), state
 
 
@@ -163,8 +164,6 @@ def _parser() -> argparse.ArgumentParser:
     p.add_argument("--fail-on", choices=("warn", "fail"), default="fail",
                    help="lowest verdict that stops publishing (default: fail)")
     p.add_argument("--label", help="label kept with the audit record (default: the flow run)")
-    p.add_argument("--staging-dir", type=Path,
-                   help="where the forecast waits for the gate (default: <archive>/../staging)")
     p.add_argument("--serve", metavar="CRON",
                    help='serve the flow as a deployment on this cron schedule, e.g. "30 2 * * *" '
                    "(needs a running Prefect server: PREFECT_API_URL)")
@@ -202,7 +201,7 @@ def main(argv: Sequence[str] | None = None, *, echo: Callable[[str], None] = pri
     if needs_temporary_server():
         echo(SERVER_NOTE)
     code, state = run_nightly(args.config, args.publish_dir, fail_on=args.fail_on,
-                              label=args.label, staging_dir=args.staging_dir)
+                              label=args.label)
     if code == EXIT_PUBLISHED:
         echo(outcome_line(state))
     else:

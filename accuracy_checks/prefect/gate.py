@@ -131,18 +131,22 @@ def usage_failure(exc: UsageError) -> State:
 def run_gate(config: Config | str | Path, *, forecast_path: str | Path | None = None,
              actuals_path: str | Path | None = None, snapshot: bool = True,
              label: str | None = None,
-             progress: Callable[[str], None] | None = None) -> RunReport:
+             progress: Callable[[str], None] | None = None,
+             forecast: Any = None, actuals: Any = None, history: Any = None,
+             mapping: Any = None) -> RunReport:
     """Load ``config`` (a path or a loaded :class:`~accuracy_checks.config.Config`) and run
     :func:`~accuracy_checks.engine.run_checks`: read, check, judge, apply waivers, snapshot
-    and record the run in the audit store. Raises ``UsageError`` on an unusable config or
-    input (then nothing is recorded)."""
+    and record the run in the audit store. ``forecast``, ``actuals``, ``history`` and
+    ``mapping`` take frames (pandas or pyarrow) in place of the config's places. Raises
+    ``UsageError`` on an unusable config or input (then nothing is recorded)."""
     from accuracy_checks.api import read_config
     from accuracy_checks.engine import run_checks
 
     cfg = read_config(config)
     return run_checks(cfg, forecast_path=Path(forecast_path) if forecast_path else None,
                       actuals_path=Path(actuals_path) if actuals_path else None,
-                      progress=progress, snapshot=snapshot, label=label)
+                      progress=progress, snapshot=snapshot, label=label,
+                      forecast=forecast, actuals=actuals, history=history, mapping=mapping)
 
 
 def findings(report: RunReport, n: int = MAX_FINDINGS) -> list[str]:
@@ -304,12 +308,19 @@ def check_forecast(
     alert: Alert | Sequence[Alert] | None = None,
     alert_on: Sequence[str] = ("warn", "fail"),
     artifact_key: str = "accuracy-gate",
+    forecast: Any = None,
+    actuals: Any = None,
+    history: Any = None,
+    mapping: Any = None,
 ) -> State:
     """Gate a forecast: run the checks of ``config``, record the run, publish artifacts, then
     pass, warn or fail (see the module docstring for the contract of each outcome).
 
     ``forecast_path``/``actuals_path`` override the config's paths (as ``--forecast`` and
-    ``--actuals``); ``snapshot=False`` is a dry run (not archived; still recorded);
+    ``--actuals``); ``forecast``, ``actuals``, ``history`` (one frame or a list) and
+    ``mapping`` take pandas DataFrames or pyarrow Tables with the configured column names
+    instead, validated like files (a bad frame fails the task as a bad file does, naming
+    the frame and the column); ``snapshot=False`` is a dry run (not archived; still recorded);
     ``label`` is kept with the audit record (default: ``<flow>/<flow run name> (<id>)``);
     ``fail_on="warn"`` fails on warnings too; ``alert`` is called with the report when the
     verdict is in ``alert_on``; ``artifact_key`` prefixes the artifacts' keys (lower-case
@@ -325,7 +336,8 @@ def check_forecast(
     try:
         report = run_gate(config, forecast_path=forecast_path, actuals_path=actuals_path,
                           snapshot=snapshot, label=label or _default_label(),
-                          progress=logger.info)
+                          progress=logger.info, forecast=forecast, actuals=actuals,
+                          history=history, mapping=mapping)
     except UsageError as exc:
         logger.error(cli_message(exc))
         return usage_failure(exc)

@@ -19,8 +19,9 @@ from typing import Any
 from uuid import UUID
 
 import pandas as pd
+import pyarrow as pa
 import pytest
-from prefect import get_client
+from prefect import flow, get_client
 from prefect.client.schemas.filters import (
     FlowRunFilter,
     FlowRunFilterId,
@@ -32,10 +33,12 @@ from prefect.states import State
 from prefect.testing.utilities import prefect_test_harness
 
 from accuracy_checks.cli.main import main as cli_main
+from accuracy_checks.engine import run_checks
 from accuracy_checks.errors import GateFailed, InputError
 from accuracy_checks.measures.catalogue import load_config
-from accuracy_checks.prefect import WARNED_STATE_NAME
+from accuracy_checks.prefect import WARNED_STATE_NAME, check_forecast
 from accuracy_checks.store import open_store
+from flows.forecasting import forecast_next_cycle, write_forecast
 from flows.nightly_forecast import main as nightly_main
 from flows.nightly_forecast import run_nightly
 from tests.support.project import CONFIG, EARLIER, Project, forecast_frame
@@ -113,6 +116,40 @@ def test_pass_publishes_and_records(make_project: Make, tmp_path: Path) -> None:
     (record,) = audit(project.config)
     assert record["status"] == "pass" and record["run_id"] == summary["run_id"]
     assert str(flow_run_id(state)) in record["label"]  # the flow run, for the audit trail
+    # the gate read the forecast frame in memory: no file was written before the gate
+    assert record["inputs"]["forecast"]["frame"] == "pandas.DataFrame"
+    assert record["inputs"]["forecast"]["rows"] == 24
+    published = pd.read_csv(publish / "forecast_2026-03-02.csv")
+    assert len(published) == 24 and set(published["week"]) == {
+        "2026-03-02", "2026-03-09", "2026-03-16", "2026-03-23"}
+
+
+@flow(name="gate-a-frame")
+def gate_frames(config: str, forecast: Any, actuals: Any) -> dict[str, Any]:
+    """The gate task on frames: its state's name, message and data (report or error)."""
+    state = check_forecast(config, forecast=forecast, actuals=actuals, return_state=True)
+    return {"name": state.name, "message": state.message, "failed": state.is_failed(),
+            "data": state.result(raise_on_failure=False)}
+
+
+def test_check_forecast_takes_frames_in_a_flow(make_project: Make) -> None:
+    """The task with a pandas forecast and a pyarrow actuals table gives the file run's
+    verdict and figures; a bad frame fails it with the message naming the frame."""
+    project = project_with_bias(make_project, 0.93)
+    forecast = pd.read_csv(project.data / "forecast.csv")
+    actuals = pa.Table.from_pandas(pd.read_csv(project.data / "actuals.csv"))
+    got = gate_frames(str(project.config), forecast, actuals)
+    assert got["name"] == WARNED_STATE_NAME and not got["failed"]
+    from_files = run_checks(load_config(project.config), snapshot=False)
+    report = got["data"]
+    assert report.status == from_files.status == "warn"
+    assert [(r.check, r.segment, r.status, r.value) for r in report.results] == [
+        (r.check, r.segment, r.status, r.value) for r in from_files.results]
+    assert report.inputs["actuals"]["frame"] == "pyarrow.Table"
+
+    got = gate_frames(str(project.config), forecast.drop(columns=["units"]), actuals)
+    assert got["failed"] and isinstance(got["data"], InputError)
+    assert "forecast frame (argument `forecast`) has no column 'units'" in got["message"]
 
 
 def test_warning_publishes_logs_and_leaves_artifacts(make_project: Make,
@@ -200,10 +237,11 @@ def test_unusable_input_fails_the_check_task_with_the_clis_message(
     project.write("products.csv", pd.DataFrame({"product": ["P1", "P2", "P3"],
                                                 "family": ["a", "b", "b"]}))
     publish = tmp_path / "published"
-    staging = tmp_path / "staging"
-    code, state = run_nightly(project.config, publish, staging_dir=staging)
+    code, state = run_nightly(project.config, publish)
     assert code == 2 and state.is_failed()
-    (staged,) = staging.iterdir()
+    # the same forecast as a file, through the command line: the same message
+    cycle = forecast_next_cycle(load_config(project.config))
+    staged = write_forecast(cycle, load_config(project.config), tmp_path / "staged")
     assert cli_main(["run", "--config", str(project.config), "--forecast", str(staged),
                      "-q"]) == 2
     cli_line = capsys.readouterr().err.strip()
@@ -239,10 +277,13 @@ def test_demo_nights_publish_one_cycle_and_stop_the_other(tmp_path: Path) -> Non
     night2 = text[text.index("Night 2"):]
     assert "  Gate: FAIL — 1 failed" in night2
     assert [p.name for p in (out / "published").iterdir()] == ["forecast_2025-04-07.csv"]
-    assert len(list((out / ".accuracy_checks" / "staging").iterdir())) == 2
+    assert not (out / ".accuracy_checks" / "staging").exists()  # frames, not files
     runs = audit(out / "nightly-latest.yaml")
     assert [(r["cycle"], r["status"]) for r in runs] == [("2025-04-07", "warn"),
                                                         ("2025-05-12", "fail")]
+    # the gate read each forecast from memory, and archived both (the stopped one too)
+    assert all(r["inputs"]["forecast"]["frame"] == "pandas.DataFrame" for r in runs)
+    assert all(r["snapshot"] for r in runs)
     published = pd.read_csv(out / "published" / "forecast_2025-04-07.csv")
     assert list(published.columns) == ["store", "product", "week", "units", "p10", "p90",
                                        "issued_on"]
