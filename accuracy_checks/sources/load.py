@@ -151,9 +151,9 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
     actuals = attach_segments(got["actuals"], config, mapping,
                               lambda: segments_of_series([forecast, *parts], keys))
     info: dict[str, object] = {
-        "forecast": {**_place(given.forecast, forecast_path or config.forecast.path, config),
+        "forecast": {**_place(given.forecast, forecast_path or config.forecast.place, config),
                      "rows": len(forecast), "series": n_distinct(forecast, keys)},
-        "actuals": {**_place(given.actuals, actuals_path or config.actuals.path, config),
+        "actuals": {**_place(given.actuals, actuals_path or config.actuals.place, config),
                     "rows": len(actuals)},
         "earlier": {"rows": len(earlier), "history_rows": len(history_frame),
                     "archive_rows": len(archived_frame)},
@@ -166,11 +166,12 @@ def load_inputs(config: Config, *, forecast_path: Path | None = None,
                   archived.previous_label, issued, info, got.get("older"), archived.notes)
 
 
-def _place(given: Given | None, path: Path | None, config: Config) -> dict[str, object]:
-    """Where an input came from, for ``Inputs.info``: its path, or the frame's kind and
-    fingerprint (the columns the tool reads)."""
+def _place(given: Given | None, place: object, config: Config) -> dict[str, object]:
+    """Where an input came from, for ``Inputs.info``: its place (a path, or a SQL source
+    with its password masked), or the frame's kind and fingerprint (the columns the tool
+    reads)."""
     if given is None:
-        return {"path": str(path)}
+        return {"path": str(place)}
     names = [str(c) for c in given.frame.columns]
     fc, ac = config.forecast, config.actuals
     wanted = {
