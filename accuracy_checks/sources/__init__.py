@@ -10,6 +10,8 @@ The modules, in the order the data flows through them:
 - :mod:`.segments`: :func:`read_mapping`, segment labels, the ``segment`` column of each frame;
 - :mod:`.prereads`: Parquet pre-reads (cycle starts, the periods and series of the actuals);
 - :mod:`.codes`: integer row codes of key columns (the one place for them);
+- :mod:`.memory`: frames given in memory (pandas DataFrames, pyarrow Tables) in place of a
+  configured input, through the same converters;
 - :mod:`.load`: :func:`load_inputs`, every input of one run → :class:`Inputs`.
 
 Every problem a user can fix raises :class:`~accuracy_checks.errors.InputError` naming the
