@@ -239,12 +239,13 @@ def write_forecast(cycle: NextCycle, config: Config, folder: Path) -> Path:
 
 def write_frame(frame: pd.DataFrame, config: Config, folder: Path) -> Path:
     """Write a forecast frame (the config's column names) to
-    ``folder/forecast_<issue date>.csv`` (``.parquet`` when the config's forecast is Parquet
-    or a folder), atomically (a reader never sees half a file); return the path."""
+    ``folder/forecast_<issue date>.csv`` (``.parquet`` when the config's forecast path is
+    Parquet or a folder), atomically (a reader never sees half a file); return the path."""
     folder = Path(folder)
     folder.mkdir(parents=True, exist_ok=True)
-    target = config.forecast.path
-    parquet = target.is_dir() or target.suffix.lower() in (".parquet", ".pq")
+    target = config.forecast.path  # None when the forecast is a SQL table: CSV then
+    parquet = target is not None and (target.is_dir()
+                                      or target.suffix.lower() in (".parquet", ".pq"))
     issued = pd.Timestamp(frame[config.forecast.issued].max())
     stamp = issued.strftime("%Y-%m-%d") if issued == issued.normalize() \
         else issued.strftime("%Y-%m-%dT%H%M")
