@@ -41,15 +41,16 @@ from accuracy_checks.sources.load import (
 )
 from accuracy_checks.sources.memory import GivenFrames
 from accuracy_checks.store.archive import (
-    Archive,
     Snapshot,
     SnapshotFault,
     SnapshotUnreadable,
     StagedSnapshot,
 )
+from accuracy_checks.store.remote_archive import open_archive
 
 if TYPE_CHECKING:
     from accuracy_checks.store import Store
+    from accuracy_checks.store.remote_archive import RemoteStaged
 
 __all__ = ["ARCHIVE_CHECK", "archived_cycles", "evaluate", "given_frames", "run_checks",
            "unmatched_thresholds"]
@@ -105,7 +106,7 @@ def _read_archive(config: Config, issued: pd.Timestamp, history_cycles: set[pd.T
     """The archived earlier cycles the run uses: their pruned rows (the cycles not held by
     the history files), the previous cycle's whole forecast and label (for the series count),
     and a warning for each used cycle whose snapshot cannot be used."""
-    archive = Archive(config.archive)
+    archive = open_archive(config.archive)
     snaps, faults = archive.last_recorded(recorded, before=issued)
     required = [*config.forecast.keys, F.PERIOD, F.ISSUED, F.FORECAST]
     read: dict[str, pd.DataFrame | None] = {}
@@ -266,16 +267,25 @@ def _prepare_store_and_archive(config: Config, *, snapshot: bool,
     db_file = sqlite_file(store_url)
     if db_file is not None:
         check_sqlite_location(db_file)
-    Archive(config.archive).check_usable(write=snapshot)
+    open_archive(config.archive).check_usable(write=snapshot)
     if db_file is not None and not db_file.exists():
         return None
     with open_store(store_url) as store:
         moved = store.retire_orphans(config.archive)
+        finished = store.finish_snapshots(config.archive)
         recorded = store.archived_attempts()
     if moved:
         progress(f"moved {len(moved)} unrecorded snapshot(s) left by interrupted runs "
-                 f"to {moved[0].parent.parent}")
+                 f"to {_parent(_parent(moved[0]))}")
+    if finished:
+        progress(f"wrote {len(finished)} snapshot(s) of recorded runs that were interrupted "
+                 f"before their upload: {', '.join(map(str, finished))}")
     return recorded
+
+
+def _parent(path: Path | str) -> Path | str:
+    """The folder of a local path or of an object's URL."""
+    return path.parent if isinstance(path, Path) else path.rsplit("/", 1)[0]
 
 
 def _drift_and_waivers(config: Config, results: list[CheckResult], store: Store, *,
@@ -299,15 +309,17 @@ def _drift_and_waivers(config: Config, results: list[CheckResult], store: Store,
     return results
 
 
-def _stage_snapshot(config: Config, inputs: Inputs, progress: Progress) -> StagedSnapshot:
+def _stage_snapshot(config: Config, inputs: Inputs,
+                    progress: Progress) -> StagedSnapshot | RemoteStaged:
     """The forecast written in full to the archive's staging folder (outside any lock)."""
     t0 = time.perf_counter()
-    staged = Archive(config.archive).stage(inputs.forecast, inputs.issued)
+    staged = open_archive(config.archive).stage(inputs.forecast, inputs.issued)
     progress(f"snapshot staged in {time.perf_counter() - t0:.1f} s")
     return staged
 
 
-def _record(config: Config, store: Store, report: RunReport, staged: StagedSnapshot | None, *,
+def _record(config: Config, store: Store, report: RunReport,
+            staged: StagedSnapshot | RemoteStaged | None, *,
             forecast_path: Path | None, actuals_path: Path | None, progress: Progress) -> None:
     """Record ``report`` (and place the staged snapshot) in one store transaction; the staged
     file is discarded when the inputs' fingerprints cannot be taken."""

@@ -29,6 +29,12 @@ attempt in its place: a recorded snapshot that is missing or unreadable, or a cy
 no run recorded, is a :class:`SnapshotFault`, and the engine leaves that cycle out with a
 warning. Only without a store (the first run) is the folder's highest attempt taken as is.
 
+**On object storage** (``archive: s3://bucket/archive``, any URL scheme but ``file://``) the
+promise is the same but the order differs, since an object store has no atomic rename: the
+final object is written after the record commits, and the next run finishes an upload that a
+killed run left undone (:mod:`accuracy_checks.store.remote_archive`). ``open_archive``
+(in that module) picks the kind from the location.
+
 **Faults while writing** (an archive path that is a file, a folder that cannot be written, a
 full disk) raise :class:`ArchiveError` naming the path: :meth:`Archive.check_usable` before
 the checks run, and the writing steps themselves, which leave no half file behind.
@@ -44,7 +50,7 @@ import uuid
 from collections.abc import Mapping, Sequence
 from dataclasses import dataclass
 from pathlib import Path
-from typing import TYPE_CHECKING, Literal
+from typing import TYPE_CHECKING, Any, Literal
 
 from accuracy_checks.errors import UsageError
 from accuracy_checks.sources import frames as F
@@ -71,11 +77,25 @@ class ArchiveError(UsageError):
     """The archive folder cannot be used: it is a file, or cannot be written (exit code 2)."""
 
 
+def archive_url(location: object) -> str | None:
+    """The URL of an archive given as a URL of object storage (``s3://bucket/archive``,
+    a config's URL object), ``None`` for a local folder (a path, or a ``file://`` URL).
+
+    >>> archive_url("s3://bucket/archive"), archive_url(Path("/data/archive"))
+    ('s3://bucket/archive', None)
+    """
+    text = getattr(location, "url", location)
+    if isinstance(text, str) and re.match(r"^[A-Za-z][A-Za-z0-9+.\-]*://", text):
+        return None if text.lower().startswith("file://") else text
+    return None
+
+
 @dataclass(frozen=True)
 class Snapshot:
     cycle: str
     attempt: int
-    path: Path
+    #: the file (a local path), or the object's URL as shown (secrets masked)
+    path: Path | str
 
     @property
     def issued(self) -> pd.Timestamp:
@@ -131,6 +151,8 @@ class Archive:
 
     def __init__(self, root: Path) -> None:
         self.root = Path(root)
+        #: the archive as shown in messages and records
+        self.location = str(self.root)
 
     def snapshots(self) -> list[Snapshot]:
         """Every snapshot, ordered by cycle then attempt."""
@@ -184,7 +206,7 @@ class Archive:
                 continue  # not an issue-date label: no snapshot of ours
             if before is not None and snap.issued >= before:
                 continue
-            if snap.path.is_file():
+            if self._exists(snap):
                 found.append(snap)
             else:
                 faults.append(SnapshotFault(snap, "missing"))
@@ -209,6 +231,15 @@ class Archive:
             reason = " ".join(str(exc).replace(f" '{snap.path}'", "").split())
             reason = reason or type(exc).__name__
             raise SnapshotUnreadable(f"it is not a readable Parquet file ({reason})") from None
+        return self._finish_read(frame, snap, required)
+
+    def _exists(self, snap: Snapshot) -> bool:
+        return Path(snap.path).is_file()
+
+    @staticmethod
+    def _finish_read(frame: pd.DataFrame, snap: Snapshot,
+                     required: Sequence[str]) -> pd.DataFrame:
+        """``frame`` checked for the ``required`` columns, with ``attempt`` and ``source``."""
         lacking = [c for c in required if c not in frame.columns]
         if lacking:
             raise SnapshotUnreadable(
@@ -266,6 +297,11 @@ class Archive:
             raise
         return StagedSnapshot(self.root, cycle_label(issued), tmp)
 
+    def finish_pending(self, recorded_as: Any) -> list[Path | str]:
+        """Nothing to finish on disk: the snapshot is renamed inside the transaction (object
+        storage publishes after the commit, see :mod:`~accuracy_checks.store.remote_archive`)."""
+        return []
+
     def retire_unrecorded(self, cycle: str, first: int) -> list[Path]:
         """Move the cycle's snapshots numbered ``first`` or above to ``.orphans/`` (step 2).
 
@@ -313,7 +349,7 @@ class StagedSnapshot:
     cycle: str
     path: Path
 
-    def place(self, attempt: int) -> Path:
+    def place(self, attempt: int, run_id: str = "") -> Path:
         """Rename the staged file to ``cycle=<cycle>/attempt-<attempt>.parquet`` (atomic)."""
         cycle_dir = self.root / f"cycle={self.cycle}"
         final = cycle_dir / f"attempt-{attempt:04d}.parquet"
@@ -324,6 +360,10 @@ class StagedSnapshot:
             raise _write_error(self.root, exc) from None
         _fsync_dir(cycle_dir)
         return final
+
+    def publish(self) -> None:
+        """Nothing left to do on disk: :meth:`place` renamed the file inside the
+        transaction."""
 
     def discard(self) -> None:
         """Remove the staged file (the run was not recorded)."""

@@ -37,6 +37,7 @@ from accuracy_checks.store.urls import default_store_url
 if TYPE_CHECKING:
     from accuracy_checks.config import Config
     from accuracy_checks.store.archive import StagedSnapshot
+    from accuracy_checks.store.remote_archive import RemoteStaged
 
 
 @dataclass(frozen=True)
@@ -46,9 +47,10 @@ class RecordedRun:
     run_id: str
     cycle: str | None
     attempt: int | None
-    snapshot: Path | None
+    #: the snapshot's file, or its object's URL as shown (object storage)
+    snapshot: Path | str | None
     #: unrecorded snapshots of killed runs moved to ``<archive>/.orphans``
-    retired: tuple[Path, ...] = ()
+    retired: tuple[Path | str, ...] = ()
 
 
 def archived_attempts(target: Config | str) -> dict[str, int] | None:
@@ -137,7 +139,8 @@ class Store:
 
     def record_run(self, report: RunReport, *, config: Config | None = None,
                    fingerprints: dict[str, Any] | None = None,
-                   snapshot: StagedSnapshot | None = None, archive: Path | None = None,
+                   snapshot: StagedSnapshot | RemoteStaged | None = None,
+                   archive: object = None,
                    progress: Callable[[str], None] | None = None) -> RecordedRun:
         """Record ``report`` and its results in one transaction (all or nothing).
 
@@ -148,10 +151,16 @@ class Store:
         unrecorded snapshots numbered N or above are still moved aside, so the archive never
         holds a number that the store gives to another run. ``fingerprints`` (see
         :func:`~accuracy_checks.store.record.input_fingerprints`) default to
-        ``report.inputs``. ``archive`` is the archive folder (default ``config.archive``;
-        ``snapshot.root`` when only a snapshot is given). Raises :class:`StoreError` when
-        the store cannot be written; then nothing is recorded and the staged snapshot is
-        removed.
+        ``report.inputs``. ``archive`` is the archive folder or URL (default
+        ``config.archive``; ``snapshot.root`` when only a snapshot is given). Raises
+        :class:`StoreError` when the store cannot be written; then nothing is recorded and the
+        staged snapshot is removed.
+
+        On object storage the transaction only claims the attempt; the final object is
+        written after the commit (:meth:`RemoteStaged.publish
+        <accuracy_checks.store.remote_archive.RemoteStaged.publish>`). If that upload fails,
+        the run stays recorded, ``progress`` says so, and the next run finishes the upload
+        (:meth:`finish_snapshots`).
         """
         recorded_at = datetime.now(UTC)
         run = run_row(report, config=config, fingerprints=fingerprints,
@@ -162,14 +171,14 @@ class Store:
             snapshot.root if snapshot is not None else None)
         folder = None
         if root is not None and report.cycle is not None:
-            from accuracy_checks.store.archive import Archive
+            from accuracy_checks.store.remote_archive import open_archive
 
-            folder = Archive(root)
+            folder = open_archive(root)
         if snapshot is not None and snapshot.cycle != report.cycle:
             snapshot.discard()
             raise ValueError(f"snapshot of cycle {snapshot.cycle} for a run of {report.cycle}")
-        placed: Path | None = None
-        retired: list[Path] = []
+        placed: Path | str | None = None
+        retired: list[Any] = []
         try:
             with self.db.write() as conn:
                 attempt = None
@@ -181,7 +190,7 @@ class Store:
                     if folder is not None:
                         retired = folder.retire_unrecorded(report.cycle, attempt)
                     if snapshot is not None:
-                        placed = snapshot.place(attempt)
+                        placed = snapshot.place(attempt, run_id=report.run_id)
                 run["attempt"] = attempt
                 run["snapshot"] = str(placed) if placed is not None else None
                 previous = conn.execute(
@@ -198,12 +207,24 @@ class Store:
                 # (if that fails too, the next run of the cycle moves it aside)
                 with contextlib.suppress(Exception):
                     folder.retire_unrecorded(report.cycle, int(run["attempt"]))
+            if placed is not None and snapshot is not None:
+                snapshot.discard()  # object storage: the staged object and its claim
             raise
         finally:
             if snapshot is not None and placed is None:
                 snapshot.discard()
         report.attempt = attempt
         report.snapshot = str(placed) if placed is not None else None
+        if snapshot is not None and placed is not None:
+            from accuracy_checks.store.archive import ArchiveError
+
+            try:
+                snapshot.publish()
+            except ArchiveError as exc:
+                if progress:
+                    progress(f"the run is recorded, but its snapshot {placed} could not be "
+                             f"written yet ({exc}); the next run writes it from the staged "
+                             "copy")
         if progress and retired:
             progress(f"moved {len(retired)} unrecorded snapshot(s) of cycle {report.cycle} "
                      f"(left by interrupted runs) to {retired[0].parent}")
@@ -215,17 +236,37 @@ class Store:
         with self.db.read() as conn:
             return queries.archived_attempts(conn)
 
-    def retire_orphans(self, archive: Path) -> list[Path]:
+    def finish_snapshots(self, archive: object) -> list[Path | str]:
+        """Write the final snapshot objects that runs killed between their commit and the
+        upload left undone (object storage only; see
+        :meth:`RemoteArchive.finish_pending
+        <accuracy_checks.store.remote_archive.RemoteArchive.finish_pending>`): only for a run
+        the store records, under that run's attempt. Returns the paths written."""
+        from accuracy_checks.store.archive import archive_url
+        from accuracy_checks.store.remote_archive import open_archive
+
+        if archive_url(archive) is None:
+            return []  # on disk the rename happened inside the transaction
+        folder = open_archive(archive)
+        with self.db.read() as conn:
+            recorded = {(str(c), int(a)): str(r) for r, c, a in conn.execute(
+                select(runs.c.run_id, runs.c.cycle, runs.c.attempt)
+                .where(runs.c.snapshot.is_not(None), runs.c.cycle.is_not(None)))}
+        return list(folder.finish_pending(
+            lambda run_id, cycle, attempt: recorded.get((cycle, attempt)) == run_id))
+
+    def retire_orphans(self, archive: object) -> list[Path | str]:
         """Move aside every snapshot in ``archive`` numbered above its cycle's last recorded
         attempt: left by runs killed before their record committed, so that no later run
         measures accuracy on an unrecorded snapshot. Cycles with no recorded run are left
         alone (their snapshots may predate the store). Returns where the files went."""
         from accuracy_checks.store.archive import Archive
+        from accuracy_checks.store.remote_archive import open_archive
 
-        folder = Archive(archive)
-        if not folder.root.is_dir():
+        folder = open_archive(archive)
+        if type(folder) is Archive and not folder.root.is_dir():
             return []
-        moved: list[Path] = []
+        moved: list[Path | str] = []
         with self.db.write() as conn:
             last = dict(conn.execute(
                 select(runs.c.cycle, func.max(runs.c.attempt))

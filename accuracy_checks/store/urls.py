@@ -24,6 +24,9 @@ __all__ = ["MASK", "default_store_url", "mask_secrets", "mask_url", "sqlite_file
 def default_store_url(config: Config) -> str:
     """The store of ``config``: its ``store`` URL, else ``audit.db`` next to the archive folder.
 
+    An archive on object storage has no folder next to it: without ``store`` that is a
+    :class:`~accuracy_checks.errors.ConfigError`.
+
     >>> from pathlib import Path
     >>> class C:  # a stand-in with the two attributes read here
     ...     store, archive = None, Path("/data/.accuracy_checks/archive")
@@ -32,7 +35,20 @@ def default_store_url(config: Config) -> str:
     """
     if config.store:
         return config.store
-    return "sqlite:///" + str(Path(config.archive).parent / "audit.db")
+    from accuracy_checks.store.archive import archive_url
+
+    url = archive_url(config.archive)
+    if url is not None:
+        from accuracy_checks.errors import ConfigError
+        from accuracy_checks.store.remote_archive import display_location
+
+        where = f" in {config.source}" if getattr(config, "source", None) else ""
+        raise ConfigError(
+            f"`archive`{where} is a URL ({display_location(url)}), so the audit store cannot "
+            "default to a file next to it: set `store:` to a database URL, such as "
+            "postgresql+psycopg://gate@db.example/audit (nothing then lives on the worker's "
+            "disk) or sqlite:////var/lib/accuracy-checks/audit.db.")
+    return "sqlite:///" + str(Path(str(config.archive)).parent / "audit.db")
 
 
 def sqlite_file(url: str) -> Path | None:
