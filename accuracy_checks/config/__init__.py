@@ -11,7 +11,8 @@ the registered measures.
 - :mod:`~accuracy_checks.config.catalogue`: the catalogue a config is checked against.
 - :mod:`~accuracy_checks.config.loading`: YAML → :class:`Config`; the error messages.
 - :mod:`~accuracy_checks.config.schema`: the JSON Schema for editors.
-- :mod:`~accuracy_checks.config.places`: where an input is: a path, or a table or query.
+- :mod:`~accuracy_checks.config.places`: where an input is: a path, a URL, or a table or
+  query.
 - :mod:`~accuracy_checks.config.urls`: ``${NAME}`` in URLs, passwords masked.
 
 Every problem is raised as :class:`~accuracy_checks.errors.ConfigError` naming the file, the
@@ -38,6 +39,7 @@ from accuracy_checks.config.models import (
     SqlSource,
     Thresholds,
     UnitCosts,
+    Url,
 )
 from accuracy_checks.config.schema import json_schema
 
@@ -62,6 +64,7 @@ __all__ = [
     "SqlSource",
     "Thresholds",
     "UnitCosts",
+    "Url",
     "check_level",
     "did_you_mean",
     "json_schema",

@@ -20,8 +20,8 @@ import yaml
 from pydantic import BaseModel, ValidationError
 
 from accuracy_checks.config.catalogue import CONTEXT_KEY, Catalogue, did_you_mean
-from accuracy_checks.config.models import Config, SqlPlace, SqlSource
-from accuracy_checks.config.urls import expand_env
+from accuracy_checks.config.models import Config, SqlPlace, SqlSource, Url
+from accuracy_checks.config.urls import expand_env, mask_location
 from accuracy_checks.errors import ConfigError
 
 __all__ = ["CatalogueSource", "load_config", "parse_config", "validate"]
@@ -109,9 +109,11 @@ def parse_config(text: str, *, catalogue: CatalogueSource, source: Path | None =
         config = validate(raw, catalogue)
     except ValidationError as exc:
         raise ConfigError(_explain(exc, name)) from None
-    for key, sql in config.sql_sources:
+    checked = [(f"{key}.url", sql.url) for key, sql in config.sql_sources]
+    checked += [(key, p.url) for key, p in config.url_places if isinstance(p, Url)]
+    for key, url in checked:
         try:
-            expand_env(sql.url, f"{key}.url")
+            expand_env(url, key)
         except ConfigError as exc:
             raise ConfigError(f"Config file {name}: {exc}") from None
     base = source.resolve().parent if source else Path.cwd()
@@ -157,7 +159,7 @@ def _resolve_paths(config: Config, base: Path) -> Config:
             "forecast": section(config.forecast),
             "actuals": section(config.actuals),
             "history": history,
-            "archive": res(config.archive),
+            "archive": place(config.archive),
             "store": store,
             "segments": config.segments.model_copy(
                 update={"mapping": place(config.segments.mapping)}
@@ -183,6 +185,8 @@ def _explain(exc: ValidationError, name: str) -> str:
         else:
             msg = err["msg"].removeprefix("Value error, ")
             value = err.get("input")
+            if isinstance(value, str):
+                value = mask_location(value)
             shown = (
                 f" (got {json.dumps(value, default=str)[:80]})"
                 if not isinstance(value, dict | list)

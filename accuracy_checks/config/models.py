@@ -35,10 +35,12 @@ from accuracy_checks.config.catalogue import (
 )
 from accuracy_checks.config.levels import Bound, check_level
 from accuracy_checks.config.places import (
+    Location,
     Place,
     PlaceEntry,
     SqlPlace,
     SqlSource,
+    Url,
     entry_kind,
     one_place,
 )
@@ -97,7 +99,7 @@ class ForecastSource(_Strict):
     """Where the forecast is (``path``, or ``sql``: a table or query) and which columns hold
     what."""
 
-    path: Path | None = None
+    path: Location | None = None
     sql: SqlSource | None = None
     keys: Annotated[list[str], Field(min_length=1)]
     period: str
@@ -156,7 +158,7 @@ class ActualsSource(_Strict):
     """Where the actuals are (``path``, or ``sql``: a table or query); ``keys`` default to the
     forecast's keys."""
 
-    path: Path | None = None
+    path: Location | None = None
     sql: SqlSource | None = None
     period: str
     value: str
@@ -355,11 +357,12 @@ class Config(_Strict):
     #: earlier forecasts: a file or folder, a table or query (``{sql: {url, table}}``), or a
     #: list of them
     history: Annotated[
-        Annotated[Path, Tag("Path")] | Annotated[SqlPlace, Tag("SqlPlace")]
+        Annotated[Location, Tag("Path")] | Annotated[SqlPlace, Tag("SqlPlace")]
         | Annotated[list[PlaceEntry], Tag("list")],
         Discriminator(entry_kind),
     ] | None = None
-    archive: Path = Path(".accuracy_checks/archive")
+    #: a local folder, or a URL (``s3://bucket/archive``): :mod:`accuracy_checks.store.archive`
+    archive: Location = Path(".accuracy_checks/archive")
     store: str | None = None
     frequency: str
     #: periods a cycle forecasts, 1 to MAX_HORIZON (1000): a longer horizon would run past
@@ -409,6 +412,17 @@ class Config(_Strict):
         found += [(f"history[{i}].sql" if several else "history.sql", p)
                   for i, p in enumerate(self.history_paths)]
         return [(key, p) for key, p in found if isinstance(p, SqlSource)]
+
+    @property
+    def url_places(self) -> list[tuple[str, Url]]:
+        """``(config key, URL)`` of every input or archive given as a URL."""
+        found: list[tuple[str, object]] = [
+            ("forecast.path", self.forecast.path), ("actuals.path", self.actuals.path),
+            ("segments.mapping", self.segments.mapping_place), ("archive", self.archive)]
+        several = isinstance(self.history, list)
+        found += [(f"history[{i}]" if several else "history", p)
+                  for i, p in enumerate(self.history_paths)]
+        return [(key, p) for key, p in found if isinstance(p, Url)]
 
     @field_validator("horizon")
     @classmethod

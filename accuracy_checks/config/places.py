@@ -1,6 +1,12 @@
-"""Where an input is: a local path, or a table or query in a database (``sql: {url, table}``
-or ``sql: {url, query}``). Declarations only, as the rest of the config: the reading is
-:mod:`accuracy_checks.sources.sql`'s.
+"""Where an input is: a local path, a URL (:class:`Url`: object storage, ``memory://``,
+``https://``), or a table or query in a database (``sql: {url, table}`` or
+``sql: {url, query}``). Declarations only, as the rest of the config: the reading is
+:mod:`accuracy_checks.sources.datasets`' (URLs) and :mod:`accuracy_checks.sources.sql`'s.
+
+Every field that takes a path takes a URL too (:data:`Location`): a text with ``scheme://``
+becomes a :class:`Url` when its scheme is one of :data:`SCHEMES`, ``file://`` becomes the
+local path it names, and any other scheme is refused (never read as a relative folder named
+``s3:``).
 """
 
 from __future__ import annotations
@@ -8,9 +14,11 @@ from __future__ import annotations
 import re
 from pathlib import Path
 from typing import Annotated, Any
+from urllib.parse import unquote, urlsplit
 
 from pydantic import (
     BaseModel,
+    BeforeValidator,
     ConfigDict,
     Discriminator,
     Field,
@@ -19,9 +27,131 @@ from pydantic import (
     model_validator,
 )
 
-from accuracy_checks.config.urls import env_names, mask_url
+from accuracy_checks.config.urls import env_names, mask_location, mask_url
 
-__all__ = ["Place", "PlaceEntry", "SqlPlace", "SqlSource", "entry_kind", "one_place"]
+__all__ = ["SCHEMES", "Location", "Place", "PlaceEntry", "SqlPlace", "SqlSource", "Url",
+           "entry_kind", "one_place", "to_location"]
+
+#: the URL schemes a path field takes (``file://`` is read as the local path it names),
+#: with what serves them
+SCHEMES = {
+    "s3": "Amazon S3 and S3-compatible stores (pyarrow's S3 filesystem)",
+    "gs": "Google Cloud Storage (pyarrow's GCS filesystem)",
+    "gcs": "Google Cloud Storage (pyarrow's GCS filesystem)",
+    "az": "Azure Blob Storage / ADLS Gen2 (pyarrow's Azure filesystem)",
+    "abfs": "Azure Blob Storage / ADLS Gen2 (pyarrow's Azure filesystem)",
+    "abfss": "Azure Blob Storage / ADLS Gen2 (pyarrow's Azure filesystem)",
+    "memory": "fsspec's in-process memory filesystem (extra `cloud`)",
+    "https": "one file over HTTPS",
+    "http": "one file over HTTP",
+    "file": "a local path",
+}
+_SCHEME = re.compile(r"^(?P<scheme>[A-Za-z][A-Za-z0-9+.\-]*)://")
+
+
+class Url:
+    """A place given as a URL (``s3://bucket/forecasts/``, ``memory://x/actuals.parquet``).
+
+    ``url`` is kept as written, ``${NAME}`` included: the variables are replaced only when the
+    data is read (:func:`accuracy_checks.config.urls.expand_env`), so a secret never sits in
+    the config. ``str()`` (and so every message, the audit record and the report) shows the
+    URL with any secret masked (:func:`~accuracy_checks.config.urls.mask_location`).
+    """
+
+    __slots__ = ("url",)
+
+    def __init__(self, url: str) -> None:
+        self.url = url
+
+    @property
+    def scheme(self) -> str:
+        """The scheme, lower case (``s3``, ``gs``, ``memory``…)."""
+        return self.url.split("://", 1)[0].lower()
+
+    @property
+    def name(self) -> str:
+        """The last part of the path (``forecast.parquet``; ``""`` for a prefix ending in /)."""
+        return urlsplit(self.url).path.rsplit("/", 1)[-1]
+
+    @property
+    def suffix(self) -> str:
+        """The file suffix of :attr:`name`, as :attr:`pathlib.Path.suffix`."""
+        return Path(self.name).suffix if self.name else ""
+
+    def __str__(self) -> str:
+        return mask_location(self.url)
+
+    def __repr__(self) -> str:
+        return f"Url({str(self)!r})"
+
+    def __eq__(self, other: object) -> bool:
+        return isinstance(other, Url) and other.url == self.url
+
+    def __hash__(self) -> int:
+        return hash(("Url", self.url))
+
+    @classmethod
+    def __get_pydantic_core_schema__(cls, source: Any, handler: Any) -> Any:
+        from pydantic_core import core_schema
+
+        return core_schema.no_info_plain_validator_function(
+            _url_only, serialization=core_schema.plain_serializer_function_ser_schema(
+                lambda u: u.url if isinstance(u, Url) else str(u)))
+
+    @classmethod
+    def __get_pydantic_json_schema__(cls, schema: Any, handler: Any) -> dict[str, Any]:
+        return {"type": "string", "format": "uri"}
+
+
+def _url_only(value: object) -> Url:
+    if isinstance(value, Url):
+        return value
+    raise ValueError("expected a URL")
+
+
+def to_location(value: object) -> object:
+    """A path field's value: a :class:`Url` for ``scheme://`` text with a known scheme, the
+    local :class:`~pathlib.Path` of a ``file://`` URL, anything else unchanged (pydantic then
+    makes it a path). Raises ``ValueError`` for an unknown scheme, naming the known ones.
+
+    >>> to_location("s3://bucket/forecasts/")
+    Url('s3://bucket/forecasts/')
+    >>> to_location("file:///data/f%20x.csv")
+    PosixPath('/data/f x.csv')
+    >>> to_location("data/forecast.csv")
+    'data/forecast.csv'
+    """
+    text = str(value) if isinstance(value, Path) and "://" in str(value) else value
+    if not isinstance(text, str):
+        return value
+    found = _SCHEME.match(text)
+    if found is None:
+        if re.match(r"^[A-Za-z][A-Za-z0-9+.\-]*:/[^/]", text) and isinstance(value, Path):
+            # a URL already squeezed by Path ("s3:/bucket"): refuse it too
+            found = re.match(r"^(?P<scheme>[A-Za-z][A-Za-z0-9+.\-]*):", text)
+        else:
+            return value
+    assert found is not None
+    scheme = found["scheme"].lower()
+    if scheme not in SCHEMES or "://" not in text:
+        raise ValueError(
+            f"the URL scheme {found['scheme']!r} is not supported; give a local path or a URL "
+            f"with one of {', '.join(s + '://' for s in SCHEMES)} (memory:// needs "
+            "pip install \"accuracy-checks[cloud]\"; a database table goes under `sql:`)"
+        )
+    if scheme == "file":
+        parts = urlsplit(text)
+        if parts.netloc not in ("", "localhost"):
+            raise ValueError(f"a file:// URL names a local path (file:///data/x.csv); "
+                             f"got the host {parts.netloc!r}")
+        return Path(unquote(parts.path))
+    if not text[found.end():].strip("/"):
+        raise ValueError(f"the URL {mask_location(text)} names no bucket or path")
+    return Url(text)
+
+
+#: a path field: a local path or a :class:`Url`
+Location = Annotated[Path | Url, BeforeValidator(to_location)]
 
 
 class _Strict(BaseModel):
@@ -101,8 +231,8 @@ class SqlPlace(_Strict):
     sql: SqlSource
 
 
-#: where an input is: a local path, or a table or query in a database
-Place = Path | SqlSource
+#: where an input is: a local path, a URL, or a table or query in a database
+Place = Path | Url | SqlSource
 
 
 def entry_kind(value: object) -> str:
@@ -112,9 +242,9 @@ def entry_kind(value: object) -> str:
     return "SqlPlace" if isinstance(value, dict | SqlPlace) else "Path"
 
 
-#: a history entry or the mapping: a path, or ``{sql: {…}}``
+#: a history entry or the mapping: a path or URL, or ``{sql: {…}}``
 PlaceEntry = Annotated[
-    Annotated[Path, Tag("Path")] | Annotated[SqlPlace, Tag("SqlPlace")],
+    Annotated[Location, Tag("Path")] | Annotated[SqlPlace, Tag("SqlPlace")],
     Discriminator(entry_kind),
 ]
 

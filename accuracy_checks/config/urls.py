@@ -16,13 +16,17 @@ from collections.abc import Mapping
 
 from accuracy_checks.errors import ConfigError
 
-__all__ = ["MASK", "env_names", "expand_env", "mask_secrets", "mask_url"]
+__all__ = ["MASK", "env_names", "expand_env", "mask_location", "mask_secrets", "mask_url"]
 
 MASK = "***"
 #: ``scheme://user:password@`` anywhere in a text (URLs in config text, driver messages)
 _USERINFO = re.compile(r"(?P<head>(?:[A-Za-z][A-Za-z0-9+.\-]*)?://[^:/@\s'\"]*):(?P<pw>[^@\s'\"]*)@")
 #: ``password=…`` in a query string or a libpq keyword/value string
 _PW_PARAM = re.compile(r"(?P<head>\bpassword\s*=\s*)(?P<pw>[^&\s'\"]+)", re.IGNORECASE)
+#: a query parameter of a storage URL that carries a secret (SAS tokens, presigned URLs, keys)
+_SECRET_PARAM = re.compile(
+    r"(?P<head>[?&](?:[^=&#\s]*(?:sig|signature|token|secret|password|credential|key)"
+    r"[^=&#\s]*|sv|se|sp)=)(?P<pw>[^&#\s]*)", re.IGNORECASE)
 #: ``${NAME}``: an environment variable in a URL
 _ENV = re.compile(r"\$\{([A-Za-z_][A-Za-z0-9_]*)\}")
 
@@ -77,8 +81,24 @@ def mask_url(url: str) -> str:
     return mask_secrets(shown)
 
 
+def mask_location(url: str) -> str:
+    """A storage URL (``s3://``, ``https://``…) as shown: the user-info password and every
+    query parameter that carries a secret (``sig=``, ``X-Amz-Signature=``, ``token=``,
+    ``key=``…) as ``***``; ``${NAME}`` stays as written (it is replaced only when read).
+
+    >>> mask_location("https://acct.blob.core.windows.net/c/f.parquet?sv=2024&sig=abc%2B")
+    'https://acct.blob.core.windows.net/c/f.parquet?sv=***&sig=***'
+    >>> mask_location("s3://AKIA:wJalr@bucket/forecasts/")
+    's3://AKIA:***@bucket/forecasts/'
+    >>> mask_location("s3://bucket/forecasts/issued_on=2026-11-30/")
+    's3://bucket/forecasts/issued_on=2026-11-30/'
+    """
+    return mask_secrets(url)
+
+
 def mask_secrets(text: str) -> str:
-    """``text`` with every URL password and ``password=`` value replaced by ``***``.
+    """``text`` with every URL password, ``password=`` value and secret-carrying URL query
+    parameter (``sig=``, ``X-Amz-Signature=``, ``token=``…) replaced by ``***``.
 
     Used on the config text kept in the audit record and on driver error messages.
 
@@ -88,4 +108,5 @@ def mask_secrets(text: str) -> str:
     'host=db password=*** dbname=audit'
     """
     text = _USERINFO.sub(lambda m: f"{m['head']}:{MASK}@" if m["pw"] else m[0], text)
+    text = _SECRET_PARAM.sub(lambda m: f"{m['head']}{MASK}", text)
     return _PW_PARAM.sub(lambda m: f"{m['head']}{MASK}", text)

@@ -1,5 +1,6 @@
 """Finding the data files and reading their raw columns: CSV and Parquet, a file or a folder
-(a table or query goes to :mod:`accuracy_checks.sources.sql`).
+(a table or query goes to :mod:`accuracy_checks.sources.sql`, a URL or a folder of Hive
+partitions to :mod:`accuracy_checks.sources.datasets`).
 
 :func:`read_columns` reads the configured columns
 (:class:`~accuracy_checks.sources.columns.Column`) of every file at a path and converts them
@@ -34,7 +35,7 @@ import pandas as pd
 
 from accuracy_checks.config import Place, SqlSource
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources import sql
+from accuracy_checks.sources import datasets, sql
 from accuracy_checks.sources.columns import SHOWN, Column, convert
 
 __all__ = ["PARQUET", "READ_ERRORS", "check_header", "columns_of", "file_header", "is_timestamp",
@@ -80,15 +81,28 @@ def sql_key(key: str) -> str:
 
 def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
                  allow_empty: bool = False,
-                 row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
+                 row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None,
+                 since: tuple[str, pd.Timestamp] | None = None) -> pd.DataFrame:
     """Read ``columns`` from a file or folder, or a table or query (an
     :class:`~accuracy_checks.config.SqlSource`: :mod:`accuracy_checks.sources.sql`), and
     convert them to their kinds.
 
     ``row_filter`` = (date column, dates): Parquet files whose column is a timestamp keep only
     the rows on those dates, filtered while reading (a table: in its WHERE clause); other
-    files are read whole.
+    files are read whole. A dataset (a URL, a folder of Hive partitions) takes both filters
+    into the read, ``since`` = (date column, first date) too: files of partitions outside them
+    are never opened (:mod:`accuracy_checks.sources.datasets`); callers filter the rows again.
     """
+    if datasets.is_dataset(path):
+        fmts = {c.name: c.fmt for c in columns if c.kind == "date"}
+        filters = []
+        if row_filter is not None:
+            filters.append(datasets.DateFilter(row_filter[0], tuple(row_filter[1]),
+                                               fmt=fmts.get(row_filter[0])))
+        if since is not None:
+            filters.append(datasets.DateFilter(since[0], since=since[1], fmt=fmts.get(since[0])))
+        return datasets.read_dataset_columns(path, columns, role=role, key=key,  # type: ignore[arg-type]
+                                             allow_empty=allow_empty, filters=filters)
     if isinstance(path, SqlSource):
         return sql.read_sql_columns(path, columns, role=role, key=sql_key(key),
                                     allow_empty=allow_empty, row_filter=row_filter)
@@ -292,6 +306,9 @@ def columns_of(path: Place, role: str, key: str) -> list[str]:
     """The column names of the first file at ``path`` as written (a table's or query's)."""
     if isinstance(path, SqlSource):
         return sql.sql_columns(path, role, sql_key(key))
+    if datasets.is_dataset(path):
+        data = datasets.open_dataset(path, role, key)  # type: ignore[arg-type]
+        return datasets.dataset_columns(data, role, key)
     return file_header(list_files(path, role, key)[0], role)
 
 

@@ -242,7 +242,7 @@ def _read_history(config: Config, issued: pd.Timestamp, span: list[pd.Timestamp]
             history_cycles |= cycles
         return history, history_cycles
     for p in config.history_paths:
-        starts = cycle_starts(p, config)
+        starts = cycle_starts(p, config, periods=span)
         part = read_forecast(config, p, role="history", key="history",
                              segment_columns=seg_cols, allow_empty=True,
                              periods=span if starts is not None else None)

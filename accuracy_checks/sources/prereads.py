@@ -22,21 +22,35 @@ import pandas as pd
 from pandas.errors import OutOfBoundsDatetime
 
 from accuracy_checks.config import Config, Place, SqlSource
+from accuracy_checks.sources import datasets, sql
 from accuracy_checks.sources import frames as F
-from accuracy_checks.sources import sql
 from accuracy_checks.sources.columns import Column, to_key
-from accuracy_checks.sources.files import PARQUET, is_timestamp, list_files
+from accuracy_checks.sources.files import PARQUET, is_timestamp, list_files, read_columns
+from accuracy_checks.sources.readers import actual_columns, issued_since
 
 __all__ = ["actual_periods", "actual_series", "cycle_starts"]
 
 
 def cycle_starts(path: Place, config: Config, *, role: str = "history",
-                 key: str = "history") -> pd.Series | None:
-    """The first period of every cycle in a Parquet file or folder (or a table), read from its
-    two date columns only (``None`` when a file is CSV or its dates are not timestamps)."""
+                 key: str = "history",
+                 periods: list[pd.Timestamp] | None = None) -> pd.Series | None:
+    """The first period of every cycle in a Parquet file or folder (or a table, or a dataset),
+    read from its two date columns only (``None`` when a file is CSV or its dates are not
+    timestamps). A dataset given the span's ``periods`` reads only the cycles issued since
+    :func:`~accuracy_checks.sources.readers.issued_since` (older partitions never opened)."""
     import pyarrow.parquet as pq
 
     issued, period = config.forecast.issued, config.forecast.period
+    if datasets.is_dataset(path):
+        fc = config.forecast
+        cols = [Column(issued, "date", "forecast.issued", F.ISSUED, fc.date_formats.get(issued)),
+                Column(period, "date", "forecast.period", F.PERIOD, fc.date_formats.get(period))]
+        since = issued_since(config, periods)
+        frame = read_columns(path, cols, role=role, key=key, allow_empty=True,
+                             since=(issued, since) if since is not None else None)
+        if since is not None:
+            frame = frame.loc[frame[F.ISSUED].isna() | (frame[F.ISSUED] >= since)]
+        return frame.groupby(F.ISSUED)[F.PERIOD].min().astype("datetime64[ns]")
     if isinstance(path, SqlSource):
         return sql.cycle_starts(path, issued, period, role=role, key=f"{key}.sql")
     parts = []
@@ -74,6 +88,11 @@ def actual_periods(config: Config, path: Place | None = None) -> pd.DatetimeInde
     place = path or ac.place
     if isinstance(place, SqlSource):
         return sql.actual_periods(place, ac.period, ac.value)
+    if datasets.is_dataset(place):
+        cols = [c for c in actual_columns(config) if c.name in (ac.period, ac.value)]
+        frame = read_columns(place, cols, role="actuals", key="actuals.path")
+        present = frame.loc[frame[F.ACTUAL].notna(), F.PERIOD]
+        return pd.DatetimeIndex(present.dropna().unique()).sort_values().as_unit("ns")
     found = []
     for f in list_files(place, "actuals", "actuals.path"):
         if f.suffix.lower() not in PARQUET:
@@ -107,6 +126,11 @@ def actual_series(config: Config, path: Place | None = None) -> pd.DataFrame:
     place = path or ac.place
     if isinstance(place, SqlSource):
         table = sql.distinct_rows(place, src, role="actuals", key="actuals.sql")
+    elif datasets.is_dataset(place):
+        cols = [c for c in actual_columns(config) if c.kind == "key"]
+        found = read_columns(place, cols, role="actuals", key="actuals.path")
+        return found.rename(columns=dict(zip(src, config.forecast.keys, strict=False))
+                            ).drop_duplicates()
     else:
         parts = []
         for f in list_files(place, "actuals", "actuals.path"):

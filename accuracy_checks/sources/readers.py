@@ -18,7 +18,21 @@ from accuracy_checks.sources.codes import duplicated_rows
 from accuracy_checks.sources.columns import SHOWN, Column
 from accuracy_checks.sources.files import columns_of, read_columns
 
-__all__ = ["forecast_columns", "read_actuals", "read_forecast"]
+__all__ = ["forecast_columns", "issued_since", "read_actuals", "read_forecast"]
+
+
+def issued_since(config: Config, periods: Sequence[pd.Timestamp] | None) -> pd.Timestamp | None:
+    """The earliest issue date of an earlier cycle that can hold a row the evaluation uses (a
+    configured lag, a target in ``periods``): the span's first period less the largest lag
+    plus the horizon, in periods of the frequency (a cycle's first period lies within its
+    horizon after its issue date). Datasets never open the partitions of cycles issued
+    before it. ``None``: no bound (no periods given)."""
+    if not periods:
+        return None
+    from pandas.tseries.frequencies import to_offset
+
+    back = max(config.evaluation.lags) + config.horizon
+    return pd.Timestamp(min(periods)) - back * to_offset(config.frequency)
 
 
 def forecast_columns(config: Config) -> list[Column]:
@@ -46,7 +60,8 @@ def read_forecast(config: Config, path: Place | None = None, *, role: str = "for
     ``path`` is a file or folder, or a table or query (default: the forecast's place).
     ``segment_columns`` present in the file are read too (as text); with ``periods``, Parquet
     files whose period column is a timestamp keep only the rows of those periods (a table:
-    ``period IN (…)`` in the WHERE clause)."""
+    ``period IN (…)`` in the WHERE clause; a dataset: the partitions of those periods and, for
+    ``role="history"``, of the cycles issued since :func:`issued_since`)."""
     path = path or config.forecast.place
     cols = forecast_columns(config)
     names = {c.name for c in cols}
@@ -54,8 +69,10 @@ def read_forecast(config: Config, path: Place | None = None, *, role: str = "for
     cols += [Column(s, "text", "segments.columns") for s in segment_columns
              if s in present and s not in names]
     row_filter = (config.forecast.period, periods) if periods is not None else None
+    since = issued_since(config, periods) if role == "history" else None
     return read_columns(path, cols, role=role, key=key, allow_empty=allow_empty,
-                        row_filter=row_filter)
+                        row_filter=row_filter,
+                        since=(config.forecast.issued, since) if since is not None else None)
 
 
 def actual_columns(config: Config) -> list[Column]:

@@ -1,0 +1,403 @@
+"""Datasets and URLs: a folder or prefix of Parquet (or CSV) files, local or on object storage,
+and one remote file, read through pyarrow's filesystems.
+
+A place is read here when it is a :class:`~accuracy_checks.config.Url` (``s3://``, ``gs://``,
+``az://``/``abfs://``, ``memory://``, ``https://``) or a local folder holding Hive-style
+``name=value`` folders (:func:`is_dataset`); a plain local file or flat folder stays with
+:mod:`accuracy_checks.sources.files`.
+
+**Partitions are columns.** ``issued_on=2026-11-30/part-0.parquet`` gives every row of that
+file the column ``issued_on`` with the text ``2026-11-30``; partition values are always read as
+text and go through the same converters as file columns
+(:func:`~accuracy_checks.sources.columns.convert`: keys as text, dates with their one format).
+
+**Filters go into the read.** A filter on a partition column (the span's periods, the issue
+dates a run can use) chooses the files from their paths alone, so a file outside the span is
+never opened — not even its footer; a filter on a data column is pushed into the Parquet scan
+(row groups skipped by their statistics). The rows read are filtered again after conversion by
+the callers, so the result never depends on the push-down.
+
+**Filesystems.** ``s3://`` uses pyarrow's S3 filesystem (credentials, region and endpoint from
+the AWS SDK's usual chain: ``AWS_ACCESS_KEY_ID``, ``AWS_SECRET_ACCESS_KEY``,
+``AWS_DEFAULT_REGION``, ``AWS_ENDPOINT_URL``, profiles, instance roles), with connect and
+request timeouts (:data:`CONNECT_TIMEOUT_S`, :data:`REQUEST_TIMEOUT_S`); ``gs://`` pyarrow's
+GCS filesystem; ``abfs://``/``az://`` pyarrow's Azure filesystem; ``memory://`` fsspec's memory
+filesystem (extra ``cloud``); ``https://`` one file, fetched with a timeout. ``${NAME}`` in a
+URL is replaced from the environment when it is read; messages show the URL with its secrets
+masked.
+
+**Errors** (:class:`~accuracy_checks.errors.InputError`, exit 2): a store that cannot be
+reached within the timeouts, a missing object, a prefix with no data files, a missing column,
+a damaged file in the span; an unknown scheme is refused when the config is read.
+"""
+
+from __future__ import annotations
+
+import os
+import tempfile
+from collections.abc import Sequence
+from dataclasses import dataclass, field
+from pathlib import Path
+from typing import Any
+from urllib.parse import unquote, urlsplit
+
+import numpy as np
+import pandas as pd
+
+from accuracy_checks.config import Url
+from accuracy_checks.config.urls import expand_env, mask_secrets
+from accuracy_checks.errors import InputError
+from accuracy_checks.sources.columns import Column, convert
+
+__all__ = ["CONNECT_TIMEOUT_S", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter", "is_dataset",
+           "open_dataset", "read_dataset_columns"]
+
+#: seconds to reach an object store before the run gives up (exit 2)
+CONNECT_TIMEOUT_S = 5
+#: seconds an object store may stay silent within one request (two attempts at most: a store
+#: that accepts connections but never answers is given up after about twice this)
+REQUEST_TIMEOUT_S = 10
+_PARQUET = (".parquet", ".pq")
+_CSV = (".csv", ".csv.gz", ".txt")
+#: cells read as missing in number and date columns of CSV datasets (the files' words)
+_NA_TEXT = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
+            "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null"]
+
+
+@dataclass(frozen=True)
+class DateFilter:
+    """Rows whose date column ``column`` is one of ``dates`` (``dates`` set) or on or after
+    ``since`` (``since`` set): pushed into the read (see the module doc)."""
+
+    column: str
+    dates: tuple[pd.Timestamp, ...] | None = None
+    since: pd.Timestamp | None = None
+    fmt: str | None = None
+
+    def keep(self, values: pd.Series) -> np.ndarray:
+        """Which converted dates pass (missing dates pass: the full checks name them)."""
+        ok = values.isna().to_numpy().copy()
+        if self.dates is not None:
+            ok |= values.isin(list(self.dates)).to_numpy()
+            return ok if self.since is None else ok & (values.isna() | (values >= self.since)
+                                                          ).to_numpy()
+        if self.since is not None:
+            ok |= (values >= self.since).to_numpy()
+        return ok
+
+
+@dataclass
+class Dataset:
+    """The data files at a place, their format and their partition values (no file opened)."""
+
+    shown: str  # how messages name it (secrets masked)
+    filesystem: Any  # a pyarrow.fs.FileSystem
+    root: str
+    files: list[str]
+    kind: str  # "parquet" | "csv"
+    partitions: dict[str, list[str]] = field(default_factory=dict)  # column → value per file
+    _tmp: Any = None  # a downloaded https:// file's folder, kept while the dataset lives
+
+
+def is_dataset(place: object) -> bool:
+    """Whether ``place`` is read here: a URL, or a local folder with ``name=value`` folders."""
+    if isinstance(place, Url):
+        return True
+    return isinstance(place, Path) and place.is_dir() and any(
+        p.is_dir() and "=" in p.name for p in place.iterdir())
+
+
+def _why(exc: BaseException) -> str:
+    return mask_secrets(" ".join(str(exc).split()))
+
+
+def _filesystem(url: Url, key: str) -> tuple[Any, str, Any]:
+    """``(pyarrow filesystem, path in it, temporary folder or None)`` of a URL."""
+    import pyarrow.fs as pafs
+
+    text = expand_env(url.url, key)
+    parts = urlsplit(text)
+    scheme = url.scheme
+    path = (parts.netloc.rpartition("@")[2] + parts.path).rstrip("/")
+    if scheme == "s3":
+        options: dict[str, Any] = {
+            "connect_timeout": CONNECT_TIMEOUT_S, "request_timeout": REQUEST_TIMEOUT_S,
+            "retry_strategy": pafs.AwsStandardS3RetryStrategy(max_attempts=2)}
+        if parts.password:
+            options.update(access_key=unquote(parts.username or ""),
+                           secret_key=unquote(parts.password))
+        return pafs.S3FileSystem(**options, **s3_environment()), path, None
+    if scheme in ("gs", "gcs"):
+        import datetime as dt
+
+        return (pafs.GcsFileSystem(retry_time_limit=dt.timedelta(seconds=REQUEST_TIMEOUT_S)),
+                path, None)
+    if scheme in ("abfs", "abfss", "az"):
+        if scheme == "az" or "@" not in parts.netloc:
+            account = os.environ.get("AZURE_STORAGE_ACCOUNT_NAME")
+            if not account:
+                raise InputError(
+                    f"The URL {url} (config key `{key}`) names no storage account: give "
+                    "abfs://container@account.dfs.core.windows.net/path or set "
+                    "AZURE_STORAGE_ACCOUNT_NAME."
+                )
+            return pafs.AzureFileSystem(account_name=account), path, None
+        fs, inner = pafs.FileSystem.from_uri(text)
+        return fs, inner.rstrip("/"), None
+    if scheme == "memory":
+        try:
+            import fsspec
+        except ModuleNotFoundError:
+            raise InputError(
+                f"The URL {url} (config key `{key}`) needs fsspec: "
+                "pip install \"accuracy-checks[cloud]\"."
+            ) from None
+        memory = fsspec.filesystem("memory")
+        inner = memory._strip_protocol(text).rstrip("/")
+        return pafs.PyFileSystem(pafs.FSSpecHandler(memory)), inner, None
+    if scheme in ("http", "https"):
+        return _download(text, url, key)
+    raise InputError(f"The URL {url} (config key `{key}`) has a scheme this tool cannot read.")
+
+
+def s3_environment() -> dict[str, Any]:
+    """pyarrow S3 options from the standard variables its SDK does not read itself: the
+    region (``AWS_REGION``/``AWS_DEFAULT_REGION``) and the endpoint of an S3-compatible
+    store (``AWS_ENDPOINT_URL_S3`` or ``AWS_ENDPOINT_URL``)."""
+    options: dict[str, Any] = {}
+    region = os.environ.get("AWS_REGION") or os.environ.get("AWS_DEFAULT_REGION")
+    if region:
+        options["region"] = region
+    endpoint = os.environ.get("AWS_ENDPOINT_URL_S3") or os.environ.get("AWS_ENDPOINT_URL")
+    if endpoint:
+        parts = urlsplit(endpoint if "://" in endpoint else f"https://{endpoint}")
+        options["endpoint_override"] = parts.netloc + parts.path.rstrip("/")
+        options["scheme"] = parts.scheme
+    return options
+
+
+def _download(text: str, url: Url, key: str) -> tuple[Any, str, Any]:
+    """One file over HTTP(S), fetched into a temporary folder (removed with the dataset)."""
+    import urllib.error
+    import urllib.request
+
+    import pyarrow.fs as pafs
+
+    tmp = tempfile.TemporaryDirectory(prefix="accuracy-checks-")
+    target = Path(tmp.name) / (url.name or "download")
+    try:
+        with urllib.request.urlopen(text, timeout=REQUEST_TIMEOUT_S) as response, \
+                open(target, "wb") as out:
+            while chunk := response.read(1 << 20):
+                out.write(chunk)
+    except (urllib.error.URLError, OSError, ValueError) as exc:
+        tmp.cleanup()
+        raise InputError(
+            f"Cannot read {url} (config key `{key}`): {_why(exc)}. Check the address and that "
+            f"the server answers within {REQUEST_TIMEOUT_S} s."
+        ) from None
+    return pafs.LocalFileSystem(), str(target), tmp
+
+
+def _is_data(name: str) -> str | None:
+    low = name.lower()
+    if low.startswith((".", "_")):
+        return None
+    if low.endswith(_PARQUET):
+        return "parquet"
+    if low.endswith(_CSV):
+        return "csv"
+    return None
+
+
+def open_dataset(place: Url | Path, role: str, key: str) -> Dataset:
+    """The data files at ``place`` (a file, or every Parquet/CSV file below a folder or
+    prefix, Hive partition values parsed from their paths). Lists, never opens a file."""
+    import pyarrow.fs as pafs
+
+    shown = str(place)
+    if isinstance(place, Url):
+        fs, root, tmp = _filesystem(place, key)
+    else:
+        fs, root, tmp = pafs.LocalFileSystem(), str(place), None
+    try:
+        info = fs.get_file_info(root)
+        if info.type == pafs.FileType.File:
+            found = [(root, _is_data(Path(root).name) or
+                      ("csv" if Path(root).suffix.lower() in (".tsv",) else "parquet"))]
+            base = root.rpartition("/")[0]
+        elif info.type == pafs.FileType.Directory:
+            listed = fs.get_file_info(pafs.FileSelector(root, recursive=True))
+            found = []
+            for f in listed:
+                rel = f.path[len(root):].lstrip("/")
+                if f.type != pafs.FileType.File or any(
+                        p.startswith((".", "_")) for p in rel.split("/")[:-1]):
+                    continue
+                kind = _is_data(f.base_name)
+                if kind:
+                    found.append((f.path, kind))
+            base = root
+        else:
+            raise InputError(
+                f"The {role} {shown} (config key `{key}`) does not exist: no object or prefix "
+                "by that name. Check the bucket and the path."
+            )
+    except InputError:
+        raise
+    except (OSError, ValueError) as exc:
+        raise InputError(
+            f"Cannot reach the {role} {shown} (config key `{key}`): {_why(exc)}. Check the "
+            "bucket, the endpoint (AWS_ENDPOINT_URL for S3-compatible stores) and the "
+            f"credentials (connect timeout {CONNECT_TIMEOUT_S} s, request timeout "
+            f"{REQUEST_TIMEOUT_S} s)."
+        ) from None
+    if not found:
+        raise InputError(
+            f"The {role} {shown} (config key `{key}`) holds no .csv or .parquet files."
+        )
+    kinds = {k for _, k in found}
+    if len(kinds) > 1:
+        raise InputError(
+            f"The {role} {shown} (config key `{key}`) mixes CSV and Parquet files; keep one "
+            "format per dataset."
+        )
+    files = sorted(p for p, _ in found)
+    partitions: dict[str, list[str]] = {}
+    for i, f in enumerate(files):
+        for part in f[len(base):].lstrip("/").split("/")[:-1]:
+            name, eq, value = part.partition("=")
+            if eq:
+                partitions.setdefault(name, [""] * len(files))[i] = unquote(value)
+    return Dataset(shown, fs, base, files, kinds.pop(), partitions, tmp)
+
+
+def _choose(data: Dataset, filters: Sequence[DateFilter], role: str) -> list[str]:
+    """The files whose partition values pass ``filters`` (filters on data columns pass all)."""
+    keep = np.ones(len(data.files), dtype=bool)
+    for flt in filters:
+        values = data.partitions.get(flt.column)
+        if values is None:
+            continue
+        column = Column(flt.column, "date", flt.column, None, flt.fmt)
+        uniques, codes = np.unique(np.asarray(values, dtype=object), return_inverse=True)
+        try:
+            dates = convert(pd.Series(uniques), Path(data.shown), column, role, 1)
+        except InputError:
+            continue  # a partition value that is no date: read all, the full read names it
+        keep &= flt.keep(dates)[codes]
+    return [f for f, k in zip(data.files, keep, strict=True) if k]
+
+
+def dataset_columns(data: Dataset, role: str, key: str) -> list[str]:
+    """The column names of the dataset: the newest file's, then its partition columns."""
+    schema = _schema(data, data.files[-1], role, key)
+    return [*schema.names, *(p for p in data.partitions if p not in schema.names)]
+
+
+def _schema(data: Dataset, file: str, role: str, key: str) -> Any:
+    import pyarrow.dataset as pds
+
+    try:
+        return pds.dataset(file, filesystem=data.filesystem, format=_format(data, [])).schema
+    except (OSError, ValueError) as exc:
+        raise InputError(
+            f"The {role} file {_shown_file(data, file)} (config key `{key}`) cannot be read as "
+            f"{'Parquet' if data.kind == 'parquet' else 'CSV'}: {_why(exc)}"
+        ) from None
+
+
+def _shown_file(data: Dataset, file: str) -> str:
+    if data._tmp is not None:
+        return data.shown
+    rel = file[len(data.root):].lstrip("/")
+    return f"{data.shown.rstrip('/')}/{rel}" if rel else data.shown
+
+
+def _format(data: Dataset, text_columns: Sequence[str]) -> Any:
+    import pyarrow as pa
+    import pyarrow.csv as pcsv
+    import pyarrow.dataset as pds
+
+    if data.kind == "parquet":
+        return pds.ParquetFileFormat()
+    return pds.CsvFileFormat(convert_options=pcsv.ConvertOptions(
+        column_types={n: pa.string() for n in text_columns}, strings_can_be_null=True,
+        null_values=[""], quoted_strings_can_be_null=True))
+
+
+def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: str, key: str,
+                         allow_empty: bool = False,
+                         filters: Sequence[DateFilter] = ()) -> pd.DataFrame:
+    """Read ``columns`` of the dataset at ``place`` (partition columns included), the
+    ``filters`` pushed into the read, and convert them as a file's columns are converted."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.dataset as pds
+
+    data = open_dataset(place, role, key)
+    files = _choose(data, filters, role)
+    present = dataset_columns(data, role, key) if files or not allow_empty else []
+    if files:
+        missing = [c for c in columns if c.name not in present]
+        if missing:
+            c = missing[0]
+            raise InputError(
+                f"The {role} {data.shown} has no column {c.name!r} (config key `{c.key}`). "
+                f"Its columns are: {', '.join(present) or '(none)'}. "
+                "Fix the column name in the config or in the data."
+            )
+    wanted = list(dict.fromkeys(c.name for c in columns))
+    if files:
+        fmt = _format(data, [n for n in wanted if n not in data.partitions])
+        # partition values are text, whatever they look like ("07" stays "07"); the
+        # converters make dates and keys of them
+        partitioning = pds.partitioning(
+            pa.schema([(n, pa.string()) for n in data.partitions]), flavor="hive")
+        try:
+            dataset = pds.dataset(files, filesystem=data.filesystem, format=fmt,
+                                  partitioning=partitioning, partition_base_dir=data.root)
+        except (OSError, ValueError, pa.ArrowInvalid) as exc:
+            raise InputError(
+                f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
+            ) from None
+        expression = None
+        for flt in filters:
+            if flt.column in data.partitions or flt.column not in dataset.schema.names:
+                continue
+            kind = dataset.schema.field(flt.column).type
+            if not (pa.types.is_timestamp(kind) or pa.types.is_date(kind)):
+                continue
+            if flt.dates is not None:
+                values = pa.array([d.to_datetime64() for d in flt.dates]).cast(kind)
+                cond = pc.field(flt.column).isin(values)
+            else:
+                since = pa.scalar(pd.Timestamp(flt.since).to_datetime64()).cast(kind)
+                cond = pc.field(flt.column) >= since
+            cond = cond | pc.field(flt.column).is_null()
+            expression = cond if expression is None else expression & cond
+        try:
+            table = dataset.to_table(columns=wanted, filter=expression)
+        except (OSError, ValueError, pa.ArrowInvalid) as exc:
+            raise InputError(
+                f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
+            ) from None
+        frame = table.to_pandas()
+    else:
+        frame = pd.DataFrame({n: pd.Series([], dtype=object) for n in wanted})
+    if len(frame) == 0 and not allow_empty:
+        raise InputError(
+            f"The {role} {data.shown} (config key `{key}`) has no rows; "
+            f"a {role} with no data cannot be checked."
+        )
+    out: dict[str, pd.Series] = {}
+    shown = Path(data.shown)
+    for c in columns:
+        if c.name in out:
+            continue
+        raw = frame[c.name]
+        if data.kind == "csv" and c.kind in ("date", "number") and raw.dtype == object:
+            raw = raw.where(~raw.isin(_NA_TEXT))
+        out[c.name] = convert(raw, shown, c, role, 1)
+    return pd.DataFrame(out).rename(
+        columns={c.name: c.canonical for c in columns if c.canonical})

@@ -1,0 +1,262 @@
+"""Datasets and URLs (accuracy_checks/sources/datasets.py): the small project as Parquet, history
+partitioned by issue date (the issue date only in the folder names), read from a local folder,
+``file://``, ``memory://`` and an S3-compatible server on loopback (moto), each giving the
+results of the CSV files; partitions outside the span never opened; bad places exit 2."""
+
+from __future__ import annotations
+
+import copy
+import io
+import socket
+import time
+from collections.abc import Callable, Iterator
+from pathlib import Path
+from typing import Any
+
+import pandas as pd
+import pyarrow as pa
+import pyarrow.parquet as pq
+import pytest
+from moto.server import ThreadedMotoServer
+
+from accuracy_checks.errors import InputError
+from accuracy_checks.sources import datasets
+from accuracy_checks.sources.columns import Column
+from tests.sources.test_sql import BREACHED, assert_same_results, results_of
+from tests.support.cli import run
+from tests.support.project import Project
+
+#: a cycle issued long before the evaluation span (its partition is never needed)
+OLD_CYCLE = "2025-06-02"
+#: a cycle whose rows reach into the span (its partition must be read)
+IN_SPAN_CYCLE = "2026-02-09"
+
+
+def _csv(project: Project, name: str) -> pd.DataFrame:
+    return pd.read_csv(project.data / f"{name}.csv", dtype=str, keep_default_na=False)
+
+
+def _parquet(frame: pd.DataFrame, dates: dict[str, str]) -> bytes:
+    """``frame`` (text) as Parquet bytes: ``dates`` columns as date32 or timestamp[us],
+    numbers as float64, the rest as text."""
+    cols: dict[str, pa.Array] = {}
+    for name in frame.columns:
+        if name in dates:
+            values = pd.to_datetime(frame[name])
+            cols[name] = (pa.array(values.dt.date, pa.date32()) if dates[name] == "date"
+                          else pa.array(values.astype("datetime64[us]"), pa.timestamp("us")))
+        elif name in ("units", "p10", "p90", "units_sold"):
+            cols[name] = pa.array(pd.to_numeric(frame[name]), pa.float64())
+        else:
+            cols[name] = pa.array(frame[name], pa.string())
+    sink = io.BytesIO()
+    pq.write_table(pa.table(cols), sink)
+    return sink.getvalue()
+
+
+def lake(project: Project) -> dict[str, bytes]:
+    """The project's data as a lake: relative path → file bytes. History partitioned by
+    ``issued_on=…/`` (no issue-date column in the files), one file per partition."""
+    files = {
+        "forecast.parquet": _parquet(_csv(project, "forecast"),
+                                     {"week": "date", "issued_on": "date"}),
+        "actuals/part-0.parquet": _parquet(_csv(project, "actuals"), {"week": "timestamp"}),
+        "products.parquet": _parquet(_csv(project, "products"), {}),
+    }
+    earlier = _csv(project, "earlier")
+    for issued, rows in earlier.groupby("issued_on"):
+        files[f"earlier/issued_on={issued}/part-0.parquet"] = _parquet(
+            rows.drop(columns="issued_on"), {"week": "date"})
+    return files
+
+
+def point_config(project: Project, base: str) -> None:
+    """The project's config with every input read from ``base`` (a folder or a URL)."""
+    text = project.config.read_text()
+    for old, new in (("path: data/forecast.csv", f"path: {base}/forecast.parquet"),
+                     ("path: data/actuals.csv", f"path: {base}/actuals/"),
+                     ("history: data/earlier.csv", f"history: {base}/earlier"),
+                     ("mapping: data/products.csv", f"mapping: {base}/products.parquet")):
+        assert old in text
+        text = text.replace(old, new)
+    project.config.write_text(text)
+
+
+def write_local(root: Path, files: dict[str, bytes]) -> None:
+    for rel, data in files.items():
+        (root / rel).parent.mkdir(parents=True, exist_ok=True)
+        (root / rel).write_bytes(data)
+
+
+@pytest.fixture
+def breached(make_project: Callable[..., Project]) -> tuple[Project, dict[str, Any]]:
+    """The small project with failures and examples, and its results from the CSV files."""
+    project = make_project(**BREACHED)
+    return project, results_of(project, "csv")
+
+
+def test_a_local_partitioned_folder_and_file_urls_give_the_results_of_the_csv_files(
+        breached: tuple[Project, dict[str, Any]], tmp_path: Path) -> None:
+    project, expected = breached
+    write_local(tmp_path / "lake", lake(project))
+    text = project.config.read_text()
+    point_config(project, str(tmp_path / "lake"))
+    assert_same_results(results_of(project, "local"), copy.deepcopy(expected))
+    project.config.write_text(text)
+    point_config(project, (tmp_path / "lake").as_uri())
+    assert_same_results(results_of(project, "file_url"), expected)
+
+
+def test_memory_urls_give_the_results_of_the_csv_files(
+        breached: tuple[Project, dict[str, Any]]) -> None:
+    import fsspec
+
+    project, expected = breached
+    memory = fsspec.filesystem("memory")
+    for rel, data in lake(project).items():
+        memory.pipe(f"/lake-{id(project)}/{rel}", data)
+    try:
+        point_config(project, f"memory://lake-{id(project)}")
+        assert_same_results(results_of(project, "memory"), expected)
+    finally:
+        memory.rm(f"/lake-{id(project)}", recursive=True)
+
+
+def test_a_damaged_partition_outside_the_span_is_never_opened(
+        breached: tuple[Project, dict[str, Any]], tmp_path: Path) -> None:
+    project, expected = breached
+    files = lake(project)
+    files[f"earlier/issued_on={OLD_CYCLE}/part-0.parquet"] = b"garbage, not Parquet"
+    write_local(tmp_path / "lake", files)
+    point_config(project, str(tmp_path / "lake"))
+    assert_same_results(results_of(project, "damaged_old"), expected)
+    # the same damage in a cycle the span needs is read, and refused (so the test can fail)
+    (tmp_path / "lake" / f"earlier/issued_on={IN_SPAN_CYCLE}").mkdir()
+    (tmp_path / "lake" / f"earlier/issued_on={IN_SPAN_CYCLE}/part-0.parquet").write_bytes(
+        b"garbage, not Parquet")
+    assert run(project, "--no-snapshot") == 2
+
+
+def test_partition_values_are_text_through_the_converters(tmp_path: Path) -> None:
+    # "07" stays "07" (a key is text as written), the issue date parses as a date
+    write_local(tmp_path, {"store=07/issued_on=2026-03-02/x.parquet": _parquet(
+        pd.DataFrame({"units": ["1.5"]}), {})})
+    frame = datasets.read_dataset_columns(
+        tmp_path, [Column("store", "key", "forecast.keys"),
+                   Column("issued_on", "date", "forecast.issued"),
+                   Column("units", "number", "forecast.value")], role="forecast", key="k")
+    assert frame["store"].tolist() == ["07"]
+    assert frame["issued_on"].tolist() == [pd.Timestamp("2026-03-02")]
+    assert frame["units"].tolist() == [1.5]
+
+
+def test_a_missing_column_or_an_empty_prefix_is_an_input_error(tmp_path: Path) -> None:
+    write_local(tmp_path, {"a/x.parquet": _parquet(pd.DataFrame({"units": ["1"]}), {})})
+    with pytest.raises(InputError, match=r"no column 'week' \(config key `forecast.period`\)"):
+        datasets.read_dataset_columns(tmp_path / "a", [Column("week", "date",
+                                                              "forecast.period")],
+                                      role="forecast", key="forecast.path")
+    (tmp_path / "b" / "k=1").mkdir(parents=True)
+    with pytest.raises(InputError, match=r"holds no \.csv or \.parquet files"):
+        datasets.open_dataset(tmp_path / "b", "actuals", "k")
+
+
+# ----------------------------------------------------------------------- object storage
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return int(s.getsockname()[1])
+
+
+@pytest.fixture
+def s3(monkeypatch: pytest.MonkeyPatch) -> Iterator[str]:
+    """An S3-compatible server on loopback (moto) and the standard AWS variables pointing at
+    it; yields the endpoint."""
+    port = _free_port()
+    server = ThreadedMotoServer(ip_address="127.0.0.1", port=port, verbose=False)
+    server.start()
+    endpoint = f"http://127.0.0.1:{port}"
+    for name, value in (("AWS_ENDPOINT_URL", endpoint), ("AWS_ACCESS_KEY_ID", "testing"),
+                        ("AWS_SECRET_ACCESS_KEY", "s3cr3t-key"),
+                        ("AWS_DEFAULT_REGION", "us-east-1")):
+        monkeypatch.setenv(name, value)
+    try:
+        yield endpoint
+    finally:
+        server.stop()
+
+
+def _upload(bucket: str, files: dict[str, bytes]) -> None:
+    import pyarrow.fs as pafs
+
+    fs = pafs.S3FileSystem(allow_bucket_creation=True, **datasets.s3_environment())
+    fs.create_dir(bucket)
+    for rel, data in files.items():
+        with fs.open_output_stream(f"{bucket}/{rel}") as out:
+            out.write(data)
+
+
+def test_s3_gives_the_results_of_the_csv_files_and_skips_a_damaged_old_partition(
+        breached: tuple[Project, dict[str, Any]], s3: str,
+        capsys: pytest.CaptureFixture[str]) -> None:
+    project, expected = breached
+    files = lake(project)
+    files[f"earlier/issued_on={OLD_CYCLE}/part-0.parquet"] = b"garbage, not Parquet"
+    _upload("lake", files)
+    point_config(project, "s3://lake")
+    got = results_of(project, "s3")
+    assert_same_results(got, expected)
+    out = capsys.readouterr()
+    assert "s3cr3t-key" not in out.out + out.err
+
+
+def test_env_names_in_a_url_are_expanded(breached: tuple[Project, dict[str, Any]], s3: str,
+                                         monkeypatch: pytest.MonkeyPatch) -> None:
+    project, expected = breached
+    _upload("lake2", lake(project))
+    monkeypatch.setenv("LAKE_BUCKET", "lake2")
+    point_config(project, "s3://${LAKE_BUCKET}")
+    assert_same_results(results_of(project, "s3_env"), expected)
+
+
+def test_bad_places_on_s3_are_exit_2_within_seconds(
+        make_project: Callable[..., Project], s3: str, capsys: pytest.CaptureFixture[str],
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    project = make_project()
+    _upload("lake3", lake(project))
+    text = project.config.read_text()
+    for base, words in (("s3://no-such-bucket", "does not exist"),
+                        ("s3://lake3/nothing-here", "does not exist")):
+        project.config.write_text(text)
+        point_config(project, base)
+        assert run(project, "--no-snapshot") == 2
+        assert words in capsys.readouterr().err
+    # an endpoint that refuses connections, and one that accepts them but never answers:
+    # refused within the timeouts (shortened here), the secret never shown
+    monkeypatch.setattr(datasets, "CONNECT_TIMEOUT_S", 1)
+    monkeypatch.setattr(datasets, "REQUEST_TIMEOUT_S", 1)
+    project.config.write_text(text)
+    point_config(project, "s3://lake3")
+    with socket.socket() as silent:
+        silent.bind(("127.0.0.1", 0))
+        silent.listen(0)
+        for port in (_free_port(), silent.getsockname()[1]):
+            monkeypatch.setenv("AWS_ENDPOINT_URL", f"http://127.0.0.1:{port}")
+            t0 = time.perf_counter()
+            assert run(project, "--no-snapshot") == 2
+            elapsed = time.perf_counter() - t0
+            err = capsys.readouterr().err
+            assert "Cannot reach" in err and "s3cr3t-key" not in err, err
+            assert elapsed < 8, elapsed  # two attempts of 1 s each, and the run around them
+
+
+def test_an_unknown_scheme_is_exit_2_naming_the_schemes(
+        make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str]) -> None:
+    project = make_project()
+    point_config(project, "ftp://host/lake")
+    assert run(project, "--no-snapshot") == 2
+    err = capsys.readouterr().err
+    assert "'ftp' is not supported" in err and "s3://" in err and "memory://" in err
+    assert not (project.root / "ftp:").exists()
