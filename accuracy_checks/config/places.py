@@ -249,7 +249,7 @@ PlaceEntry = Annotated[
 ]
 
 
-def one_place(section: str, path: Path | None, sql: SqlSource | None) -> None:
+def one_place(section: str, path: Path | Url | None, sql: SqlSource | None) -> None:
     if (path is None) == (sql is None):
         raise ValueError(
             f"give exactly one of `{section}.path` (a file or folder) or `{section}.sql` "

@@ -38,7 +38,7 @@ import tempfile
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
-from typing import Any
+from typing import Any, TypeGuard
 from urllib.parse import unquote, urlsplit
 
 import numpy as np
@@ -99,7 +99,7 @@ class Dataset:
     _tmp: Any = None  # a downloaded https:// file's folder, kept while the dataset lives
 
 
-def is_dataset(place: object) -> bool:
+def is_dataset(place: object) -> TypeGuard[Url | Path]:
     """Whether ``place`` is read here: a URL, or a local folder with ``name=value`` folders."""
     if isinstance(place, Url):
         return True

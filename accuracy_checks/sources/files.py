@@ -33,7 +33,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.config import Place, SqlSource
+from accuracy_checks.config import Place, SqlSource, Url
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets, sql
 from accuracy_checks.sources.columns import SHOWN, Column, convert
@@ -52,8 +52,11 @@ READ_ERRORS = (OSError, ValueError, UnicodeDecodeError, EOFError, zlib.error,
                zipfile.BadZipFile, lzma.LZMAError, pd.errors.ParserError)
 
 
-def list_files(path: Path, role: str, key: str) -> list[Path]:
-    """The data files at ``path`` (the file itself, or the CSV/Parquet files in a folder)."""
+def list_files(path: Path | Url, role: str, key: str) -> list[Path]:
+    """The data files at local ``path`` (the file itself, or the CSV/Parquet files in a
+    folder). A URL is a dataset (:mod:`accuracy_checks.sources.datasets`), never listed here."""
+    if not isinstance(path, Path):
+        raise TypeError(f"a URL is read as a dataset, not as local files: {path}")
     if path.is_dir():
         files = sorted(p for p in path.iterdir() if p.suffix.lower() in PARQUET | _CSV
                        or p.name.lower().endswith(".csv.gz"))
@@ -101,7 +104,7 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
                                                fmt=fmts.get(row_filter[0])))
         if since is not None:
             filters.append(datasets.DateFilter(since[0], since=since[1], fmt=fmts.get(since[0])))
-        return datasets.read_dataset_columns(path, columns, role=role, key=key,  # type: ignore[arg-type]
+        return datasets.read_dataset_columns(path, columns, role=role, key=key,
                                              allow_empty=allow_empty, filters=filters)
     if isinstance(path, SqlSource):
         return sql.read_sql_columns(path, columns, role=role, key=sql_key(key),
@@ -307,7 +310,7 @@ def columns_of(path: Place, role: str, key: str) -> list[str]:
     if isinstance(path, SqlSource):
         return sql.sql_columns(path, role, sql_key(key))
     if datasets.is_dataset(path):
-        data = datasets.open_dataset(path, role, key)  # type: ignore[arg-type]
+        data = datasets.open_dataset(path, role, key)
         return datasets.dataset_columns(data, role, key)
     return file_header(list_files(path, role, key)[0], role)
 
