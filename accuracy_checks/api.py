@@ -15,6 +15,7 @@ from typing import TYPE_CHECKING
 import pandas as pd
 
 from accuracy_checks.config import Config
+from accuracy_checks.config.places import Url
 from accuracy_checks.measures.catalogue import load_config
 from accuracy_checks.sources import frames as F
 
@@ -33,8 +34,8 @@ def read_config(config: str | os.PathLike[str] | Config) -> Config:
 
 
 def evaluation_frame(config: str | os.PathLike[str] | Config, *,
-                     forecast_path: Path | None = None,
-                     actuals_path: Path | None = None, forecast: object = None,
+                     forecast_path: Path | Url | None = None,
+                     actuals_path: Path | Url | None = None, forecast: object = None,
                      actuals: object = None, history: object = None,
                      mapping: object = None) -> pd.DataFrame:
     """The frame the accuracy checks of ``config`` run on: earlier cycles' forecasts joined
@@ -74,8 +75,8 @@ def evaluation_frame(config: str | os.PathLike[str] | Config, *,
     return frame
 
 
-def _evaluation(config: Config, *, forecast_path: Path | None = None,
-                actuals_path: Path | None = None,
+def _evaluation(config: Config, *, forecast_path: Path | Url | None = None,
+                actuals_path: Path | Url | None = None,
                 frames: GivenFrames | None = None) -> tuple[pd.DataFrame, Inputs]:
     """The evaluation frame (columns ordered) and the loaded inputs."""
     from accuracy_checks.engine import archived_cycles

@@ -27,6 +27,7 @@ from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.output import output_checks
 from accuracy_checks.checks.plugins import run_check_plugins
 from accuracy_checks.config import Config
+from accuracy_checks.config.places import Url
 from accuracy_checks.errors import UsageError
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.sources import frames as F
@@ -174,8 +175,8 @@ def _series_count_not_compared(cycle: str) -> CheckResult:
 # ------------------------------------------------------------------------------ one run
 
 
-def run_checks(config: Config, *, forecast_path: Path | None = None,
-               actuals_path: Path | None = None, progress: Progress | None = None,
+def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
+               actuals_path: Path | Url | None = None, progress: Progress | None = None,
                snapshot: bool = True, label: str | None = None,
                forecast: object = None, actuals: object = None, history: object = None,
                mapping: object = None) -> RunReport:
@@ -238,8 +239,8 @@ def run_checks(config: Config, *, forecast_path: Path | None = None,
 
 
 def given_frames(*, forecast: object = None, actuals: object = None, history: object = None,
-                 mapping: object = None, forecast_path: Path | None = None,
-                 actuals_path: Path | None = None) -> GivenFrames | None:
+                 mapping: object = None, forecast_path: Path | Url | None = None,
+                 actuals_path: Path | Url | None = None) -> GivenFrames | None:
     """The frames given to a run (``None`` when none is); a frame and a path for the same
     input is a :class:`~accuracy_checks.errors.UsageError`, a value that is not a frame an
     :class:`~accuracy_checks.errors.InputError`."""
@@ -320,7 +321,8 @@ def _stage_snapshot(config: Config, inputs: Inputs,
 
 def _record(config: Config, store: Store, report: RunReport,
             staged: StagedSnapshot | RemoteStaged | None, *,
-            forecast_path: Path | None, actuals_path: Path | None, progress: Progress) -> None:
+            forecast_path: Path | Url | None, actuals_path: Path | Url | None,
+            progress: Progress) -> None:
     """Record ``report`` (and place the staged snapshot) in one store transaction; the staged
     file is discarded when the inputs' fingerprints cannot be taken."""
     from accuracy_checks.store import input_fingerprints

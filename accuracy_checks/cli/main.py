@@ -15,6 +15,7 @@ from pathlib import Path
 
 from accuracy_checks.cli.audit import COMMANDS as AUDIT_COMMANDS
 from accuracy_checks.cli.audit import add_audit_commands, iso_day, run_audit_command
+from accuracy_checks.config.places import Url, to_location
 from accuracy_checks.errors import UsageError
 from accuracy_checks.version import __version__
 
@@ -32,8 +33,10 @@ def _parser() -> argparse.ArgumentParser:
 
     run = sub.add_parser("run", help="check the current forecast and judge accuracy")
     run.add_argument("--config", required=True, type=Path, help="the YAML config file")
-    run.add_argument("--forecast", type=Path, help="forecast file or folder (overrides config)")
-    run.add_argument("--actuals", type=Path, help="actuals file or folder (overrides config)")
+    run.add_argument("--forecast", metavar="PLACE",
+                     help="forecast file, folder or URL (overrides the config)")
+    run.add_argument("--actuals", metavar="PLACE",
+                     help="actuals file, folder or URL (overrides the config)")
     run.add_argument("--json", type=Path, metavar="PATH", help="write the results as JSON")
     run.add_argument("--junit", type=Path, metavar="PATH", help="write JUnit XML for CI")
     run.add_argument("--markdown", type=Path, metavar="PATH", help="write a Markdown summary")
@@ -140,6 +143,18 @@ def _demo(args: argparse.Namespace) -> int:
     return EXIT_PASS
 
 
+def _place(text: str | None, option: str) -> Path | Url | None:
+    """A command-line place: a URL with a known scheme, else a local path (relative to the
+    working directory, as shells mean it)."""
+    if text is None:
+        return None
+    try:
+        place = to_location(text)
+    except ValueError as exc:
+        raise UsageError(f"{option} {text}: {exc}") from None
+    return place if isinstance(place, Path | Url) else Path(str(place))
+
+
 def _run(args: argparse.Namespace) -> int:
     from accuracy_checks.engine import run_checks
     from accuracy_checks.measures.catalogue import load_config
@@ -152,7 +167,8 @@ def _run(args: argparse.Namespace) -> int:
         if not args.quiet:
             print(f"· {text}", file=sys.stderr, flush=True)
 
-    report = run_checks(config, forecast_path=args.forecast, actuals_path=args.actuals,
+    report = run_checks(config, forecast_path=_place(args.forecast, "--forecast"),
+                        actuals_path=_place(args.actuals, "--actuals"),
                         progress=progress, snapshot=not args.no_snapshot, label=args.label)
     if args.json:
         write_json(report, args.json)

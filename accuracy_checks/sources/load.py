@@ -25,6 +25,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.config import Config
+from accuracy_checks.config.places import Url
 from accuracy_checks.evaluation.join import prune_earlier, window_periods
 from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
 from accuracy_checks.results import ALL_SERIES, CheckResult
@@ -103,8 +104,8 @@ class ArchivedCycles:
 ArchiveReader = Callable[[pd.Timestamp, set[pd.Timestamp], Prune], ArchivedCycles]
 
 
-def load_inputs(config: Config, *, forecast_path: Path | None = None,
-                actuals_path: Path | None = None, progress: Progress = quiet,
+def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
+                actuals_path: Path | Url | None = None, progress: Progress = quiet,
                 archive: ArchiveReader | None = None,
                 frames: GivenFrames | None = None) -> Inputs:
     """Read and validate every input (no writes). Raises InputError on unusable input.
@@ -185,7 +186,7 @@ def _place(given: Given | None, place: object, config: Config) -> dict[str, obje
     return given.info([n for n in wanted if n in names])
 
 
-def _read_current(config: Config, path: Path | None, seg_cols: list[str],
+def _read_current(config: Config, path: Path | Url | None, seg_cols: list[str],
                   progress: Progress, given: GivenFrames) -> pd.DataFrame:
     """The current forecast, with the segment columns it holds."""
     t0 = time.perf_counter()
@@ -197,7 +198,7 @@ def _read_current(config: Config, path: Path | None, seg_cols: list[str],
     return forecast
 
 
-def _read_actuals(config: Config, path: Path | None, progress: Progress, given: GivenFrames
+def _read_actuals(config: Config, path: Path | Url | None, progress: Progress, given: GivenFrames
                   ) -> tuple[pd.DataFrame, pd.DataFrame | None]:
     """The actuals: only the recent periods the checks use (:func:`actuals_span`) when the
     Parquet pre-reads (or a frame) can tell them, with the series the older rows know (kept

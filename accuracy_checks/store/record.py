@@ -36,6 +36,7 @@ from accuracy_checks.version import __version__
 
 if TYPE_CHECKING:
     from accuracy_checks.config import Config
+    from accuracy_checks.config.places import Url
 
 #: the run fields covered by the digest (every column but ``id`` and ``digest``)
 RUN_FIELDS = (
@@ -251,8 +252,8 @@ def _sha256(path: Path) -> tuple[str, int]:
 
 
 def input_fingerprints(config: Config, info: dict[str, Any], *,
-                       forecast_path: Path | None = None,
-                       actuals_path: Path | None = None) -> dict[str, Any]:
+                       forecast_path: Path | Url | None = None,
+                       actuals_path: Path | Url | None = None) -> dict[str, Any]:
     """Fingerprints of every input of a run, with the row counts from the run's ``info``.
     An input given as a frame has no file: its ``info`` entry (``"frame"``, rows, content
     hash; :mod:`accuracy_checks.sources.memory`) is its fingerprint."""

@@ -309,3 +309,19 @@ def test_unusual_separators_and_encodings_are_named(make_project: Callable[..., 
     # a BOM and Windows line ends are read as the same file
     path.write_text(text.replace("\n", "\r\n"), encoding="utf-8-sig", newline="")
     assert run(project) == 0
+
+
+def test_forecast_and_actuals_options_take_urls(make_project: Callable[..., Project],
+                                                capsys: pytest.CaptureFixture[str]) -> None:
+    import fsspec
+
+    project = make_project()
+    err = refused(project, capsys, "--forecast", "ftp://host/forecast.csv")
+    assert "--forecast ftp://host/forecast.csv" in err and "s3" in err
+    memory = fsspec.filesystem("memory")
+    memory.pipe("/cli-test/forecast.csv", (project.data / "forecast.csv").read_bytes())
+    (project.data / "forecast.csv").unlink()  # only the URL holds the forecast now
+    try:
+        assert run(project, "--forecast", "memory://cli-test/forecast.csv") == 0
+    finally:
+        memory.rm("/cli-test", recursive=True)
