@@ -12,12 +12,15 @@ import os
 import sys
 from collections.abc import Callable
 from pathlib import Path
+from typing import TYPE_CHECKING
 
 from accuracy_checks.cli.audit import COMMANDS as AUDIT_COMMANDS
 from accuracy_checks.cli.audit import add_audit_commands, iso_day, run_audit_command
-from accuracy_checks.config.places import Url, to_location
 from accuracy_checks.errors import UsageError
 from accuracy_checks.version import __version__
+
+if TYPE_CHECKING:
+    from accuracy_checks.config.places import Url
 
 EXIT_PASS, EXIT_FAIL, EXIT_USAGE, EXIT_INTERNAL = 0, 1, 2, 3
 
@@ -148,6 +151,8 @@ def _place(text: str | None, option: str) -> Path | Url | None:
     working directory, as shells mean it)."""
     if text is None:
         return None
+    from accuracy_checks.config.places import Url, to_location  # pydantic: not for --help
+
     try:
         place = to_location(text)
     except ValueError as exc:
