@@ -41,7 +41,12 @@ from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.columns import Column, convert, to_key
-from accuracy_checks.sources.readers import actual_columns, forecast_columns
+from accuracy_checks.sources.readers import (
+    actual_columns,
+    forecast_columns,
+    refuse_repeated_actuals,
+)
+from accuracy_checks.sources.segments import refuse_two_segments
 
 __all__ = ["Given", "GivenFrames", "actuals_from_frame", "forecast_from_frame", "frame_info",
            "history_from_frame", "mapping_from_frame"]
@@ -234,8 +239,6 @@ def actuals_from_frame(config: Config, given: Given, *, needed: int | None
     """The actuals from a frame, keys named as the forecast's: only the ``needed`` most
     recent periods that hold an actual (with the series the older rows know) when there are
     more, else every row and ``None``. Refuses a series with two actuals in one period."""
-    from accuracy_checks.sources.readers import _refuse_repeated_actuals
-
     cols = actual_columns(config)
     given.header(cols)
     rows: np.ndarray | None = None
@@ -252,7 +255,7 @@ def actuals_from_frame(config: Config, given: Given, *, needed: int | None
     ac = config.actuals
     if ac.keys and list(ac.keys) != list(config.forecast.keys):
         frame = frame.rename(columns=dict(zip(ac.keys, config.forecast.keys, strict=False)))
-    _refuse_repeated_actuals(frame, list(config.forecast.keys), Path(f"frame (argument "
+    refuse_repeated_actuals(frame, list(config.forecast.keys), Path(f"frame (argument "
                                                                     f"`{given.argument}`)"))
     return frame, older
 
@@ -277,8 +280,6 @@ def _series_of(config: Config, given: Given) -> pd.DataFrame:
 def mapping_from_frame(config: Config, given: Given) -> pd.DataFrame:
     """The segment mapping from a frame: the key columns it shares with the forecast and the
     segment columns it holds (:func:`~.segments.read_mapping`'s rules)."""
-    from accuracy_checks.sources.segments import _refuse_two_segments
-
     present = [str(c) for c in given.frame.columns]
     keys = [k for k in config.forecast.keys if k in present]
     if not keys:
@@ -293,7 +294,7 @@ def mapping_from_frame(config: Config, given: Given) -> pd.DataFrame:
     table = given.convert(cols).drop_duplicates()
     given.refuse_empty(table)
     if seg:
-        _refuse_two_segments(table, keys, seg, Path(f"frame (argument `{given.argument}`)"))
+        refuse_two_segments(table, keys, seg, Path(f"frame (argument `{given.argument}`)"))
     return table
 
 

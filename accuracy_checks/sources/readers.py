@@ -103,11 +103,11 @@ def read_actuals(config: Config, path: Place | None = None,
             frame = frame.loc[kept].reset_index(drop=True)
     if ac.keys and list(ac.keys) != list(config.forecast.keys):
         frame = frame.rename(columns=dict(zip(ac.keys, config.forecast.keys, strict=False)))
-    _refuse_repeated_actuals(frame, list(config.forecast.keys), path)
+    refuse_repeated_actuals(frame, list(config.forecast.keys), path)
     return frame
 
 
-def _refuse_repeated_actuals(frame: pd.DataFrame, keys: list[str], path: Place) -> None:
+def refuse_repeated_actuals(frame: pd.DataFrame, keys: list[str], path: Place) -> None:
     """Raise when rows of ``frame`` repeat a series and period, naming the first ones."""
     dup = duplicated_rows(frame, [*keys, F.PERIOD])
     if not dup.any():

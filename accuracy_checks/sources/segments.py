@@ -44,11 +44,11 @@ def read_mapping(config: Config) -> pd.DataFrame | None:
     cols += [Column(s, "text", "segments.columns") for s in seg]
     table = read_columns(path, cols, role="mapping", key="segments.mapping").drop_duplicates()
     if seg:
-        _refuse_two_segments(table, keys, seg, path)
+        refuse_two_segments(table, keys, seg, path)
     return table
 
 
-def _refuse_two_segments(table: pd.DataFrame, keys: list[str], seg: list[str],
+def refuse_two_segments(table: pd.DataFrame, keys: list[str], seg: list[str],
                          path: Place) -> None:
     """Raise when the mapping puts a series in more than one segment, naming the first."""
     twice = table.duplicated(keys, keep=False).to_numpy()
