@@ -136,7 +136,10 @@ class _Connection:
                           for f in table.schema]
                 return table.cast(pa.schema(fields)).to_pandas(date_as_object=False)
             result = self._conn.execute(stmt)
-            return pd.DataFrame(result.fetchall(), columns=list(result.keys()))
+            # plain tuples: pandas probes every row object, and a SQLAlchemy Row answers its
+            # attribute probes slowly (half the read time at 100 k series on PostgreSQL)
+            return pd.DataFrame.from_records([tuple(r) for r in result],
+                                             columns=list(result.keys()))
         except InputError:
             raise
         except Exception as exc:
