@@ -8,7 +8,6 @@ The forecaster's own test is in ``test_world.py``, the narrated run in ``test_na
 from __future__ import annotations
 
 import datetime as dt
-import time
 from pathlib import Path
 
 import numpy as np
@@ -68,12 +67,6 @@ def test_regenerating_removes_files_of_other_dates(tmp_path: Path) -> None:
     assert sorted(p.name for p in (tmp_path / "data" / "forecasts").iterdir()) == sorted(
         p.name for p in small.forecast_paths
     )
-
-
-def test_generation_is_fast(tmp_path: Path, scenario: Scenario) -> None:
-    start = time.perf_counter()
-    generate_scenario(tmp_path)
-    assert time.perf_counter() - start < 2.0
 
 
 def test_cycles_out_of_range_is_a_usage_error(tmp_path: Path) -> None:
