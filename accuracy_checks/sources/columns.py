@@ -69,6 +69,20 @@ class Column:
     fmt: str | None = None  # dates: the strftime format (None: ISO 8601)
 
 
+def refuse_missing(columns: Sequence[Column], present: Sequence[object], where: str,
+                   fix: str) -> None:
+    """Refuse an input (``where``: "forecast file x.csv", "mapping table t …") whose columns
+    ``present`` lack one of ``columns``: the first missing one, its config key, the columns
+    the input has, and ``fix`` (how to mend it)."""
+    missing = [c for c in columns if c.name not in present]
+    if missing:
+        c = missing[0]
+        raise InputError(
+            f"The {where} has no column {c.name!r} (config key `{c.key}`). "
+            f"Its columns are: {', '.join(map(str, present)) or '(none)'}. {fix}"
+        )
+
+
 def convert(s: pd.Series, file: Path, c: Column, role: str, first_line: int) -> pd.Series:
     """The raw values ``s`` of column ``c`` in its canonical dtype: keys and segment labels
     as categoricals of text, dates as naive ``datetime64[ns]``, numbers as ``float64``.

@@ -47,7 +47,7 @@ import pandas as pd
 from accuracy_checks.config import Url
 from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.columns import Column, convert
+from accuracy_checks.sources.columns import Column, convert, refuse_missing
 
 __all__ = ["CONNECT_TIMEOUT_S", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter", "is_dataset",
            "open_dataset", "read_dataset_columns"]
@@ -339,14 +339,8 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
     files = _choose(data, filters, role)
     present = dataset_columns(data, role, key) if files or not allow_empty else []
     if files:
-        missing = [c for c in columns if c.name not in present]
-        if missing:
-            c = missing[0]
-            raise InputError(
-                f"The {role} {data.shown} has no column {c.name!r} (config key `{c.key}`). "
-                f"Its columns are: {', '.join(present) or '(none)'}. "
-                "Fix the column name in the config or in the data."
-            )
+        refuse_missing(columns, present, f"{role} {data.shown}",
+                       "Fix the column name in the config or in the data.")
     wanted = list(dict.fromkeys(c.name for c in columns))
     if files:
         fmt = _format(data, [n for n in wanted if n not in data.partitions])

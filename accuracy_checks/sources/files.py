@@ -36,7 +36,7 @@ import pandas as pd
 from accuracy_checks.config import Place, SqlSource, Url
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets, sql
-from accuracy_checks.sources.columns import SHOWN, Column, convert
+from accuracy_checks.sources.columns import SHOWN, Column, convert, refuse_missing
 
 __all__ = ["PARQUET", "READ_ERRORS", "check_header", "columns_of", "file_header", "is_timestamp",
            "list_files", "read_columns", "sql_key"]
@@ -145,15 +145,8 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
 def check_header(file: Path, columns: Sequence[Column], role: str) -> None:
     """Refuse a file whose header lacks one of ``columns`` or names one of them twice."""
     present = file_header(file, role)
-    missing = [c for c in columns if c.name not in present]
-    if missing:
-        c = missing[0]
-        raise InputError(
-            f"The {role} file {file} has no column {c.name!r} (config key `{c.key}`). "
-            f"Its columns are: {', '.join(map(str, present)) or '(none)'}. "
-            + _separator_hint(present, file)
-            + "Fix the column name in the config or in the file."
-        )
+    refuse_missing(columns, present, f"{role} file {file}", _separator_hint(present, file)
+                   + "Fix the column name in the config or in the file.")
     counts = Counter(present)
     twice = [c for c in columns if counts[c.name] > 1]
     if twice:

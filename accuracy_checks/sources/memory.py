@@ -40,13 +40,13 @@ import pandas as pd
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import frames as F
-from accuracy_checks.sources.columns import Column, convert, to_key
+from accuracy_checks.sources.columns import Column, convert, refuse_missing, to_key
 from accuracy_checks.sources.readers import (
     actual_columns,
     forecast_columns,
     refuse_repeated_actuals,
 )
-from accuracy_checks.sources.segments import refuse_two_segments
+from accuracy_checks.sources.segments import mapping_columns, refuse_two_segments
 
 __all__ = ["Given", "GivenFrames", "actuals_from_frame", "forecast_from_frame", "frame_info",
            "history_from_frame", "mapping_from_frame"]
@@ -113,14 +113,9 @@ class Given:
     def header(self, columns: Sequence[Column]) -> None:
         """Refuse a frame lacking one of ``columns`` or naming one of them twice."""
         present = [str(c) for c in self.frame.columns]
-        missing = [c for c in columns if c.name not in present]
-        if missing:
-            c = missing[0]
-            raise InputError(
-                f"The {self.label} has no column {c.name!r} (config key `{c.key}`). Its "
-                f"columns are: {', '.join(present) or '(none)'}. A frame has the configured "
-                "column names: rename the column, or fix the name in the config."
-            )
+        refuse_missing(columns, present, self.label,
+                       "A frame has the configured column names: rename the column, or fix "
+                       "the name in the config.")
         twice = self.frame.columns.duplicated(keep=False)
         repeated = {c for c, dup in zip(present, twice, strict=True) if dup}
         named = [c for c in columns if c.name in repeated]
@@ -281,15 +276,7 @@ def mapping_from_frame(config: Config, given: Given) -> pd.DataFrame:
     """The segment mapping from a frame: the key columns it shares with the forecast and the
     segment columns it holds (:func:`~.segments.read_mapping`'s rules)."""
     present = [str(c) for c in given.frame.columns]
-    keys = [k for k in config.forecast.keys if k in present]
-    if not keys:
-        raise InputError(
-            f"The {given.label} shares no key column with the forecast (keys "
-            f"{config.forecast.keys}); its columns are {', '.join(present)}."
-        )
-    seg = [s for s in config.segments.columns if s in present]
-    cols = [Column(k, "key", "forecast.keys") for k in keys]
-    cols += [Column(s, "text", "segments.columns") for s in seg]
+    keys, seg, cols = mapping_columns(config, present, given.label)
     given.header(cols)
     table = given.convert(cols).drop_duplicates()
     given.refuse_empty(table)

@@ -25,6 +25,22 @@ __all__ = ["assign_segments", "attach_segments", "read_mapping", "segment_labels
            "segments_of_series", "unify_categories"]
 
 
+def mapping_columns(config: Config, present: Sequence[str], label: str
+                    ) -> tuple[list[str], list[str], list[Column]]:
+    """The key columns a mapping shares with the forecast, its segment columns, and both as
+    columns to read; refuses a mapping that shares no key column (``label`` names it)."""
+    keys = [k for k in config.forecast.keys if k in present]
+    if not keys:
+        raise InputError(
+            f"The {label} shares no key column with the forecast (keys "
+            f"{config.forecast.keys}); its columns are {', '.join(map(str, present))}."
+        )
+    seg = [s for s in config.segments.columns if s in present]
+    cols = [Column(k, "key", "forecast.keys") for k in keys]
+    cols += [Column(s, "text", "segments.columns") for s in seg]
+    return keys, seg, cols
+
+
 def read_mapping(config: Config) -> pd.DataFrame | None:
     """The segment mapping table (key columns it shares with the forecast + segment columns),
     read from its file or its table (``segments.mapping: {sql: …}``), ``None`` when none is
@@ -33,15 +49,8 @@ def read_mapping(config: Config) -> pd.DataFrame | None:
     if path is None:
         return None
     present = columns_of(path, "mapping", "segments.mapping")
-    keys = [k for k in config.forecast.keys if k in present]
-    if not keys:
-        raise InputError(
-            f"The mapping {path} (config key `segments.mapping`) shares no key column with the "
-            f"forecast (keys {config.forecast.keys}); its columns are {', '.join(present)}."
-        )
-    seg = [s for s in config.segments.columns if s in present]
-    cols = [Column(k, "key", "forecast.keys") for k in keys]
-    cols += [Column(s, "text", "segments.columns") for s in seg]
+    keys, seg, cols = mapping_columns(
+        config, present, f"mapping {path} (config key `segments.mapping`)")
     table = read_columns(path, cols, role="mapping", key="segments.mapping").drop_duplicates()
     if seg:
         refuse_two_segments(table, keys, seg, path)

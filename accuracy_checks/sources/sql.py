@@ -39,7 +39,7 @@ from pandas.errors import OutOfBoundsDatetime
 from accuracy_checks.config import SqlSource
 from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.columns import Column, convert
+from accuracy_checks.sources.columns import Column, convert, refuse_missing
 
 __all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows",
            "read_sql_columns", "sql_columns"]
@@ -213,15 +213,9 @@ def _header(conn: _Connection) -> list[str]:
 
 def _check_columns(conn: _Connection, columns: Sequence[Column]) -> list[str]:
     present = _header(conn)
-    missing = [c for c in columns if c.name not in present]
-    if missing:
-        c = missing[0]
-        raise InputError(
-            f"The {conn.role} {conn.source} (config key `{conn.key}`) has no column {c.name!r} "
-            f"(config key `{c.key}`). Its columns are: {', '.join(present) or '(none)'}. Fix the "
-            "column name in the config or in the table (names are matched as the database "
-            "stores them)."
-        )
+    refuse_missing(columns, present, f"{conn.role} {conn.source} (config key `{conn.key}`)",
+                   "Fix the column name in the config or in the table (names are matched as "
+                   "the database stores them).")
     return present
 
 
