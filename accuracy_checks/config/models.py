@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import re
 from pathlib import Path
-from typing import Annotated, Literal
+from typing import Annotated, ClassVar, Literal
 
 from pydantic import (
     BaseModel,
@@ -95,12 +95,32 @@ class Level(_Strict):
         return self
 
 
-class ForecastSource(_Strict):
-    """Where the forecast is (``path``, or ``sql``: a table or query) and which columns hold
-    what."""
+class _Placed(_Strict):
+    """An input with a place: ``path`` (a path or URL) or ``sql`` (a table or query), exactly
+    one of them."""
+
+    role: ClassVar[str] = "input"
 
     path: Location | None = None
     sql: SqlSource | None = None
+
+    @property
+    def place(self) -> Place:
+        """The input's place: its path or URL, or its SQL source."""
+        return self.sql if self.sql is not None else self.path  # type: ignore[return-value]
+
+    @model_validator(mode="after")
+    def _place(self) -> _Placed:
+        one_place(self.role, self.path, self.sql)
+        return self
+
+
+class ForecastSource(_Placed):
+    """Where the forecast is (``path``, or ``sql``: a table or query) and which columns hold
+    what."""
+
+    role: ClassVar[str] = "forecast"
+
     keys: Annotated[list[str], Field(min_length=1)]
     period: str
     value: str
@@ -137,16 +157,6 @@ class ForecastSource(_Strict):
             raise ValueError("two quantile levels name the same column")
         return dict(sorted(quantiles.items()))
 
-    @property
-    def place(self) -> Place:
-        """The forecast's place: its path, or its SQL source."""
-        return self.sql if self.sql is not None else self.path  # type: ignore[return-value]
-
-    @model_validator(mode="after")
-    def _place(self) -> ForecastSource:
-        one_place("forecast", self.path, self.sql)
-        return self
-
     @model_validator(mode="after")
     def _date_formats(self) -> ForecastSource:
         _check_date_formats("forecast", self.date_formats, {"period": self.period,
@@ -154,28 +164,18 @@ class ForecastSource(_Strict):
         return self
 
 
-class ActualsSource(_Strict):
+class ActualsSource(_Placed):
     """Where the actuals are (``path``, or ``sql``: a table or query); ``keys`` default to the
     forecast's keys."""
 
-    path: Location | None = None
-    sql: SqlSource | None = None
+    role: ClassVar[str] = "actuals"
+
     period: str
     value: str
     keys: list[str] | None = None
     #: the one format of the period column when written as text (``{column: "%d/%m/%Y"}``);
     #: default ISO 8601 (YYYY-MM-DD)
     date_formats: dict[str, str] = Field(default_factory=dict)
-
-    @property
-    def place(self) -> Place:
-        """The actuals' place: their path, or their SQL source."""
-        return self.sql if self.sql is not None else self.path  # type: ignore[return-value]
-
-    @model_validator(mode="after")
-    def _place(self) -> ActualsSource:
-        one_place("actuals", self.path, self.sql)
-        return self
 
     @model_validator(mode="after")
     def _date_formats(self) -> ActualsSource:
