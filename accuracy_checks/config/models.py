@@ -45,25 +45,6 @@ from accuracy_checks.config.places import (
     one_place,
 )
 
-__all__ = [
-    "MAX_HORIZON",
-    "RESERVED_COLUMNS",
-    "ActualsSource",
-    "Config",
-    "Costs",
-    "Coverage",
-    "Drift",
-    "Evaluation",
-    "ForecastSource",
-    "Level",
-    "Place",
-    "Segments",
-    "SqlPlace",
-    "SqlSource",
-    "Thresholds",
-    "UnitCosts",
-]
-
 #: The longest horizon a config may give (periods).
 MAX_HORIZON = 1000
 

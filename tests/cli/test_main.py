@@ -306,9 +306,18 @@ def test_unusual_separators_and_encodings_are_named(make_project: Callable[..., 
     path.write_text(text.replace("S1", "Sö1"), encoding="latin-1")
     err = refused(project, capsys)
     assert "forecast.csv" in err and "it is not UTF-8 text" in err
-    # a BOM and Windows line ends are read as the same file
+    # a BOM and Windows line ends are read as the same file: the same results as the plain one
+    def results(name: str) -> list[tuple[object, ...]]:
+        out = project.root / f"{name}.json"
+        assert run(project, "--no-snapshot", "--json", str(out)) == 0
+        return [(r["check"], r["segment"], r["lag"], r["measure"], r["value"], r["status"],
+                 r["n_obs"], r["message"]) for r in json.loads(out.read_text())["results"]]
+
+    path.write_text(text)
+    plain = results("plain")
     path.write_text(text.replace("\n", "\r\n"), encoding="utf-8-sig", newline="")
-    assert run(project) == 0
+    assert path.read_bytes().startswith(b"\xef\xbb\xbf") and b"\r\n" in path.read_bytes()
+    assert results("bom-crlf") == plain
 
 
 def test_forecast_and_actuals_options_take_urls(make_project: Callable[..., Project],
