@@ -14,38 +14,47 @@ computes the accuracy results without gathering rows in one process:
 - :func:`merge_partials` (a tree reduction): associative and order-free;
 - :func:`finish_accuracy` (client): the same :class:`~accuracy_checks.results.CheckResult` list
   as :func:`accuracy_checks.checks.accuracy.run_accuracy` on the union of the shards, through the
-  same registry, judge, wording and offender examples.
+  same registry, judge, wording and offender examples
+  (:mod:`accuracy_checks.dask.accuracy_finish`).
 
 Shard frames: ``earlier``/``actuals`` exactly as :class:`~accuracy_checks.sources.load.Inputs`
 holds them (canonical columns, rows in the files' order), restricted to the shard's series.
 Key and segment columns are categoricals with the SAME categories in every shard (as
 ``Inputs`` holds them: one set of categories per column across frames): the pandas engine
 numbers series by their key category codes, and that number breaks ties between offenders.
+
+Group identity across shards: ``(window, grouping, lag, seg_rank, segment)``; ``seg_rank`` is
+the segment's category code (the pandas engine orders groups by it), ``-1`` for ``"*"``.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
-from dataclasses import dataclass
 
 import pandas as pd
 
 from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.config import Config
+from accuracy_checks.dask import accuracy_shard as shard
+from accuracy_checks.dask.accuracy_finish import finish
+from accuracy_checks.dask.accuracy_tables import (
+    GROUP_KEYS,
+    AccuracyPartial,
+    AccuracyPlan,
+    merge_candidates,
+    merge_sums,
+)
+from accuracy_checks.errors import ConfigError
+from accuracy_checks.measures.registry import get_measure
+from accuracy_checks.measures.selection import measure_settings, measures_to_report
+from accuracy_checks.measures.stats import merge_stats
 from accuracy_checks.results import CheckResult
 
 __all__ = ["AccuracyPartial", "AccuracyPlan", "accuracy_partial", "accuracy_plan",
            "finish_accuracy", "merge_partials"]
 
-
-@dataclass(frozen=True)
-class AccuracyPlan:
-    """The global facts of a run's accuracy stage (small, picklable)."""
-
-
-@dataclass
-class AccuracyPartial:
-    """One or several shards' mergeable reductions (small, picklable)."""
+#: the built-in measures the dask engine computes (the others are refused by the plan)
+AVAILABLE = frozenset({"me", "bias_pct", "mae", "mape", "wape", "rmse", "sde"})
 
 
 def accuracy_plan(config: Config, *, actual_periods: Sequence[pd.Timestamp],
@@ -60,7 +69,27 @@ def accuracy_plan(config: Config, *, actual_periods: Sequence[pd.Timestamp],
     :class:`~accuracy_checks.errors.ConfigError` for a measure the dask engine cannot compute
     yet (the message says to use ``engine: pandas``).
     """
-    raise NotImplementedError
+    measures = measures_to_report(config)
+    for m in measures:
+        if m not in AVAILABLE:
+            raise ConfigError(
+                f"The measure {m!r} is not yet available on the dask engine (it computes "
+                f"{', '.join(sorted(AVAILABLE))}). Use `engine: pandas` for this config, or "
+                f"leave {m!r} out of evaluation.measures and thresholds.")
+    tracking = any(get_measure(m).window == "tracking" for m in measures)
+    ev = config.evaluation
+    span = max(ev.window, ev.tracking_window) if tracking else ev.window
+    every = sorted({pd.Timestamp(p) for p in actual_periods if not pd.isna(p)})
+    periods = every[-span:] if span > 0 else []
+    return AccuracyPlan(
+        keys=list(config.forecast.keys), frequency=config.frequency,
+        lags=[int(lag) for lag in ev.lags], min_obs=ev.min_obs, offenders=ev.offenders,
+        measures=measures, settings=measure_settings(config),
+        window=periods[-ev.window:] if ev.window > 0 else [],
+        tracking=periods[-ev.tracking_window:] if tracking and ev.tracking_window > 0 else [],
+        periods=periods,
+        cycle_starts={pd.Timestamp(k): pd.Timestamp(v) for k, v in cycle_starts.items()},
+    )
 
 
 def accuracy_partial(plan: AccuracyPlan, earlier: pd.DataFrame,
@@ -74,12 +103,42 @@ def accuracy_partial(plan: AccuracyPlan, earlier: pd.DataFrame,
     per-(lag, segment, period) or per-series reductions and top-k candidates (never rows);
     picklable.
     """
-    raise NotImplementedError
+    frame, history = shard.evaluation_rows(plan, earlier, actuals)
+    if len(frame) == 0:
+        return AccuracyPartial()
+    reduced = shard.reduce_shard(plan, frame, history)
+    return AccuracyPartial(
+        n_rows=len(frame), segments=reduced.segments, cycles=reduced.cycles,
+        stats=reduced.stats, sums=reduced.sums, candidates=reduced.candidates)
 
 
 def merge_partials(parts: Sequence[AccuracyPartial]) -> AccuracyPartial:
     """The partial of the union of the parts' shards (associative, order-free)."""
-    raise NotImplementedError
+    kept = [p for p in parts if p.n_rows]
+    if not kept:
+        return AccuracyPartial()
+    if len(kept) == 1:
+        return kept[0]
+    segments: dict[str, int] = {}
+    cycles: set[tuple[pd.Timestamp, int | None, str]] = set()
+    for p in kept:
+        segments.update(p.segments)
+        cycles |= p.cycles
+    limit = max((_limit(p.candidates) for p in kept), default=0)
+    return AccuracyPartial(
+        n_rows=sum(p.n_rows for p in kept), segments=segments, cycles=cycles,
+        stats=merge_stats([p.stats for p in kept if p.stats is not None], GROUP_KEYS),
+        sums=merge_sums([p.sums for p in kept if p.sums is not None]),
+        candidates=merge_candidates([p.candidates for p in kept if p.candidates is not None],
+                                    limit),
+    )
+
+
+def _limit(candidates: pd.DataFrame | None) -> int:
+    """The k the candidates were cut to (stored on the frame)."""
+    if candidates is None:
+        return 0
+    return int(candidates.attrs.get("limit", 0))
 
 
 def finish_accuracy(plan: AccuracyPlan, partial: AccuracyPartial, *,
@@ -87,4 +146,4 @@ def finish_accuracy(plan: AccuracyPlan, partial: AccuracyPartial, *,
     """Exactly what ``checks.accuracy.run_accuracy(config, earlier, actuals, book=book)``
     returns on the union of the shards: same checks, statuses, counts, examples, messages,
     values to 1e-9 relative."""
-    raise NotImplementedError
+    return finish(plan, partial, book)
