@@ -36,6 +36,7 @@ import pandas as pd
 from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.config import Config
 from accuracy_checks.dask import accuracy_shard as shard
+from accuracy_checks.dask.accuracy_families import FAMILIES
 from accuracy_checks.dask.accuracy_finish import finish
 from accuracy_checks.dask.accuracy_tables import (
     GROUP_KEYS,
@@ -45,6 +46,7 @@ from accuracy_checks.dask.accuracy_tables import (
     merge_sums,
 )
 from accuracy_checks.errors import ConfigError
+from accuracy_checks.evaluation.grid import grid_positions
 from accuracy_checks.measures.registry import get_measure
 from accuracy_checks.measures.selection import measure_settings, measures_to_report
 from accuracy_checks.measures.stats import merge_stats
@@ -54,7 +56,7 @@ __all__ = ["AccuracyPartial", "AccuracyPlan", "accuracy_partial", "accuracy_plan
            "finish_accuracy", "merge_partials"]
 
 #: the built-in measures the dask engine computes (the others are refused by the plan)
-AVAILABLE = frozenset({"me", "bias_pct", "mae", "mape", "wape", "rmse", "sde"})
+AVAILABLE = frozenset({"me", "bias_pct", "mae", "mape", "wape", "rmse", "sde", *FAMILIES})
 
 
 def accuracy_plan(config: Config, *, actual_periods: Sequence[pd.Timestamp],
@@ -89,7 +91,23 @@ def accuracy_plan(config: Config, *, actual_periods: Sequence[pd.Timestamp],
         tracking=periods[-ev.tracking_window:] if tracking and ev.tracking_window > 0 else [],
         periods=periods,
         cycle_starts={pd.Timestamp(k): pd.Timestamp(v) for k, v in cycle_starts.items()},
+        scale_issues=_scale_issues(config, cycle_starts, periods[-ev.window:] if ev.window > 0
+                                   else []) if "mase" in measures else [],
     )
+
+
+def _scale_issues(config: Config, cycle_starts: Mapping[pd.Timestamp, pd.Timestamp],
+                  window: list[pd.Timestamp]) -> list[pd.Timestamp]:
+    """The issue dates whose cycle reaches the evaluation window at a configured lag (the
+    earliest cycle evaluated, which fixes MASE's scale, is one of them)."""
+    if not window or not cycle_starts:
+        return []
+    issues = sorted(pd.Timestamp(k) for k in cycle_starts)
+    starts = pd.Series([pd.Timestamp(cycle_starts[k]) for k in issues])
+    first, _ = grid_positions(starts, config.frequency)
+    (low,), _ = grid_positions(pd.Series([window[0]]), config.frequency)
+    reach = first + max(config.evaluation.lags) - 1 >= low
+    return [d for d, ok in zip(issues, reach, strict=True) if ok]
 
 
 def accuracy_partial(plan: AccuracyPlan, earlier: pd.DataFrame,
@@ -109,7 +127,8 @@ def accuracy_partial(plan: AccuracyPlan, earlier: pd.DataFrame,
     reduced = shard.reduce_shard(plan, frame, history)
     return AccuracyPartial(
         n_rows=len(frame), segments=reduced.segments, cycles=reduced.cycles,
-        stats=reduced.stats, sums=reduced.sums, candidates=reduced.candidates)
+        stats=reduced.stats, sums=reduced.sums, candidates=reduced.candidates,
+        tables=reduced.tables, cut=reduced.cut)
 
 
 def merge_partials(parts: Sequence[AccuracyPartial]) -> AccuracyPartial:
@@ -125,12 +144,19 @@ def merge_partials(parts: Sequence[AccuracyPartial]) -> AccuracyPartial:
         segments.update(p.segments)
         cycles |= p.cycles
     limit = max((_limit(p.candidates) for p in kept), default=0)
+    tables = {}
+    for name in sorted({n for p in kept for n in p.tables}):
+        frames = [p.tables[name] for p in kept if name in p.tables]
+        tables[name] = merge_sums(frames, frames[0].attrs.get("keys", GROUP_KEYS))
+        tables[name].attrs = dict(frames[0].attrs)
+    cuts = [p.cut for p in kept if p.cut is not None]
     return AccuracyPartial(
         n_rows=sum(p.n_rows for p in kept), segments=segments, cycles=cycles,
         stats=merge_stats([p.stats for p in kept if p.stats is not None], GROUP_KEYS),
         sums=merge_sums([p.sums for p in kept if p.sums is not None]),
         candidates=merge_candidates([p.candidates for p in kept if p.candidates is not None],
                                     limit),
+        tables=tables, cut=min(cuts) if cuts else None,
     )
 
 

@@ -27,6 +27,7 @@ from accuracy_checks.checks.accuracy import (
 from accuracy_checks.checks.accuracy_groups import EvaluationGroups
 from accuracy_checks.checks.judge import Thresholds, span_words
 from accuracy_checks.checks.offenders import _finite, _share
+from accuracy_checks.dask.accuracy_families import family_figures
 from accuracy_checks.dask.accuracy_shard import LABEL_SEGMENT
 from accuracy_checks.dask.accuracy_tables import (
     GROUP_KEYS,
@@ -116,11 +117,9 @@ def merged_view(plan: AccuracyPlan, partial: AccuracyPartial) -> Merged:
     return Merged(plan, partial, groupings, groups)
 
 
-def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds,
-           figures: Any = None) -> list[CheckResult]:
+def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds) -> list[CheckResult]:
     """The accuracy results of the merged ``partial`` (see :func:`accuracy_checks.dask.
-    accuracy.finish_accuracy`); ``figures(measure, merged, window, grouping, data)`` gives the
-    figure frame of a measure that is not computed from the statistics."""
+    accuracy.finish_accuracy`)."""
     defs = [get_measure(m) for m in plan.measures]
     span = span_words(plan.window)
     if partial.n_rows == 0:
@@ -130,7 +129,7 @@ def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds,
     else:
         merged = merged_view(plan, partial)
         with np.errstate(over="ignore", invalid="ignore"):
-            out = _measure_all(merged, defs, book, figures)
+            out = _measure_all(merged, defs, book)
         segments = sorted(partial.segments, key=str) + (
             [ALL_SERIES] if "all" in merged.groupings else [])
         have = {(int(lag), str(seg)) for g in merged.groups.values()
@@ -150,8 +149,7 @@ def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds,
     return out
 
 
-def _measure_all(merged: Merged, defs: list[Measure], book: Thresholds,
-                 figures: Any) -> list[CheckResult]:
+def _measure_all(merged: Merged, defs: list[Measure], book: Thresholds) -> list[CheckResult]:
     plan = merged.plan
     out: list[CheckResult] = []
     datas: dict[tuple[str, str], MeasureData] = {}
@@ -171,12 +169,34 @@ def _measure_all(merged: Merged, defs: list[Measure], book: Thresholds,
             if measure.from_stats is not None and measure.compute is None:
                 values = measure.from_stats(data.stats)
             else:
-                values = figures(measure, merged, measure.window, grouping, data)
+                values = _figures(measure, merged, measure.window, grouping, data)
             facts = _Facts(merged.facts(measure.window, grouping, data))
             judged = _judged(measure, values, data, cast(EvaluationGroups, facts), book,
                              plan.min_obs, measure_span, plan.offenders, plan.keys)
             out += _offenders(judged, measure, merged, measure.window, grouping, data)
     return out
+
+
+def _figures(measure: Measure, merged: Merged, window: str, grouping: str,
+             data: MeasureData) -> pd.DataFrame:
+    """A family measure's figure frame from the merged tables, in group order."""
+    tables = merged.partial.tables
+    cut = merged.partial.cut
+
+    def table(name: str, columns: list[str]) -> pd.DataFrame:
+        frame = tables.get(name)
+        if frame is not None and name == "mase":
+            frame = frame.loc[frame["before"] == cut]
+        return merged.table(frame, window, grouping, columns)
+
+    periods = tables.get("periods")
+    if periods is not None:
+        periods = periods.loc[(periods["window"] == window) & (periods["grouping"] == grouping)]
+        number = pd.Series(np.arange(len(merged.groups[grouping])),
+                           index=merged.group_index(grouping))
+        keys = pd.MultiIndex.from_frame(periods[["lag", "seg_rank", "segment"]])
+        periods = periods.assign(group=number.reindex(keys).to_numpy())
+    return family_figures(measure, data, table, periods, cut)
 
 
 def _offenders(results: list[CheckResult], measure: Measure, merged: Merged, window: str,

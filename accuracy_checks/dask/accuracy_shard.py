@@ -15,6 +15,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.accuracy_groups import EvaluationGroups
+from accuracy_checks.dask.accuracy_families import EXTRA_KEYS, family_tables, scale_cut
 from accuracy_checks.dask.accuracy_tables import (
     GROUP_KEYS,
     ORDERINGS,
@@ -22,7 +23,7 @@ from accuracy_checks.dask.accuracy_tables import (
     scores,
     top_candidates,
 )
-from accuracy_checks.evaluation.baselines import ActualsIndex
+from accuracy_checks.evaluation.baselines import ActualsIndex, known_through
 from accuracy_checks.evaluation.join import (
     CYCLE_START,
     IN_TRACKING,
@@ -33,6 +34,7 @@ from accuracy_checks.evaluation.join import (
     finite_actuals,
 )
 from accuracy_checks.measures.data import MeasureData
+from accuracy_checks.measures.registry import get_measure
 from accuracy_checks.results import ALL_SERIES
 from accuracy_checks.sources import frames as F
 
@@ -52,7 +54,8 @@ class Reduced:
     stats: pd.DataFrame
     sums: pd.DataFrame
     candidates: pd.DataFrame
-    job: EvaluationGroups
+    tables: dict[str, pd.DataFrame]
+    cut: int | None
 
 
 def evaluation_rows(plan: AccuracyPlan, earlier: pd.DataFrame, actuals: pd.DataFrame
@@ -125,6 +128,9 @@ def reduce_shard(plan: AccuracyPlan, frame: pd.DataFrame, history: ActualsIndex 
     job = EvaluationGroups(frame, plan.keys, plan.settings, history, plan.frequency)
     ranks = segment_ranks(job.frame, job.segment_names)
     stats, sums, candidates = [], [], []
+    tables: dict[str, list[pd.DataFrame]] = {}
+    cut = scale_cut(job.frame, job, plan.frequency) if "mase" in plan.measures else None
+    cuts = _cuts(plan, cut)
     for window in plan.windows:
         for grouping in job.groupings:
             data = job.data(window, grouping)
@@ -133,11 +139,27 @@ def reduce_shard(plan: AccuracyPlan, frame: pd.DataFrame, history: ActualsIndex 
             units = data.units()
             sums.append(labels.assign(n_series=data.series_per_group(units)))
             candidates.append(_candidates(data, labels, plan))
+            measured = [m for m in plan.measures if get_measure(m).window == window]
+            for name, table in family_tables(measured, data, labels, history, cuts).items():
+                tables.setdefault(name, []).append(table)
+    joined = {}
+    for name, parts in tables.items():
+        joined[name] = pd.concat(parts, ignore_index=True)
+        joined[name].attrs = {"keys": [*GROUP_KEYS, *EXTRA_KEYS.get(name, [])]}
     return Reduced(
         segments=ranks, cycles=_cycles(job.frame), stats=pd.concat(stats, ignore_index=True),
         sums=pd.concat(sums, ignore_index=True),
         candidates=top_candidates(pd.concat(candidates, ignore_index=True), plan.offenders),
-        job=job)
+        tables=joined, cut=cut)
+
+
+def _cuts(plan: AccuracyPlan, own: int | None) -> list[int]:
+    """The MASE cuts a shard computes: those of the issue dates that can be the earliest
+    evaluated cycle, up to the shard's own (the global cut is the smallest shard cut)."""
+    if own is None or not plan.scale_issues:
+        return []
+    every = known_through(pd.Series(plan.scale_issues), plan.frequency) + 1
+    return sorted({int(c) for c in every if c <= own} | {own})
 
 
 def _group_labels(data: MeasureData, window: str, grouping: str,

@@ -52,6 +52,9 @@ class AccuracyPlan:
     periods: list[pd.Timestamp]
     #: each earlier cycle's first period over all series, by issue date
     cycle_starts: dict[pd.Timestamp, pd.Timestamp]
+    #: the issue dates that can be the earliest cycle evaluated (MASE's cut), when MASE is
+    #: reported
+    scale_issues: list[pd.Timestamp] = field(default_factory=list)
 
     @property
     def windows(self) -> list[str]:
@@ -80,6 +83,8 @@ class AccuracyPartial:
     sums: pd.DataFrame | None = None
     candidates: pd.DataFrame | None = None
     tables: dict[str, pd.DataFrame] = field(default_factory=dict)
+    #: the smallest MASE cut of the shards (``None``: no usable evaluation row)
+    cut: int | None = None
 
 
 def merge_sums(parts: Sequence[pd.DataFrame], keys: Sequence[str] = tuple(GROUP_KEYS)

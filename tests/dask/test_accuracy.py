@@ -114,10 +114,43 @@ def demo_config(tmp_path_factory: pytest.TempPathFactory) -> Path:
     return config
 
 
-@pytest.fixture(scope="module")
-def demo(demo_config: Path) -> tuple[Config, pd.DataFrame, pd.DataFrame, Thresholds,
-                                     list[CheckResult]]:
-    config = load_config(demo_config)
+#: the demo's config as written, and variants: every family this engine computes with tight
+#: levels (many breaches, so many offender lists), more lags and a longer tracking window
+VARIANTS = {
+    "as_written": {},
+    "families": {
+        "  min_obs: 20\n": "  min_obs: 5\n  measures: [smape, mase, fva_naive, "
+                          "fva_seasonal_naive, tracking_signal, trigg]\n",
+        "  default:\n": "  default:\n    smape: {warn: 5, fail: 30}\n"
+                       "    mase: {warn: 0.2, fail: 0.8}\n    tracking_signal: {warn: 0.1}\n"
+                       "    trigg: {warn: 0.05}\n    fva_naive: {warn: 50}\n"
+                       "    mae: {warn: 1}\n    me: {warn: 0.01}\n",
+    },
+    "lags": {
+        "  lags: [1, 4]\n  window: 4\n": "  lags: [1, 2, 3, 4, 6]\n  window: 6\n"
+                                          "  tracking_window: 9\n  seasonal_period: 3\n",
+        "  min_obs: 20\n": "  min_obs: 1\n  offenders: 3\n  measures: [smape, mase, "
+                          "tracking_signal, trigg, fva_seasonal_naive]\n",
+        "  default:\n": "  default:\n    rmse: {warn: 0.5}\n    sde: {warn: 0.5}\n"
+                       "    mape: {warn: 0.5}\n",
+    },
+}
+
+
+def variant_config(path: Path, name: str) -> Config:
+    text = path.read_text(encoding="utf-8")
+    for old, new in VARIANTS[name].items():
+        assert old in text
+        text = text.replace(old, new, 1)
+    out = path.with_name(f"variant-{name}.yaml")
+    out.write_text(text, encoding="utf-8")
+    return load_config(out)
+
+
+@pytest.fixture(scope="module", params=list(VARIANTS))
+def demo(demo_config: Path, request: pytest.FixtureRequest
+         ) -> tuple[Config, pd.DataFrame, pd.DataFrame, Thresholds, list[CheckResult]]:
+    config = variant_config(demo_config, request.param)
     inputs = load_inputs(config, archive=archived_cycles(config))
     book = Thresholds(config)
     want = run_accuracy(config, inputs.earlier, inputs.actuals, book=book)
