@@ -15,10 +15,17 @@ pushed down only when the column holds dates or naive timestamps (the rows read 
 again after conversion, so the result never depends on it).
 
 **Drivers.** ``duckdb:///file.duckdb`` is read with DuckDB's own client, results as Arrow
-(extra ``warehouse``); PostgreSQL (``postgresql+psycopg://…``) and any other SQLAlchemy URL
-through SQLAlchemy. A connection gives up after :data:`CONNECT_TIMEOUT_S` seconds unless the
-URL sets ``connect_timeout``. ``${NAME}`` in the URL is replaced from the environment when
-the connection opens.
+(extra ``warehouse``). PostgreSQL (``postgresql://``, ``postgresql+psycopg://``,
+``postgresql+psycopg2://``) is read through ADBC's PostgreSQL driver when it is installed
+(extra ``postgres``): the same compiled statement with ``$1``-style bound parameters, the rows
+fetched as Arrow (the driver reads PostgreSQL's binary COPY format in C, no Python object per
+row); without ADBC, and for any other SQLAlchemy URL, through SQLAlchemy. Arrow results go
+through the same column rules as SQLAlchemy's rows (:func:`_arrow_column`): ``numeric`` is a
+number where a number is configured and a decimal elsewhere (a decimal key is refused, as
+psycopg's ``Decimal`` is), ``timestamptz`` is shown in the session's time zone (as psycopg
+shows it), types without an Arrow twin (``uuid``, ``json``, …) as their text. A connection
+gives up after :data:`CONNECT_TIMEOUT_S` seconds unless the URL sets ``connect_timeout``.
+``${NAME}`` in the URL is replaced from the environment when the connection opens.
 
 **Errors** (:class:`~accuracy_checks.errors.InputError`, exit 2; the URL's password masked):
 a database that cannot be reached, a missing driver, a missing table, a missing column (naming
@@ -28,8 +35,9 @@ the table's columns), a query the database refuses (with the database's message)
 from __future__ import annotations
 
 import datetime as dt
+import re
 from collections.abc import Callable, Iterator, Sequence
-from contextlib import contextmanager
+from contextlib import contextmanager, suppress
 from pathlib import Path
 from typing import Any
 
@@ -41,7 +49,7 @@ from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources.columns import Column, convert, refuse_missing
 
-__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows",
+__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows", "libpq_uri",
            "read_sql_columns", "sql_columns"]
 
 #: seconds a connection to a database may take before the run gives up (exit 2)
@@ -52,6 +60,36 @@ _DUCKDB = "duckdb:///"
 # ------------------------------------------------------------------------- connections
 
 
+def _adbc() -> Any | None:
+    """ADBC's PostgreSQL DB-API module (``None`` when not installed: SQLAlchemy reads)."""
+    with suppress(ImportError):
+        import adbc_driver_postgresql.dbapi as adbc
+
+        return adbc
+    return None
+
+
+def libpq_uri(url: Any) -> str:
+    """A SQLAlchemy PostgreSQL URL as a libpq connection URI: every part percent-encoded (libpq
+    reads ``+`` as itself, never as a blank), the query parameters kept (they are libpq's, as
+    psycopg passes them), ``connect_timeout`` defaulting to :data:`CONNECT_TIMEOUT_S`."""
+    from urllib.parse import quote
+
+    def q(part: object) -> str:
+        return quote(str(part), safe="")
+
+    auth = ""
+    if url.username is not None:
+        auth = q(url.username) + (f":{q(url.password)}" if url.password is not None else "") + "@"
+    host = url.host or ""
+    host = f"[{host}]" if ":" in host else q(host)
+    port = f":{url.port}" if url.port else ""
+    query = {"connect_timeout": str(CONNECT_TIMEOUT_S), **dict(url.query)}
+    pairs = [(k, v) for k, vs in query.items() for v in (vs if isinstance(vs, tuple) else (vs,))]
+    return (f"postgresql://{auth}{host}{port}/{q(url.database or '')}?"
+            + "&".join(f"{q(k)}={q(v)}" for k, v in pairs))
+
+
 class _Connection:
     """One open connection: runs SQLAlchemy Core statements, returns Arrow or pandas."""
 
@@ -59,8 +97,20 @@ class _Connection:
         self.source, self.role, self.key = source, role, key
         self.url = expand_env(source.url, f"{key}.url")
         self._duck: Any = None
+        self._adbc: Any = None
         self._conn: Any = None
         self._engine: Any = None
+        self._zone: str | None = None
+
+    @property
+    def adbc(self) -> bool:
+        """Whether PostgreSQL is read through ADBC."""
+        return self._adbc is not None
+
+    @property
+    def arrow(self) -> bool:
+        """Whether statements return Arrow tables (DuckDB, ADBC)."""
+        return self._duck is not None or self._adbc is not None
 
     def open(self) -> None:
         try:
@@ -80,9 +130,14 @@ class _Connection:
             from sqlalchemy.pool import NullPool
 
             url = sa.engine.make_url(self.url)
+            libpq = (url.get_backend_name() == "postgresql"
+                     and url.get_driver_name() in ("psycopg", "psycopg2", ""))
+            adbc = _adbc() if libpq else None
+            if adbc is not None:
+                self._adbc = adbc.connect(libpq_uri(url), autocommit=True)
+                return
             args: dict[str, Any] = {}
-            if (url.get_backend_name() == "postgresql" and "connect_timeout" not in url.query
-                    and url.get_driver_name() in ("psycopg", "psycopg2", "")):
+            if libpq and "connect_timeout" not in url.query:
                 args["connect_timeout"] = CONNECT_TIMEOUT_S
             self._engine = sa.create_engine(url, poolclass=NullPool, connect_args=args)
             self._conn = self._engine.connect()
@@ -101,10 +156,10 @@ class _Connection:
             ) from None
 
     def close(self) -> None:
-        if self._duck is not None:
-            self._duck.close()
-        if self._conn is not None:
-            self._conn.close()
+        for handle in (self._duck, self._adbc, self._conn):
+            if handle is not None:
+                handle.close()
+        if self._engine is not None:
             self._engine.dispose()
 
     def _no_driver(self, what: str) -> str:
@@ -115,26 +170,58 @@ class _Connection:
 
     @staticmethod
     def _why(exc: BaseException) -> str:
-        """The database's own words, one line, passwords masked."""
+        """The database's own words, one line, passwords masked (ADBC's status prefix and
+        its echo of the statement left out)."""
         orig = getattr(exc, "orig", None) or exc
-        text = " ".join(str(orig).split())
+        text = str(orig).split("Query was:")[0]
+        text = re.sub(r"^[A-Z_]+: (?:\[libpq\] )?(?:.*?ERROR: )?", "", text.strip(), flags=re.S)
+        text = " ".join(text.split())
         return mask_secrets(text).rstrip(".") or type(exc).__name__
 
-    def run(self, stmt: Any) -> pd.DataFrame:
-        """The rows of a Core statement as a frame (Arrow-backed for DuckDB)."""
-        try:
-            if self._duck is not None:
-                import pyarrow as pa
-                from sqlalchemy.dialects import postgresql
+    def _compiled(self, stmt: Any) -> tuple[str, list[Any]]:
+        """``stmt`` as PostgreSQL text with ``$1``-style placeholders (an ``IN`` list expanded
+        to one placeholder per value) and its parameters in order."""
+        from sqlalchemy.dialects import postgresql
 
-                compiled = stmt.compile(dialect=postgresql.dialect(paramstyle="numeric_dollar"),
-                                        compile_kwargs={"render_postcompile": True})
-                params = [compiled.params[n] for n in compiled.positiontup or []]
-                table = self._duck.sql(compiled.string, params=params).to_arrow_table()
-                # decimals as floats (as a number column needs); a decimal key stays refused
-                fields = [f.with_type(pa.float64()) if pa.types.is_decimal(f.type) else f
-                          for f in table.schema]
-                return table.cast(pa.schema(fields)).to_pandas(date_as_object=False)
+        compiled = stmt.compile(dialect=postgresql.dialect(paramstyle="numeric_dollar"),
+                                compile_kwargs={"render_postcompile": True})
+        return compiled.string, [compiled.params[n] for n in compiled.positiontup or []]
+
+    def _arrow(self, stmt: Any) -> Any:
+        text, params = self._compiled(stmt)
+        if self._duck is not None:
+            return self._duck.sql(text, params=params).to_arrow_table()
+        with self._adbc.cursor() as cur:
+            cur.execute(text, parameters=params or None)
+            return cur.fetch_arrow_table()
+
+    def _refused(self, exc: BaseException) -> InputError:
+        what = "query" if self.source.query is not None else "table"
+        return InputError(
+            f"The {self.role} {self.source} (config key `{self.key}`) cannot be read: the "
+            f"database refused the statement: {self._why(exc)}. Check the {what} in the "
+            "config."
+        )
+
+    def table(self, stmt: Any) -> Any:
+        """The rows of a Core statement as an Arrow table (DuckDB and ADBC only)."""
+        try:
+            return self._arrow(stmt)
+        except InputError:
+            raise
+        except Exception as exc:
+            raise self._refused(exc) from None
+
+    def run(self, stmt: Any, kinds: dict[str, str] | None = None) -> pd.DataFrame:
+        """The rows of a Core statement as a frame; Arrow results converted column by column
+        (:func:`_arrow_column`, ``kinds``: column → configured kind)."""
+        if self.arrow:
+            table = self.table(stmt)
+            frame = pd.DataFrame({i: _arrow_column(self, table.column(i), (kinds or {}).get(n))
+                                  for i, n in enumerate(table.column_names)})
+            frame.columns = pd.Index(table.column_names, dtype=object)
+            return frame
+        try:
             result = self._conn.execute(stmt)
             # plain tuples: pandas probes every row object, and a SQLAlchemy Row answers its
             # attribute probes slowly (half the read time at 100 k series on PostgreSQL)
@@ -143,30 +230,74 @@ class _Connection:
         except InputError:
             raise
         except Exception as exc:
-            what = "query" if self.source.query is not None else "table"
-            raise InputError(
-                f"The {self.role} {self.source} (config key `{self.key}`) cannot be read: the "
-                f"database refused the statement: {self._why(exc)}. Check the {what} in the "
-                "config."
-            ) from None
+            raise self._refused(exc) from None
 
-    def has_table(self) -> bool:
-        schema, name = self.source.table_parts
-        if self._duck is not None:
+    def zone(self) -> str:
+        """The session's time zone (PostgreSQL's ``TimeZone``), asked once."""
+        if self._zone is None:
             import sqlalchemy as sa
 
+            rows = self.table(sa.select(sa.func.current_setting("TimeZone")))
+            self._zone = str(rows.column(0)[0].as_py())
+        return self._zone
+
+    def has_table(self) -> bool:
+        import sqlalchemy as sa
+
+        schema, name = self.source.table_parts
+        if self._adbc is not None:
+            # the relation as the search path resolves it; parts quoted, so matched as stored
+            quoted = ".".join('"' + p.replace('"', '""') + '"' for p in (schema, name) if p)
+            stmt = sa.select(sa.func.to_regclass(quoted).is_not(None))
+            return bool(self.table(stmt).column(0)[0].as_py())
+        if self._duck is not None:
             tables = sa.table("tables", sa.column("table_schema"), sa.column("table_name"),
                               schema="information_schema")
             stmt = sa.select(tables.c.table_name).where(tables.c.table_name == name)
             if schema is not None:
                 stmt = stmt.where(tables.c.table_schema == schema)
             return len(self.run(stmt)) > 0
-        import sqlalchemy as sa
-
         try:
             return bool(sa.inspect(self._conn).has_table(name, schema=schema))
         except Exception:
             return True  # a dialect without the inspection: the read names the problem
+
+
+def _arrow_column(conn: _Connection, column: Any, kind: str | None) -> pd.Series:
+    """One Arrow result column as the pandas values SQLAlchemy's rows would give the
+    converters: decimals (DuckDB) as floats; PostgreSQL ``numeric`` (ADBC: its text) as floats
+    for a number column, else as ``Decimal`` values (refused as a key, as psycopg's are);
+    other PostgreSQL types without an Arrow twin as their text; ``timestamptz`` in the
+    session's time zone; dates as ``datetime64``."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+
+    kind_of = column.type
+    if isinstance(kind_of, pa.BaseExtensionType):
+        column = pa.chunked_array([c.storage for c in column.chunks], type=kind_of.storage_type)
+        if getattr(kind_of, "type_name", None) == "numeric":
+            if kind == "number":
+                with suppress(pa.ArrowInvalid, pa.ArrowNotImplementedError):
+                    column = pc.cast(column, pa.float64())  # else: text the converter names
+            else:
+                from decimal import Decimal
+
+                import numpy as np
+
+                codes = column.combine_chunks().dictionary_encode()
+                values = np.empty(len(codes.dictionary) + 1, dtype=object)  # last: NULL
+                values[:-1] = [Decimal(v) for v in codes.dictionary.to_pylist()]
+                return pd.Series(values[codes.indices.fill_null(-1).to_numpy()])
+    elif pa.types.is_decimal(kind_of):
+        column = pc.cast(column, pa.float64())
+    elif pa.types.is_timestamp(kind_of) and kind_of.tz is not None and conn.adbc:
+        try:
+            column = column.cast(pa.timestamp(kind_of.unit, tz=conn.zone()))
+            return column.to_pandas()
+        except (pa.ArrowInvalid, ValueError, KeyError):
+            pass  # a zone pandas does not know: UTC
+    # a date where no date is configured: date values, as psycopg gives them (messages alike)
+    return column.to_pandas(date_as_object=conn.adbc and kind not in (None, "date"))
 
 
 @contextmanager
@@ -177,7 +308,6 @@ def _connect(source: SqlSource, role: str, key: str) -> Iterator[_Connection]:
         yield conn
     finally:
         conn.close()
-
 
 # ---------------------------------------------------------------------------- statements
 
@@ -208,6 +338,8 @@ def _header(conn: _Connection) -> list[str]:
             "stores them."
         )
     stmt = sa.select(sa.text("*")).select_from(_from(src, [])).where(sa.false())
+    if conn.arrow:
+        return [str(c) for c in conn.table(stmt).column_names]
     return [str(c) for c in conn.run(stmt).columns]
 
 
@@ -226,7 +358,15 @@ def _date_kind(conn: _Connection, name: str) -> type | None:
 
     src = _from(conn.source, [name])
     col = src.c[name]
-    value = conn.run(sa.select(col).where(col.is_not(None)).limit(1))
+    stmt = sa.select(col).where(col.is_not(None)).limit(1)
+    if conn.adbc:  # the Arrow type says it (pandas would show a date as a timestamp)
+        import pyarrow as pa
+
+        kind = conn.table(stmt).schema.field(0).type
+        if pa.types.is_date(kind):
+            return dt.date
+        return dt.datetime if pa.types.is_timestamp(kind) and kind.tz is None else None
+    value = conn.run(stmt)
     if not len(value):
         return None
     first = value.iloc[0, 0]
@@ -272,7 +412,7 @@ def read_sql_columns(source: SqlSource, columns: Sequence[Column], *, role: str,
             kind = _date_kind(conn, row_filter[0])
             if kind is not None:
                 stmt = stmt.where(src.c[row_filter[0]].in_(_params(kind, row_filter[1])))
-        raw = conn.run(stmt)
+        raw = conn.run(stmt, {c.name: c.kind for c in reversed(columns)})
     if len(raw) == 0 and not allow_empty:
         raise InputError(
             f"The {role} {source} (config key `{key}`) has no rows; a {role} with no data "

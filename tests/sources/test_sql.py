@@ -5,6 +5,7 @@ is never shown."""
 
 from __future__ import annotations
 
+import datetime as dt
 import json
 import socket
 import sqlite3
@@ -15,6 +16,7 @@ from pathlib import Path
 from typing import Any
 
 import duckdb
+import numpy as np
 import pandas as pd
 import pytest
 import sqlalchemy as sa
@@ -235,7 +237,8 @@ def test_an_unreachable_database_is_exit_2_within_a_bounded_time_password_masked
 
 
 def test_connect_timeout_by_default(monkeypatch: pytest.MonkeyPatch) -> None:
-    """Without ``connect_timeout`` in the URL a PostgreSQL connection gets the default one."""
+    """Without ``connect_timeout`` in the URL a PostgreSQL connection gets the default one,
+    through SQLAlchemy (ADBC not installed) and through ADBC (in its libpq URI)."""
     seen: dict[str, Any] = {}
 
     def fake_engine(url: Any, **kwargs: Any) -> Any:
@@ -243,10 +246,41 @@ def test_connect_timeout_by_default(monkeypatch: pytest.MonkeyPatch) -> None:
         raise sa.exc.OperationalError("connect", {}, Exception("refused"))
 
     monkeypatch.setattr(sa, "create_engine", fake_engine)
+    monkeypatch.setattr(sql, "_adbc", lambda: None)
     with pytest.raises(InputError, match="gives up after 10 s"):
         sql.sql_columns(SqlSource(url="postgresql+psycopg://h/dw", table="t"), "forecast",
                         "forecast.sql")
     assert seen == {"connect_timeout": sql.CONNECT_TIMEOUT_S}
+
+    uris: list[str] = []
+
+    class FakeAdbc:
+        @staticmethod
+        def connect(uri: str, **kwargs: Any) -> Any:
+            uris.append(uri)
+            raise OSError("IO: [libpq] Failed to connect: connection refused")
+
+    monkeypatch.setattr(sql, "_adbc", lambda: FakeAdbc)
+    with pytest.raises(InputError, match="gives up after 10 s") as err:
+        sql.sql_columns(SqlSource(url="postgresql+psycopg://u:pw@h:5433/dw", table="t"),
+                        "forecast", "forecast.sql")
+    assert uris == ["postgresql://u:pw@h:5433/dw?connect_timeout=10"]
+    assert "connection refused" in str(err.value) and "IO:" not in str(err.value)
+    # the URL's own connect_timeout wins
+    with pytest.raises(InputError):
+        sql.sql_columns(SqlSource(url="postgresql://h/dw?connect_timeout=3", table="t"),
+                        "forecast", "forecast.sql")
+    assert uris[-1] == "postgresql://h/dw?connect_timeout=3"
+
+
+def test_the_libpq_uri_keeps_every_part_percent_encoded() -> None:
+    """libpq reads ``+`` as itself: blanks and signs in a password or an option are
+    percent-encoded, never written as ``+``."""
+    url = sa.engine.make_url("postgresql+psycopg://gate%40x:p%40ss+w%3Ard@[::1]:5432/my db"
+                             "?options=-csearch_path%3Dt1%20-c%20work_mem%3D64MB&sslmode=disable")
+    uri = sql.libpq_uri(url)
+    assert uri == ("postgresql://gate%40x:p%40ss%2Bw%3Ard@[::1]:5432/my%20db?connect_timeout=10"
+                   "&options=-csearch_path%3Dt1%20-c%20work_mem%3D64MB&sslmode=disable")
 
 
 # --------------------------------------------------------------------------- PostgreSQL
@@ -268,26 +302,50 @@ def load_postgres(project: Project, url: str) -> None:
     engine.dispose()
 
 
+@pytest.fixture(params=["adbc", "sqlalchemy"])
+def pg_driver(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch
+              ) -> Iterator[tuple[str, list[tuple[str, Any]]]]:
+    """How PostgreSQL is read: through ADBC (installed with the test extra) or through
+    SQLAlchemy (as without ADBC); and the statements sent with their parameters."""
+    statements: list[tuple[str, Any]] = []
+    if request.param == "sqlalchemy":
+        monkeypatch.setattr(sql, "_adbc", lambda: None)
+
+        def record(conn: Any, cursor: Any, statement: str, params: Any, *_: Any) -> None:
+            statements.append((statement, params))
+
+        sa.event.listen(sa.engine.Engine, "before_cursor_execute", record)
+        try:
+            yield request.param, statements
+        finally:
+            sa.event.remove(sa.engine.Engine, "before_cursor_execute", record)
+        return
+    from adbc_driver_manager import dbapi
+
+    execute = dbapi.Cursor.execute
+
+    def recorded(self: Any, operation: Any, parameters: Any = None, **kw: Any) -> Any:
+        statements.append((operation, parameters))
+        return execute(self, operation, parameters, **kw)
+
+    monkeypatch.setattr(dbapi.Cursor, "execute", recorded)
+    yield request.param, statements
+
+
 def test_postgresql_tables_give_the_results_of_the_csv_files_filters_bound(
-        make_project: Callable[..., Project], pg_url: str,
-        capsys: pytest.CaptureFixture[str]) -> None:
+        make_project: Callable[..., Project], pg_url: str, capsys: pytest.CaptureFixture[str],
+        pg_driver: tuple[str, list[tuple[str, Any]]]) -> None:
     project = make_project(**BREACHED)
     expected = results_of(project, "csv")
     load_postgres(project, pg_url)
     sql_config(project, pg_url, prefix="")
-    statements: list[tuple[str, Any]] = []
-
-    def record(conn: Any, cursor: Any, statement: str, params: Any, *_: Any) -> None:
-        statements.append((statement, params))
-
-    sa.event.listen(sa.engine.Engine, "before_cursor_execute", record)
-    try:
-        got = results_of(project, "pg")
-    finally:
-        sa.event.remove(sa.engine.Engine, "before_cursor_execute", record)
+    driver, statements = pg_driver
+    got = results_of(project, "pg")
     assert_same_results(got, expected)
     filtered = [(s, p) for s, p in statements if " IN (" in s]
     assert filtered and all(p and "2026-" not in s for s, p in filtered)
+    if driver == "adbc":  # $1-style placeholders, one per date, dates bound as dates
+        assert all("$1" in s and all(isinstance(v, dt.date) for v in p) for s, p in filtered)
     assert any("actuals" in s for s, _ in filtered) and any("AS src" in s for s, _ in filtered)
     # no password anywhere: stdout, stderr, the JSON report, the audit record
     password = sa.engine.make_url(pg_url).password
@@ -303,3 +361,130 @@ def test_postgresql_tables_give_the_results_of_the_csv_files_filters_bound(
     with sqlite3.connect(store) as db:
         dump = "\n".join(db.iterdump())
     assert password not in dump and "***" in dump
+
+
+def test_adbc_sqlalchemy_and_parquet_give_the_same_json(
+        make_project: Callable[..., Project], pg_url: str,
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    """The same data as Parquet files, as PostgreSQL tables read through ADBC and read
+    through SQLAlchemy: the same JSON results (statuses, counts, examples, values to 1e-9)."""
+    project = make_project(**BREACHED)
+    text = project.config.read_text()
+    for name in TABLES:
+        frame = _csv(project, name)
+        for c in frame.columns:
+            if TYPES.get(c) == "DATE":
+                frame[c] = pd.to_datetime(frame[c])
+            elif c in TYPES:
+                frame[c] = frame[c].astype(float)
+        frame.to_parquet(project.data / f"{name}.parquet", index=False)
+        text = text.replace(f"data/{name}.csv", f"data/{name}.parquet")
+    project.config.write_text(text)
+    parquet = results_of(project, "parquet")
+    load_postgres(project, pg_url)
+    sql_config(project, pg_url, prefix="")
+    text = project.config.read_text()
+    project.config.write_text(text.replace(".parquet", ".csv"))  # no file is read any more
+    sql_config(project, pg_url, prefix="")
+    assert "path:" not in project.config.read_text().split("archive")[0]
+    adbc = results_of(project, "adbc")
+    monkeypatch.setattr(sql, "_adbc", lambda: None)
+    alchemy = results_of(project, "sqlalchemy")
+    assert_same_results(adbc, parquet)
+    assert_same_results(alchemy, json.loads((project.root / "parquet.json").read_text()))
+    assert adbc["inputs"]["actuals"]["rows"] == alchemy["inputs"]["actuals"]["rows"]
+
+
+#: a table of every type the column rules must handle alike through ADBC and SQLAlchemy
+TYPED = """CREATE TABLE typed (
+    int_key integer, text_key text, num numeric(10, 2), num_free numeric, ts timestamp,
+    tstz timestamptz, day date, big bigint, flt real, flag boolean)"""
+TYPED_ROWS = """INSERT INTO typed VALUES
+    (7, ' S1 ', 2.25, 'NaN', '2026-03-02 00:00', '2026-03-02 23:30+00', '2026-03-02', 9, 1.5, true),
+    (NULL, 'S2', NULL, 1e-3, '2026-03-09 00:00', '2026-03-09 00:30+00', '2026-03-09', NULL, NULL,
+     false)"""
+
+
+def _typed_reads(pg_url: str, monkeypatch: pytest.MonkeyPatch
+                 ) -> dict[str, dict[str, pd.Series | str]]:
+    """Each typed column read as a key, a number, a date and a segment label, through each
+    driver: the converted values or the error message."""
+    source = SqlSource(url=pg_url, table="typed")
+    kinds = {"key": "key", "number": "number", "date": "date", "text": "text"}
+    out: dict[str, dict[str, pd.Series | str]] = {}
+    for driver in ("adbc", "sqlalchemy"):
+        if driver == "sqlalchemy":
+            monkeypatch.setattr(sql, "_adbc", lambda: None)
+        got: dict[str, pd.Series | str] = {}
+        for name in ("int_key", "text_key", "num", "num_free", "ts", "tstz", "day", "big", "flt",
+                     "flag"):
+            for kind in kinds:
+                try:
+                    got[f"{name}:{kind}"] = sql.read_sql_columns(
+                        source, [Column(name, kind, f"forecast.{name}")], role="forecast",
+                        key="forecast.sql", allow_empty=True)[name]
+                except InputError as exc:
+                    got[f"{name}:{kind}"] = str(exc)
+        out[driver] = got
+    return out
+
+
+@pytest.mark.parametrize("zone", ["UTC", "Europe/Berlin"])
+def test_adbc_and_sqlalchemy_convert_every_type_alike(
+        pg_url: str, monkeypatch: pytest.MonkeyPatch, zone: str) -> None:
+    """Keys as text (an integer as its decimal text; a numeric key refused), numbers as
+    floats (numeric's NaN too), dates as dates (timestamptz on the session's wall clock),
+    booleans refused: the same values or the same message through both drivers."""
+    engine = sa.create_engine(pg_url, poolclass=sa.pool.NullPool)
+    with engine.begin() as conn:
+        conn.execute(sa.text(TYPED))
+        conn.execute(sa.text(TYPED_ROWS))
+    engine.dispose()
+    url = sa.engine.make_url(pg_url)
+    url = url.update_query_dict({"options": f"{url.query['options']} -cTimeZone={zone}"})
+    reads = _typed_reads(url.render_as_string(hide_password=False), monkeypatch)
+    adbc, alchemy = reads["adbc"], reads["sqlalchemy"]
+    assert adbc.keys() == alchemy.keys()
+    for name, value in adbc.items():
+        other = alchemy[name]
+        if isinstance(value, str) or isinstance(other, str):
+            assert value == other, name
+        else:
+            pd.testing.assert_series_equal(value, other, obj=name)
+    assert adbc["int_key:text"].tolist()[0] == "7" and adbc["text_key:key"].tolist() == ["S1", "S2"]
+    assert "is empty in 1 rows" in str(adbc["int_key:key"])
+    assert "decimal" in str(adbc["num:key"])
+    assert adbc["num:number"].tolist()[0] == 2.25 and np.isnan(adbc["num_free:number"].iloc[0])
+    wall = {"UTC": "2026-03-02 23:30", "Europe/Berlin": "2026-03-03 00:30"}[zone]
+    assert adbc["tstz:date"].iloc[0] == pd.Timestamp(wall)
+    assert "true/false" in str(adbc["flag:key"])
+
+
+def test_a_missing_table_column_or_a_failing_query_on_postgresql_is_the_same_exit_2(
+        make_project: Callable[..., Project], pg_url: str, capsys: pytest.CaptureFixture[str],
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    """Through ADBC and through SQLAlchemy: the same messages as for DuckDB's tables."""
+    project = make_project(**BREACHED)
+    load_postgres(project, pg_url)
+    sql_config(project, pg_url, prefix="")
+    text = project.config.read_text()
+    errors: dict[str, list[str]] = {}
+    for driver in ("adbc", "sqlalchemy"):
+        if driver == "sqlalchemy":
+            monkeypatch.setattr(sql, "_adbc", lambda: None)
+        found = errors[driver] = []
+        project.config.write_text(text.replace("table: forecast", "table: fc"))
+        found.append(refused(project, capsys))
+        assert "table fc" in found[-1] and "does not exist" in found[-1]
+        project.config.write_text(text.replace("table: forecast", "table: public.forecast"))
+        found.append(refused(project, capsys))  # the tables live in the test's own schema
+        assert "table public.forecast" in found[-1] and "does not exist" in found[-1]
+        project.config.write_text(text.replace("value: units_sold", "value: sold"))
+        found.append(refused(project, capsys))
+        assert "has no column 'sold' (config key `actuals.value`)" in found[-1]
+        assert "Its columns are: store, product, week, units_sold" in found[-1]
+        project.config.write_text(text.replace("select * from earlier", "select * from nowhere"))
+        found.append(refused(project, capsys))
+        assert "database refused the statement: relation \"nowhere\" does not exist" in found[-1]
+        assert "history.sql" in found[-1] and "SQLSTATE" not in found[-1]
+    assert errors["adbc"] == errors["sqlalchemy"]
