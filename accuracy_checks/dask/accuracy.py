@@ -92,7 +92,7 @@ def accuracy_plan(config: Config, *, actual_periods: Sequence[pd.Timestamp],
         periods=periods,
         cycle_starts={pd.Timestamp(k): pd.Timestamp(v) for k, v in cycle_starts.items()},
         scale_issues=_scale_issues(config, cycle_starts, periods[-ev.window:] if ev.window > 0
-                                   else []) if "mase" in measures else [],
+                                   else []) if {"mase", "msis"} & set(measures) else [],
     )
 
 

@@ -29,15 +29,14 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.accuracy_groups import EvaluationGroups
-from accuracy_checks.evaluation.baselines import ActualsIndex, known_through
-from accuracy_checks.measures.data import (
-    SCALE_OK,
-    SCALE_TOO_FEW_ROWS,
-    SCALE_ZERO,
-    MeasureData,
-    MeasureSettings,
-    result_frame,
+from accuracy_checks.dask.accuracy_intervals import (
+    INTERVAL_SUMS,
+    interval_figures,
+    interval_tables,
 )
+from accuracy_checks.dask.accuracy_tables import series_scales
+from accuracy_checks.evaluation.baselines import ActualsIndex, known_through
+from accuracy_checks.measures.data import MeasureData, result_frame
 from accuracy_checks.measures.registry import Measure
 from accuracy_checks.measures.scaled import mase_from_data, smape_from_data
 from accuracy_checks.measures.signals import tracking_signal_from_data, trigg_from_data
@@ -49,7 +48,7 @@ __all__ = ["FAMILIES", "family_figures", "family_tables", "scale_cut"]
 #: the families this module computes, by measure id → the table each reads
 FAMILIES = {"smape": "smape", "mase": "mase", "fva_naive": "fva_naive",
             "fva_seasonal_naive": "fva_seasonal_naive", "tracking_signal": "periods",
-            "trigg": "periods"}
+            "trigg": "periods", **{m: m for m in INTERVAL_SUMS}}
 #: the sums kept per table (beside the group keys and, for MASE, ``before``; for the
 #: periods, ``period``)
 SUMS = {
@@ -59,7 +58,9 @@ SUMS = {
     "fva_seasonal_naive": ["n", "sum_f", "sum_b", "sum_y", "n_without"],
     "periods": ["error", "rows"],
 }
-EXTRA_KEYS = {"mase": ["before"], "periods": ["period"]}
+EXTRA_KEYS = {"mase": ["before"], "periods": ["period"], "pinball": ["variant"],
+              "mis": ["variant"], "interval_coverage": ["variant"],
+              "msis": ["variant", "before"]}
 
 
 def scale_cut(frame: pd.DataFrame, job: EvaluationGroups, frequency: str) -> int | None:
@@ -72,20 +73,6 @@ def scale_cut(frame: pd.DataFrame, job: EvaluationGroups, frequency: str) -> int
     if len(used) == 0:
         return None
     return int(known_through(pd.Series([used.min()]), frequency)[0]) + 1
-
-
-def _scales(history: ActualsIndex | None, n_series: int, settings: MeasureSettings,
-            before: int) -> tuple[np.ndarray, np.ndarray]:
-    """Per series code: MASE's scale at the cut ``before`` and its reason code (as
-    ``EvaluationGroups._scales`` sets them)."""
-    scale = np.full(n_series, np.nan)
-    reason = np.full(n_series, SCALE_TOO_FEW_ROWS, dtype=np.int8)
-    if history is not None:
-        known, pairs = history.scales(settings.seasonal_period, before)
-        scale[: known.size] = known
-        reason[: known.size] = np.where(
-            pairs == 0, SCALE_TOO_FEW_ROWS, np.where(known > 0, SCALE_OK, SCALE_ZERO))
-    return scale, reason
 
 
 def family_tables(measures: list[str], data: MeasureData, labels: pd.DataFrame,
@@ -102,7 +89,7 @@ def family_tables(measures: list[str], data: MeasureData, labels: pd.DataFrame,
     if "mase" in wanted:
         parts = []
         for before in cuts:
-            scale, reason = _scales(history, data.n_series, data.settings, before)
+            scale, reason = series_scales(history, data.n_series, data.settings, before)
             cut = MeasureData(data.rows, data.group, data.groups, data.series, data.n_series,
                               data.settings, scale=scale, scale_reason=reason)
             got = mase_from_data(cut)
@@ -118,6 +105,7 @@ def family_tables(measures: list[str], data: MeasureData, labels: pd.DataFrame,
             out[f"fva_{kind}"] = labels.assign(**_fva_sums(data, kind))
     if "periods" in wanted:
         out["periods"] = _period_sums(data, labels)
+    out.update(interval_tables(wanted, data, labels, history, cuts))
     return out
 
 
@@ -153,7 +141,9 @@ def _period_sums(data: MeasureData, labels: pd.DataFrame) -> pd.DataFrame:
 # --------------------------------------------------------------------------- merged
 
 
-Table = Callable[[str, list[str]], pd.DataFrame]
+#: ``table(name, columns, variant)``: a merged table's sums (of one variant, when given) in
+#: group order, zeros where a group has none
+Table = Callable[[str, list[str], str | None], pd.DataFrame]
 
 
 def family_figures(measure: Measure, data: MeasureData, table: Table,
@@ -163,8 +153,10 @@ def family_figures(measure: Measure, data: MeasureData, table: Table,
     group has none); ``periods`` the merged (group number, period) sums; ``cut`` the global
     MASE cut."""
     n = data.stats["n"].to_numpy(dtype=np.float64)
+    if measure.id in INTERVAL_SUMS:
+        return interval_figures(measure.id, data, table)
     if measure.id == "smape":
-        sums = table("smape", SUMS["smape"])
+        sums = table("smape", SUMS["smape"], None)
         used = sums["used"].to_numpy(dtype=np.float64)
         mean = np.full(data.n_groups, np.nan)
         np.divide(sums["total"].to_numpy(dtype=np.float64), used, out=mean, where=used > 0)
@@ -173,10 +165,10 @@ def family_figures(measure: Measure, data: MeasureData, table: Table,
             n_obs=n.astype(np.int64), n_series_used=used.astype(np.int64),
             n_series_skipped=np.zeros(data.n_groups, dtype=np.int64))
     if measure.id == "mase":
-        sums = table("mase", SUMS["mase"]) if cut is not None else None
+        sums = table("mase", SUMS["mase"], None) if cut is not None else None
         return _mase(data, n, sums)
     if measure.id.startswith("fva_"):
-        return _fva(data, table(measure.id, SUMS[measure.id]), measure.id[4:])
+        return _fva(data, table(measure.id, SUMS[measure.id], None), measure.id[4:])
     rows = _pseudo_rows(data, periods)
     got = (tracking_signal_from_data if measure.id == "tracking_signal"
            else trigg_from_data)(rows)

@@ -183,10 +183,12 @@ def _figures(measure: Measure, merged: Merged, window: str, grouping: str,
     tables = merged.partial.tables
     cut = merged.partial.cut
 
-    def table(name: str, columns: list[str]) -> pd.DataFrame:
+    def table(name: str, columns: list[str], variant: str | None) -> pd.DataFrame:
         frame = tables.get(name)
-        if frame is not None and name == "mase":
+        if frame is not None and "before" in frame.columns:
             frame = frame.loc[frame["before"] == cut]
+        if frame is not None and variant is not None:
+            frame = frame.loc[frame["variant"] == variant]
         return merged.table(frame, window, grouping, columns)
 
     periods = tables.get("periods")

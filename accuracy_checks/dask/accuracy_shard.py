@@ -129,7 +129,8 @@ def reduce_shard(plan: AccuracyPlan, frame: pd.DataFrame, history: ActualsIndex 
     ranks = segment_ranks(job.frame, job.segment_names)
     stats, sums, candidates = [], [], []
     tables: dict[str, list[pd.DataFrame]] = {}
-    cut = scale_cut(job.frame, job, plan.frequency) if "mase" in plan.measures else None
+    scaled = {"mase", "msis"} & set(plan.measures)
+    cut = scale_cut(job.frame, job, plan.frequency) if scaled else None
     cuts = _cuts(plan, cut)
     for window in plan.windows:
         for grouping in job.groupings:

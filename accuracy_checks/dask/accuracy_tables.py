@@ -16,11 +16,18 @@ from dataclasses import dataclass, field
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.measures.data import MeasureData, MeasureSettings
+from accuracy_checks.evaluation.baselines import ActualsIndex
+from accuracy_checks.measures.data import (
+    SCALE_OK,
+    SCALE_TOO_FEW_ROWS,
+    SCALE_ZERO,
+    MeasureData,
+    MeasureSettings,
+)
 from accuracy_checks.measures.registry import get_measure
 
 __all__ = ["GROUP_KEYS", "ORDERINGS", "AccuracyPartial", "AccuracyPlan", "merge_candidates",
-           "merge_sums", "top_candidates"]
+           "merge_sums", "series_scales", "top_candidates"]
 
 #: what identifies a group across shards: the window measured, the grouping (``segment``:
 #: per (lag, segment); ``all``: per lag, segment ``"*"``), the lag, the segment's rank (its
@@ -143,3 +150,17 @@ def empty_data(groups: pd.DataFrame, settings: MeasureSettings) -> MeasureData:
                          "forecast": pd.Series(dtype=np.float64)})
     empty = np.zeros(0, dtype=np.int64)
     return MeasureData(rows, empty, groups.reset_index(drop=True), empty, 0, settings)
+
+
+def series_scales(history: ActualsIndex | None, n_series: int, settings: MeasureSettings,
+            before: int) -> tuple[np.ndarray, np.ndarray]:
+    """Per series code: MASE's scale at the cut ``before`` and its reason code (as
+    ``EvaluationGroups._scales`` sets them)."""
+    scale = np.full(n_series, np.nan)
+    reason = np.full(n_series, SCALE_TOO_FEW_ROWS, dtype=np.int8)
+    if history is not None:
+        known, pairs = history.scales(settings.seasonal_period, before)
+        scale[: known.size] = known
+        reason[: known.size] = np.where(
+            pairs == 0, SCALE_TOO_FEW_ROWS, np.where(known > 0, SCALE_OK, SCALE_ZERO))
+    return scale, reason

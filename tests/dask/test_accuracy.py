@@ -120,17 +120,21 @@ VARIANTS = {
     "as_written": {},
     "families": {
         "  min_obs: 20\n": "  min_obs: 5\n  measures: [smape, mase, fva_naive, "
-                          "fva_seasonal_naive, tracking_signal, trigg]\n",
+                          "fva_seasonal_naive, tracking_signal, trigg, interval_coverage, "
+                          "pinball, mis, msis]\n",
         "  default:\n": "  default:\n    smape: {warn: 5, fail: 30}\n"
                        "    mase: {warn: 0.2, fail: 0.8}\n    tracking_signal: {warn: 0.1}\n"
                        "    trigg: {warn: 0.05}\n    fva_naive: {warn: 50}\n"
-                       "    mae: {warn: 1}\n    me: {warn: 0.01}\n",
+                       "    mae: {warn: 1}\n    me: {warn: 0.01}\n"
+                       "    interval_coverage: {warn: 1, fail: 5}\n    pinball: {warn: 1}\n"
+                       "    mis: {warn: 1}\n    msis: {warn: 0.5}\n",
     },
     "lags": {
         "  lags: [1, 4]\n  window: 4\n": "  lags: [1, 2, 3, 4, 6]\n  window: 6\n"
                                           "  tracking_window: 9\n  seasonal_period: 3\n",
         "  min_obs: 20\n": "  min_obs: 1\n  offenders: 3\n  measures: [smape, mase, "
-                          "tracking_signal, trigg, fva_seasonal_naive]\n",
+                          "tracking_signal, trigg, fva_seasonal_naive, interval_coverage, "
+                          "pinball, mis, msis]\n  coverage_test_level: 0.5\n",
         "  default:\n": "  default:\n    rmse: {warn: 0.5}\n    sde: {warn: 0.5}\n"
                        "    mape: {warn: 0.5}\n",
     },
