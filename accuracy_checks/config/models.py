@@ -15,6 +15,7 @@ from typing import Annotated, ClassVar, Literal
 
 from pydantic import (
     BaseModel,
+    BeforeValidator,
     ConfigDict,
     Discriminator,
     Field,
@@ -33,6 +34,7 @@ from accuracy_checks.config.catalogue import (
     unknown_measure,
     unmet_inputs,
 )
+from accuracy_checks.config.engines import Engine
 from accuracy_checks.config.levels import Bound, check_level
 from accuracy_checks.config.places import (
     Location,
@@ -357,6 +359,12 @@ class Config(_Strict):
     costs: Costs | None = None
     #: drift and sustained-breach checks across cycles (from the audit trail)
     drift: Drift = Field(default_factory=Drift)
+    #: the engine: ``pandas`` (default), ``dask``, or ``{name: dask, scheduler, workers,
+    #: memory_limit}`` (:class:`Engine`; a plain name is its ``name``)
+    engine: Annotated[Engine, BeforeValidator(
+        lambda v: {"name": v} if isinstance(v, str) else v,
+        json_schema_input_type=Literal["pandas", "dask"] | Engine)] = Field(
+        default_factory=Engine)
 
     _source: Path | None = PrivateAttr(default=None)
     _text: str = PrivateAttr(default="")

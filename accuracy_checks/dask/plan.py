@@ -1,0 +1,116 @@
+"""The run's global facts, from small reductions of every piece before the shards are formed.
+
+Each function here reads a piece's date and value columns only (:func:`~accuracy_checks.dask.
+read.read_piece`) and returns a per-period or per-cycle reduction; the client combines them
+into the :class:`~accuracy_checks.dask.shards.Plan`:
+
+- the forecast's rows per issue date (the run's cycle is the latest) and its earliest period
+  (:func:`forecast_summary`);
+- the periods of the actuals read that hold a value (the coverage window) and a finite value
+  (the evaluation span) (:func:`actuals_summary`);
+- each history place's cycles' first periods (:func:`history_starts`) and, once the span is
+  known, the first period of each cycle among the rows the evaluation uses
+  (:func:`pruned_starts`, for the accuracy stage).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+
+import numpy as np
+import pandas as pd
+
+from accuracy_checks.config import Config
+from accuracy_checks.dask.read import Piece, read_piece
+from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.columns import Column
+from accuracy_checks.sources.readers import actual_columns, forecast_columns
+
+__all__ = ["ActualsSummary", "ForecastSummary", "actuals_summary", "combine_forecast",
+           "forecast_summary", "history_starts", "min_starts", "pruned_starts"]
+
+
+def _dates(config: Config, role: str) -> list[Column]:
+    wanted = ((config.forecast.issued, config.forecast.period) if role != "actuals"
+              else (config.actuals.period, config.actuals.value))
+    cols = forecast_columns(config) if role != "actuals" else actual_columns(config)
+    return [c for c in cols if c.name in wanted]
+
+
+@dataclass
+class ForecastSummary:
+    """Rows per issue date (``NaT`` for a missing one), the earliest period, rows read."""
+
+    issue_counts: pd.Series
+    first_period: pd.Timestamp | None
+    rows: int
+
+
+def forecast_summary(piece: Piece, config: Config) -> ForecastSummary:
+    """One forecast piece's issue dates and earliest period."""
+    frame = read_piece(piece, _dates(config, "forecast"))
+    counts = frame[F.ISSUED].value_counts(dropna=False, sort=False)
+    periods = frame[F.PERIOD].dropna()
+    first = pd.Timestamp(periods.min()) if len(periods) else None
+    return ForecastSummary(counts, first, len(frame))
+
+
+def combine_forecast(parts: Sequence[ForecastSummary]) -> ForecastSummary:
+    """The whole forecast's summary: counts in date order, a missing date last."""
+    counts = pd.concat([p.issue_counts for p in parts])
+    counts = counts.groupby(level=0, dropna=False, sort=False).sum()
+    counts = counts.sort_index(na_position="last")
+    firsts = [p.first_period for p in parts if p.first_period is not None]
+    return ForecastSummary(counts, min(firsts) if firsts else None,
+                           sum(p.rows for p in parts))
+
+
+@dataclass
+class ActualsSummary:
+    """Distinct periods of the actuals read holding a value (not NaN; ±inf counts) and
+    holding a finite value; rows read."""
+
+    with_value: np.ndarray
+    finite: np.ndarray
+    rows: int
+
+
+def actuals_summary(piece: Piece, config: Config,
+                    periods: Sequence[pd.Timestamp] | None) -> ActualsSummary:
+    """One actuals piece's periods (only the rows of ``periods`` when the run cuts them)."""
+    frame = read_piece(piece, _dates(config, "actuals"))
+    if periods is not None:
+        frame = frame.loc[frame[F.PERIOD].isin(list(periods))]
+    values = frame[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
+    dates = frame[F.PERIOD].to_numpy(dtype="datetime64[ns]")
+    has_value = ~np.isnan(values) & ~np.isnat(dates)
+    return ActualsSummary(pd.unique(dates[has_value]),
+                          pd.unique(dates[np.isfinite(values) & ~np.isnat(dates)]), len(frame))
+
+
+def history_starts(piece: Piece, config: Config) -> pd.Series:
+    """One history piece's cycles: issue date → first period."""
+    frame = read_piece(piece, _dates(config, "history"))
+    return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
+
+
+def min_starts(parts: Sequence[pd.Series]) -> pd.Series:
+    """Issue date → first period over several pieces (as the readers' ``cycle_starts``)."""
+    parts = [p for p in parts if len(p)]
+    if not parts:
+        return pd.Series(dtype="datetime64[ns]", index=pd.DatetimeIndex([], name=F.ISSUED))
+    out = pd.concat(parts).groupby(level=0).min()
+    out.index = pd.DatetimeIndex(out.index).as_unit("ns")
+    out.index.name = F.ISSUED
+    return out.astype("datetime64[ns]")
+
+
+def pruned_starts(piece: Piece, place: int, *, config: Config, plan: object) -> pd.Series:
+    """One history piece's first period of each cycle among the rows the evaluation uses."""
+    from accuracy_checks.dask.shards import Plan, prune_history_piece
+
+    assert isinstance(plan, Plan)
+    frame = prune_history_piece(read_piece(piece, _dates(config, "history")), config, plan,
+                                place)
+    return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()

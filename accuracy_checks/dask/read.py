@@ -1,0 +1,203 @@
+"""Reading the inputs in pieces on the workers, with the sources' own reading rules.
+
+A :class:`Piece` is a part of one input file: a group of a Parquet file's row groups, or a
+whole CSV file. :func:`read_piece` reads it with the readers' column declarations
+(:func:`~accuracy_checks.sources.readers.forecast_columns`,
+:func:`~accuracy_checks.sources.readers.actual_columns`) and converters
+(:func:`~accuracy_checks.sources.columns.convert`: keys as text, one date format, numbers;
+the same exit-2 messages, numbering the file's own lines), and adds two columns:
+
+``__order``
+    the row's position in the run's reading order (piece number · 2**40 + row in the piece):
+    the pandas engine reads the files in this order, and its examples and tie-breaks follow it;
+``__shard``
+    the shard of the row's series: a hash of the key columns' text modulo the shard count, the
+    same for every input (forecast, actuals, earlier cycles), so a shard holds whole series.
+
+Only local files and folders of files are read in pieces (:func:`local_files`); a table, a
+query, a URL or a Hive-partitioned dataset is read by the pandas readers on the client and then
+split into shards (:mod:`accuracy_checks.dask.run`).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Sequence
+from dataclasses import dataclass
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+
+from accuracy_checks.errors import InputError
+from accuracy_checks.sources import datasets
+from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.columns import Column, convert
+from accuracy_checks.sources.files import (
+    PARQUET,
+    READ_ERRORS,
+    check_header,
+    list_files,
+    why,
+)
+
+__all__ = ["ORDER", "SHARD", "Piece", "local_files", "pieces", "read_piece", "shard_of"]
+
+ORDER = "__order"
+SHARD = "__shard"
+#: rows of a Parquet piece (whole row groups are grouped up to about this many rows)
+PIECE_ROWS = 2_000_000
+_ROW_BITS = 40
+
+
+@dataclass(frozen=True)
+class Piece:
+    """A part of one input file, read by one task."""
+
+    file: Path
+    role: str
+    #: Parquet row groups of the piece (``None``: the whole file)
+    row_groups: tuple[int, ...] | None
+    #: the piece's first row within its file (numbers rows in messages)
+    first_row: int
+    #: the piece's number in the run's reading order
+    ordinal: int
+
+
+def local_files(place: object, role: str, key: str) -> list[Path] | None:
+    """The local files of ``place`` in the readers' order, or ``None`` when the place is not
+    a local file or folder of files (a table, a URL, a Hive-partitioned dataset)."""
+    if not isinstance(place, Path) or datasets.is_dataset(place):
+        return None
+    return list_files(place, role, key)
+
+
+def pieces(files: Sequence[Path], role: str, *, start: int = 0,
+           rows: int = PIECE_ROWS) -> list[Piece]:
+    """The pieces of ``files`` in reading order, numbered from ``start``."""
+    import pyarrow.parquet as pq
+
+    out: list[Piece] = []
+    for file in files:
+        if file.suffix.lower() not in PARQUET:
+            out.append(Piece(file, role, None, 0, start + len(out)))
+            continue
+        try:
+            meta = pq.ParquetFile(file).metadata
+        except READ_ERRORS as exc:
+            raise InputError(f"The {role} file {file} cannot be read: {why(exc)}") from None
+        group: list[int] = []
+        first = n = 0
+        for i in range(meta.num_row_groups):
+            if group and n + meta.row_group(i).num_rows > rows:
+                out.append(Piece(file, role, tuple(group), first, start + len(out)))
+                first, group, n = first + n, [], 0
+            group.append(i)
+            n += meta.row_group(i).num_rows
+        out.append(Piece(file, role, tuple(group), first, start + len(out)))
+    return out
+
+
+def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] = (),
+               n_shards: int = 0, rename: dict[str, str] | None = None,
+               text: Sequence[str] = ()) -> pd.DataFrame:
+    """One piece's ``columns`` converted to their canonical dtypes and names (key columns and
+    the ``text`` columns present as plain text, so every piece has the same dtypes), with
+    ``__order`` and, when ``n_shards``, ``__shard`` of the series (``keys``: canonical key
+    names, after ``rename``)."""
+    check_header(piece.file, columns, piece.role)
+    wanted = list(dict.fromkeys(c.name for c in columns))
+    try:
+        if piece.row_groups is not None:
+            raw = _parquet(piece, wanted, [c.name for c in columns if c.kind != "number"])
+        else:
+            raw = _csv(piece.file, columns, piece.role)
+    except READ_ERRORS as exc:
+        raise InputError(f"The {piece.role} file {piece.file} cannot be read: "
+                         f"{why(exc)}") from None
+    first_line = (1 if piece.row_groups is not None else 2) + piece.first_row
+    out: dict[str, pd.Series] = {}
+    for c in columns:
+        if c.name not in out:
+            out[c.name] = convert(raw[c.name], piece.file, c, piece.role, first_line)
+    frame = pd.DataFrame(out).rename(
+        columns={c.name: c.canonical for c in columns if c.canonical})
+    if rename:
+        frame = frame.rename(columns=rename)
+    for k in [*keys, *(t for t in text if t in frame.columns)]:
+        frame[k] = _text(frame[k])
+    frame[ORDER] = (np.int64(piece.ordinal) << _ROW_BITS) + np.arange(len(frame), dtype=np.int64)
+    if n_shards:
+        frame[SHARD] = shard_of(frame, keys, n_shards)
+    return frame
+
+
+def _text(column: pd.Series) -> pd.Series:
+    """A key or segment column as plain text (the converters give categoricals of text);
+    missing stays missing."""
+    return column.astype(object).astype("str")
+
+
+def shard_of(frame: pd.DataFrame, keys: Sequence[str], n_shards: int) -> np.ndarray:
+    """The shard of each row: a hash of its key columns' text modulo ``n_shards`` (the same
+    for a series in every input)."""
+    text = frame[list(keys)].astype(object).astype("str")
+    hashed = pd.util.hash_pandas_object(text, index=False).to_numpy()
+    return (hashed % np.uint64(n_shards)).astype(np.int32)
+
+
+def _parquet(piece: Piece, wanted: list[str], dictionary: list[str]) -> pd.DataFrame:
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    handle = pq.ParquetFile(piece.file)
+    schema = handle.schema_arrow
+    strings = [n for n in dictionary if n in schema.names
+               and (pa.types.is_string(schema.field(n).type)
+                    or pa.types.is_large_string(schema.field(n).type))]
+    handle = pq.ParquetFile(piece.file, read_dictionary=strings)
+    assert piece.row_groups is not None
+    return handle.read_row_groups(list(piece.row_groups), columns=wanted).to_pandas()
+
+
+def _csv(file: Path, columns: Sequence[Column], role: str) -> pd.DataFrame:
+    """A CSV file's ``columns`` read raw as the readers read them (keys, dates, text as
+    strings)."""
+    from accuracy_checks.sources.files import _read_csv_columns
+
+    return _read_csv_columns(file, columns, role)
+
+
+def actual_period_filter(frame: pd.DataFrame, periods: Sequence[pd.Timestamp] | None
+                         ) -> np.ndarray:
+    """Rows of actuals kept when the run reads only ``periods`` (all rows when ``None``)."""
+    if periods is None:
+        return np.ones(len(frame), dtype=bool)
+    return frame[F.PERIOD].isin(list(periods)).to_numpy()
+
+
+@dataclass(frozen=True)
+class PieceReader:
+    """:func:`read_piece` with its settings bound, for ``dask.dataframe.from_map`` (which
+    passes the pieces one by one; an optional ``after`` step runs on the piece's rows)."""
+
+    columns: tuple[Column, ...]
+    keys: tuple[str, ...] = ()
+    n_shards: int = 0
+    rename: tuple[tuple[str, str], ...] = ()
+    text: tuple[str, ...] = ()
+    after: Any = None
+
+    def __call__(self, item: Piece | tuple[int, Piece]) -> pd.DataFrame:
+        place, piece = item if isinstance(item, tuple) else (0, item)
+        frame = read_piece(piece, self.columns, keys=self.keys, n_shards=self.n_shards,
+                           rename=dict(self.rename) or None, text=self.text)
+        return self.after(frame, place) if self.after is not None else frame
+
+
+def piece_frame(reader: PieceReader, items: Sequence[Any]) -> Any:
+    """The pieces as one dask dataframe (its dtypes from the first piece's rows)."""
+    import dask.dataframe as dd
+
+    meta = reader(items[0]).iloc[:0]
+    return dd.from_map(reader, list(items), meta=meta, enforce_metadata=False)
