@@ -138,6 +138,23 @@ def prune_earlier(earlier: pd.DataFrame, *, periods: list[pd.Timestamp], lags: l
     return rows.loc[rows[F.LAG].isin(lags)].reset_index(drop=True)
 
 
+def cycle_targets(starts: pd.Series, *, periods: list[pd.Timestamp], lags: list[int],
+                  frequency: str) -> dict[pd.Timestamp, list[pd.Timestamp]]:
+    """For each cycle (``starts``: issue date → first period), the periods of ``periods`` it
+    forecasts at a configured lag: the only rows of that cycle :func:`prune_earlier` keeps
+    (cycles with none are left out). Readers filter on these (issue date, period) pairs while
+    reading, so the rows of other periods and of unused cycles are never converted; the
+    pairs are few (cycles × the span), computed on the grid like the lags themselves."""
+    if len(starts) == 0 or not periods:
+        return {}
+    period_pos, _ = grid_positions(pd.DatetimeIndex(periods), frequency)
+    start_pos, _ = grid_positions(pd.DatetimeIndex(starts.to_numpy()), frequency)
+    lag = period_pos[None, :] - start_pos[:, None] + 1  # cycles × periods
+    kept = np.isin(lag, lags)
+    return {pd.Timestamp(issued): [periods[j] for j in np.flatnonzero(row)]
+            for issued, row in zip(starts.index, kept, strict=True) if row.any()}
+
+
 def add_lags_for_subset(earlier: pd.DataFrame, rows: pd.DataFrame,
                         frequency: str) -> pd.DataFrame:
     """Lags of ``rows`` (a subset of ``earlier``) measured from each cycle's first period:

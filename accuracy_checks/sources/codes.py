@@ -98,7 +98,10 @@ def n_distinct(frame: pd.DataFrame, columns: Sequence[str],
     """
     if len(frame) == 0 or (mask is not None and not np.any(mask)):
         return 0
-    return int(np.unique(combined_codes(frame, columns, mask)).size)
+    codes, space = combined_codes_and_space(frame, columns, mask)
+    if space <= max(8 * codes.size, 1 << 20):  # a counting pass, no sort
+        return int(np.count_nonzero(np.bincount(codes, minlength=space)))
+    return int(pd.unique(codes).size)
 
 
 def _combine(arrays: Sequence[Any], n_rows: int) -> tuple[np.ndarray, int]:

@@ -22,12 +22,14 @@ columns are text as written, only an empty cell is missing there (the rules of
 from __future__ import annotations
 
 import lzma
+import operator
 import re
 import warnings
 import zipfile
 import zlib
 from collections import Counter
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
+from functools import reduce
 from pathlib import Path
 
 import numpy as np
@@ -85,7 +87,9 @@ def sql_key(key: str) -> str:
 def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
                  allow_empty: bool = False,
                  row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None,
-                 since: tuple[str, pd.Timestamp] | None = None) -> pd.DataFrame:
+                 since: tuple[str, pd.Timestamp] | None = None,
+                 pairs: tuple[str, Mapping[pd.Timestamp, Sequence[pd.Timestamp]]] | None = None
+                 ) -> pd.DataFrame:
     """Read ``columns`` from a file or folder, or a table or query (an
     :class:`~accuracy_checks.config.SqlSource`: :mod:`accuracy_checks.sources.sql`), and
     convert them to their kinds.
@@ -95,6 +99,10 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
     files are read whole. A dataset (a URL, a folder of Hive partitions) takes both filters
     into the read, ``since`` = (date column, first date) too: files of partitions outside them
     are never opened (:mod:`accuracy_checks.sources.datasets`); callers filter the rows again.
+    ``pairs`` = (issue-date column, issue date → dates of ``row_filter``'s column): Parquet
+    files whose two columns are naive timestamps keep only those (issue date, date) pairs,
+    filtered while reading (row groups outside them skipped by their statistics); other places
+    ignore it (callers prune the rows anyway).
     """
     if datasets.is_dataset(path):
         fmts = {c.name: c.fmt for c in columns if c.kind == "date"}
@@ -109,7 +117,7 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
     if isinstance(path, SqlSource):
         return sql.read_sql_columns(path, columns, role=role, key=sql_key(key),
                                     allow_empty=allow_empty, row_filter=row_filter)
-    parts = [_read_file(f, columns, role=role, row_filter=row_filter)
+    parts = [_read_file(f, columns, role=role, row_filter=row_filter, pairs=pairs)
              for f in list_files(path, role, key)]
     frame = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)
     if len(frame) == 0 and not allow_empty:
@@ -121,7 +129,9 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
 
 
 def _read_file(file: Path, columns: Sequence[Column], *, role: str,
-               row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
+               row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None,
+               pairs: tuple[str, Mapping[pd.Timestamp, Sequence[pd.Timestamp]]] | None = None
+               ) -> pd.DataFrame:
     """One file's ``columns``, checked against its header, read raw and converted."""
     is_parquet = file.suffix.lower() in PARQUET
     check_header(file, columns, role)
@@ -129,7 +139,7 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
         if is_parquet:
             wanted = list(dict.fromkeys(c.name for c in columns))
             frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"],
-                                  row_filter)
+                                  row_filter, pairs)
         else:
             frame = _read_csv_columns(file, columns, role)
     except READ_ERRORS as exc:
@@ -280,7 +290,9 @@ def _check_trailing_fields(file: Path, n_header: int, role: str) -> None:
 
 
 def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],
-                  row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None) -> pd.DataFrame:
+                  row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None,
+                  pairs: tuple[str, Mapping[pd.Timestamp, Sequence[pd.Timestamp]]] | None = None
+                  ) -> pd.DataFrame:
     import pyarrow as pa
     import pyarrow.compute as pc
     import pyarrow.parquet as pq
@@ -292,8 +304,20 @@ def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],
     expression = None
     if row_filter is not None and pa.types.is_timestamp(schema.field(row_filter[0]).type):
         kind = schema.field(row_filter[0]).type
-        dates = pa.array([pd.Timestamp(d).to_datetime64() for d in row_filter[1]]).cast(kind)
-        expression = pc.field(row_filter[0]).isin(dates)
+
+        def dates(values: Sequence[pd.Timestamp], kind: object = kind) -> object:
+            return pa.array([pd.Timestamp(d).to_datetime64() for d in values]).cast(kind)
+
+        expression = pc.field(row_filter[0]).isin(dates(row_filter[1]))
+        issued = schema.field(pairs[0]).type if pairs is not None else None
+        if (pairs is not None and issued is not None and kind.tz is None
+                and pa.types.is_timestamp(issued) and issued.tz is None):
+            # the (issue date, period) pairs the evaluation uses: row groups of other cycles
+            # or periods are skipped by their statistics, the rest filtered natively
+            terms = [(pc.field(pairs[0]) == pa.scalar(pd.Timestamp(cycle).to_datetime64())
+                      .cast(issued)) & pc.field(row_filter[0]).isin(dates(targets))
+                     for cycle, targets in pairs[1].items()]
+            expression = reduce(operator.or_, terms) if terms else pc.scalar(False)
     table = pq.read_table(file, columns=wanted, read_dictionary=strings, filters=expression)
     return table.to_pandas()
 

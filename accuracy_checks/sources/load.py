@@ -26,7 +26,7 @@ import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.config.places import Url
-from accuracy_checks.evaluation.join import prune_earlier, window_periods
+from accuracy_checks.evaluation.join import cycle_targets, prune_earlier, window_periods
 from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
 from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources import frames as F
@@ -244,9 +244,12 @@ def _read_history(config: Config, issued: pd.Timestamp, span: list[pd.Timestamp]
         return history, history_cycles
     for p in config.history_paths:
         starts = cycle_starts(p, config, periods=span)
+        # the cycles known before reading: only their (issue date, period) pairs are read
+        pairs = (cycle_targets(starts.loc[starts.index < issued], periods=span, lags=lags,
+                               frequency=config.frequency) if starts is not None else None)
         part = read_forecast(config, p, role="history", key="history",
                              segment_columns=seg_cols, allow_empty=True,
-                             periods=span if starts is not None else None)
+                             periods=span if starts is not None else None, cycles=pairs)
         if starts is None:
             starts = part.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
         history_cycles |= {pd.Timestamp(t) for t in starts.index}

@@ -15,9 +15,11 @@ proper message. So a run reads only the recent actuals and the earlier forecasts
 
 from __future__ import annotations
 
+import json
 from pathlib import Path
 from typing import Any
 
+import numpy as np
 import pandas as pd
 from pandas.errors import OutOfBoundsDatetime
 
@@ -61,10 +63,9 @@ def cycle_starts(path: Place, config: Config, *, role: str = "history",
             schema = pq.read_schema(f)
             if not all(is_timestamp(schema, n) for n in (issued, period)):
                 return None
-            table = pq.read_table(f, columns=[issued, period])
+            parts.append(_file_starts(pq.ParquetFile(f), issued, period))
         except (OSError, ValueError):
             return None  # the full read reports the problem with its proper message
-        parts.append(table.group_by(issued).aggregate([(period, "min")]).to_pandas())
     if not parts:
         return None
     starts = pd.concat(parts, ignore_index=True)
@@ -75,6 +76,58 @@ def cycle_starts(path: Place, config: Config, *, role: str = "history",
         return out.astype("datetime64[ns]") if len(out) else out
     except (OutOfBoundsDatetime, OverflowError):
         return None  # dates beyond the calendar: the full read names them
+
+
+#: Parquet's timestamp units → numpy's
+_UNITS = {"milliseconds": "ms", "microseconds": "us", "nanoseconds": "ns"}
+
+
+def _file_starts(file: Any, issued: str, period: str) -> pd.DataFrame:
+    """The first period of every cycle in one Parquet file (columns ``issued`` and
+    ``<period>_min``), from the row groups' statistics where they tell it without reading a
+    row: a row group whose issue dates are all one date (min = max, no missing one) adds
+    (that date, its smallest period). Only the other row groups — those that straddle two
+    cycles, lack statistics or hold missing dates — are read, and only their two date
+    columns. A file sorted or partitioned by issue date (docs/inputs.md) is thus never read
+    here; any other file costs at most the old full read of the two columns."""
+    names = [file.schema.column(i).path for i in range(len(file.schema))]
+    at = [names.index(n) if names.count(n) == 1 else -1 for n in (issued, period)]
+    units = {_naive_unit(file.schema.column(i)) if i >= 0 else None for i in at}
+    meta = file.metadata
+    known: list[tuple[int, int]] = []
+    unread: list[int] = []
+    for r in range(meta.num_row_groups):
+        group = meta.row_group(r)
+        if group.num_rows == 0:
+            continue
+        day, first = (group.column(i).statistics if i >= 0 else None for i in at)
+        if (len(units) == 1 and None not in units and day is not None and first is not None
+                and day.has_min_max and day.has_null_count and first.has_min_max
+                and day.null_count == 0 and day.min_raw == day.max_raw):
+            known.append((day.min_raw, first.min_raw))
+        else:
+            unread.append(r)
+    parts = []
+    if known:
+        unit = next(iter(units))
+        raw = np.array(known, dtype=np.int64)
+        parts.append(pd.DataFrame({issued: raw[:, 0].astype(f"datetime64[{unit}]"),
+                                   f"{period}_min": raw[:, 1].astype(f"datetime64[{unit}]")}))
+    if unread or not parts:
+        table = file.read_row_groups(unread, columns=[issued, period])
+        parts.append(table.group_by(issued).aggregate([(period, "min")]).to_pandas())
+    return pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
+
+
+def _naive_unit(column: Any) -> str | None:
+    """The numpy unit of a Parquet column of naive timestamps stored as INT64 (its
+    statistics are then exact wall-clock values), else ``None``."""
+    if column.physical_type != "INT64":
+        return None
+    logical = json.loads(column.logical_type.to_json())
+    if logical.get("Type") != "Timestamp" or logical.get("isAdjustedToUTC", True):
+        return None
+    return _UNITS.get(str(logical.get("timeUnit")))
 
 
 def actual_periods(config: Config, path: Place | None = None) -> pd.DatetimeIndex | None:

@@ -7,7 +7,7 @@ segment mapping is read by :func:`accuracy_checks.sources.segments.read_mapping`
 
 from __future__ import annotations
 
-from collections.abc import Sequence
+from collections.abc import Mapping, Sequence
 
 import pandas as pd
 
@@ -54,14 +54,19 @@ def forecast_columns(config: Config) -> list[Column]:
 def read_forecast(config: Config, path: Place | None = None, *, role: str = "forecast",
                   key: str = "forecast.path", segment_columns: Sequence[str] = (),
                   allow_empty: bool = False,
-                  periods: Sequence[pd.Timestamp] | None = None) -> pd.DataFrame:
+                  periods: Sequence[pd.Timestamp] | None = None,
+                  cycles: Mapping[pd.Timestamp, Sequence[pd.Timestamp]] | None = None
+                  ) -> pd.DataFrame:
     """The forecast (or an earlier-cycles file with the same columns), canonical names.
 
     ``path`` is a file or folder, or a table or query (default: the forecast's place).
     ``segment_columns`` present in the file are read too (as text); with ``periods``, Parquet
     files whose period column is a timestamp keep only the rows of those periods (a table:
     ``period IN (…)`` in the WHERE clause; a dataset: the partitions of those periods and, for
-    ``role="history"``, of the cycles issued since :func:`issued_since`)."""
+    ``role="history"``, of the cycles issued since :func:`issued_since`). ``cycles`` (issue
+    date → periods, :func:`~accuracy_checks.evaluation.join.cycle_targets`) narrows a Parquet
+    file of naive timestamps further to those (issue date, period) pairs, so its row groups
+    of other cycles or periods are skipped by their statistics; other places ignore it."""
     path = path or config.forecast.place
     cols = forecast_columns(config)
     names = {c.name for c in cols}
@@ -72,7 +77,8 @@ def read_forecast(config: Config, path: Place | None = None, *, role: str = "for
     since = issued_since(config, periods) if role == "history" else None
     return read_columns(path, cols, role=role, key=key, allow_empty=allow_empty,
                         row_filter=row_filter,
-                        since=(config.forecast.issued, since) if since is not None else None)
+                        since=(config.forecast.issued, since) if since is not None else None,
+                        pairs=(config.forecast.issued, cycles) if cycles is not None else None)
 
 
 def actual_columns(config: Config) -> list[Column]:

@@ -18,6 +18,7 @@ from accuracy_checks.config import Config, Place
 from accuracy_checks.errors import InputError
 from accuracy_checks.results import ALL_SERIES
 from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.codes import combined_codes_and_space
 from accuracy_checks.sources.columns import SHOWN, Column
 from accuracy_checks.sources.files import columns_of, read_columns
 
@@ -191,8 +192,63 @@ def _lookup(frame: pd.DataFrame, mapping: pd.DataFrame, keys: list[str],
             out[c] = pd.Series(pd.Categorical.from_codes(codes, col.cat.categories),
                                index=frame.index)
         return out
+    if all(_shared_categories(frame[k], mapping[k]) for k in keys):
+        rows = _rows_by_codes(frame, mapping, keys)
+        return {c: pd.Series(_taken(mapping[c], rows), index=frame.index) for c in columns}
     joined = frame[keys].merge(mapping[keys + columns], on=keys, how="left", validate="m:1")
     return {c: pd.Series(joined[c].to_numpy(), index=frame.index) for c in columns}
+
+
+def _shared_categories(a: pd.Series, b: pd.Series) -> bool:
+    """Whether both columns are categoricals with the same categories (codes compare)."""
+    return (isinstance(a.dtype, pd.CategoricalDtype) and isinstance(b.dtype, pd.CategoricalDtype)
+            and a.cat.categories.equals(b.cat.categories))
+
+
+def _rows_by_codes(frame: pd.DataFrame, table: pd.DataFrame, keys: list[str]) -> np.ndarray:
+    """The row of ``table`` holding each row's keys (−1: none), on the keys' integer codes.
+
+    The keys of ``table`` must be unique (the mapping's are; a repeated one would be refused
+    by a join as well) and share categories with ``frame``'s. A missing key matches a missing
+    key, as in a join. The combined codes index a dense array when their space is small,
+    else a sorted search."""
+    n, m = len(frame), len(table)
+    # one code space for both: stack the key arrays, combine once
+    arrays = [pd.Categorical.from_codes(
+        np.concatenate([frame[k].cat.codes.to_numpy(), table[k].cat.codes.to_numpy()]),
+        dtype=frame[k].dtype) for k in keys]
+    codes, space = combined_codes_and_space(pd.DataFrame(dict(zip(keys, arrays, strict=True)),
+                                                         copy=False), keys)
+    wanted, have = codes[:n], codes[n:]
+    if space <= max(4 * (n + m), 1 << 22):
+        row_of = np.full(space, -1, dtype=np.int64)
+        row_of[have] = np.arange(m, dtype=np.int64)
+        return row_of[wanted]
+    if m == 0:
+        return np.full(n, -1, dtype=np.int64)
+    order = np.argsort(have, kind="stable")
+    sorted_have = have[order]
+    pos = np.minimum(np.searchsorted(sorted_have, wanted), m - 1)
+    return np.where(sorted_have[pos] == wanted, order[pos], -1)
+
+
+def _taken(column: pd.Series, rows: np.ndarray) -> pd.Categorical:
+    """``column``'s value at each of ``rows`` (missing where −1), as a categorical whose
+    categories are the values taken, sorted (what a join's values cast to a category give)."""
+    col = column if isinstance(column.dtype, pd.CategoricalDtype) else column.astype("category")
+    cats = col.cat.categories
+    codes = col.cat.codes.to_numpy().astype(np.int64)
+    taken = np.where(rows >= 0, codes[np.maximum(rows, 0)], -1)
+    used = np.bincount(taken[taken >= 0], minlength=len(cats)) > 0
+    kept = cats[used]
+    order = None if kept.is_monotonic_increasing else kept.argsort()
+    new_code = np.full(len(cats) + 1, -1, dtype=np.int64)  # last slot: −1 stays −1
+    if order is None:
+        new_code[np.flatnonzero(used)] = np.arange(int(used.sum()))
+    else:
+        new_code[np.flatnonzero(used)[order]] = np.arange(int(used.sum()))
+        kept = kept[order]
+    return pd.Categorical.from_codes(new_code[taken].astype(np.int32), categories=kept)
 
 
 def segments_of_series(frames: Sequence[pd.DataFrame], keys: list[str]) -> pd.DataFrame:
