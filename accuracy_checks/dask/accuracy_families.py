@@ -29,6 +29,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.accuracy_groups import EvaluationGroups
+from accuracy_checks.dask.accuracy_cost import COST_SUMS, cost_cells, cost_figures
 from accuracy_checks.dask.accuracy_intervals import (
     INTERVAL_SUMS,
     interval_figures,
@@ -48,7 +49,7 @@ __all__ = ["FAMILIES", "family_figures", "family_tables", "scale_cut"]
 #: the families this module computes, by measure id → the table each reads
 FAMILIES = {"smape": "smape", "mase": "mase", "fva_naive": "fva_naive",
             "fva_seasonal_naive": "fva_seasonal_naive", "tracking_signal": "periods",
-            "trigg": "periods", **{m: m for m in INTERVAL_SUMS}}
+            "trigg": "periods", "error_cost": "cost", **{m: m for m in INTERVAL_SUMS}}
 #: the sums kept per table (beside the group keys and, for MASE, ``before``; for the
 #: periods, ``period``)
 SUMS = {
@@ -57,9 +58,10 @@ SUMS = {
     "fva_naive": ["n", "sum_f", "sum_b", "sum_y", "n_without"],
     "fva_seasonal_naive": ["n", "sum_f", "sum_b", "sum_y", "n_without"],
     "periods": ["error", "rows"],
+    "cost": COST_SUMS,
 }
-EXTRA_KEYS = {"mase": ["before"], "periods": ["period"], "pinball": ["variant"],
-              "mis": ["variant"], "interval_coverage": ["variant"],
+EXTRA_KEYS = {"mase": ["before"], "periods": ["period"], "cost": ["row_segment"],
+              "pinball": ["variant"], "mis": ["variant"], "interval_coverage": ["variant"],
               "msis": ["variant", "before"]}
 
 
@@ -105,6 +107,8 @@ def family_tables(measures: list[str], data: MeasureData, labels: pd.DataFrame,
             out[f"fva_{kind}"] = labels.assign(**_fva_sums(data, kind))
     if "periods" in wanted:
         out["periods"] = _period_sums(data, labels)
+    if "cost" in wanted and data.settings.costs is not None:
+        out["cost"] = cost_cells(data, labels)
     out.update(interval_tables(wanted, data, labels, history, cuts))
     return out
 
@@ -147,14 +151,17 @@ Table = Callable[[str, list[str], str | None], pd.DataFrame]
 
 
 def family_figures(measure: Measure, data: MeasureData, table: Table,
-                   periods: pd.DataFrame | None, cut: int | None) -> pd.DataFrame:
+                   cells: dict[str, pd.DataFrame | None], cut: int | None) -> pd.DataFrame:
     """The figure frame of a family measure for the groups of ``data``, from the merged
     reductions: ``table(name, columns)`` gives a table's sums in group order (zeros where a
-    group has none); ``periods`` the merged (group number, period) sums; ``cut`` the global
+    group has none); ``cells`` the merged per-(group, period) sums (``periods``) and
+    per-(group, row segment) cost cells (``cost``), with their group number; ``cut`` the global
     MASE cut."""
     n = data.stats["n"].to_numpy(dtype=np.float64)
     if measure.id in INTERVAL_SUMS:
         return interval_figures(measure.id, data, table)
+    if measure.id == "error_cost":
+        return cost_figures(data, cells.get("cost"))
     if measure.id == "smape":
         sums = table("smape", SUMS["smape"], None)
         used = sums["used"].to_numpy(dtype=np.float64)
@@ -169,7 +176,7 @@ def family_figures(measure: Measure, data: MeasureData, table: Table,
         return _mase(data, n, sums)
     if measure.id.startswith("fva_"):
         return _fva(data, table(measure.id, SUMS[measure.id], None), measure.id[4:])
-    rows = _pseudo_rows(data, periods)
+    rows = _pseudo_rows(data, cells.get("periods"))
     got = (tracking_signal_from_data if measure.id == "tracking_signal"
            else trigg_from_data)(rows)
     return got.assign(n_obs=n.astype(np.int64))

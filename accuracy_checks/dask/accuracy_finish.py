@@ -191,14 +191,17 @@ def _figures(measure: Measure, merged: Merged, window: str, grouping: str,
             frame = frame.loc[frame["variant"] == variant]
         return merged.table(frame, window, grouping, columns)
 
-    periods = tables.get("periods")
-    if periods is not None:
-        periods = periods.loc[(periods["window"] == window) & (periods["grouping"] == grouping)]
-        number = pd.Series(np.arange(len(merged.groups[grouping])),
-                           index=merged.group_index(grouping))
-        keys = pd.MultiIndex.from_frame(periods[["lag", "seg_rank", "segment"]])
-        periods = periods.assign(group=number.reindex(keys).to_numpy())
-    return family_figures(measure, data, table, periods, cut)
+    cells: dict[str, pd.DataFrame | None] = {}
+    number = pd.Series(np.arange(len(merged.groups[grouping])),
+                       index=merged.group_index(grouping))
+    for name in ("periods", "cost"):  # rows per (group, period | row segment)
+        frame = tables.get(name)
+        if frame is not None:
+            frame = frame.loc[(frame["window"] == window) & (frame["grouping"] == grouping)]
+            keys = pd.MultiIndex.from_frame(frame[["lag", "seg_rank", "segment"]])
+            frame = frame.assign(group=number.reindex(keys).to_numpy())
+        cells[name] = frame
+    return family_figures(measure, data, table, cells, cut)
 
 
 def _offenders(results: list[CheckResult], measure: Measure, merged: Merged, window: str,

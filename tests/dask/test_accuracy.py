@@ -121,8 +121,11 @@ VARIANTS = {
     "families": {
         "  min_obs: 20\n": "  min_obs: 5\n  measures: [smape, mase, fva_naive, "
                           "fva_seasonal_naive, tracking_signal, trigg, interval_coverage, "
-                          "pinball, mis, msis]\n",
+                          "pinball, mis, msis, error_cost]\n",
+        "thresholds:\n": "costs:\n  currency: EUR\n  default: {under: 2, over: 1}\n"
+                          "  segments:\n    pet-care: {under: 5, over: 1}\nthresholds:\n",
         "  default:\n": "  default:\n    smape: {warn: 5, fail: 30}\n"
+                       "    error_cost: {warn: 100}\n"
                        "    mase: {warn: 0.2, fail: 0.8}\n    tracking_signal: {warn: 0.1}\n"
                        "    trigg: {warn: 0.05}\n    fva_naive: {warn: 50}\n"
                        "    mae: {warn: 1}\n    me: {warn: 0.01}\n"
@@ -134,7 +137,9 @@ VARIANTS = {
                                           "  tracking_window: 9\n  seasonal_period: 3\n",
         "  min_obs: 20\n": "  min_obs: 1\n  offenders: 3\n  measures: [smape, mase, "
                           "tracking_signal, trigg, fva_seasonal_naive, interval_coverage, "
-                          "pinball, mis, msis]\n  coverage_test_level: 0.5\n",
+                          "pinball, mis, msis, error_cost]\n  coverage_test_level: 0.5\n",
+        "thresholds:\n": "costs:\n  segments:\n    pet-care: {under: 5, over: 1}\n"
+                          "    seasonal-plants: {under: 1, over: 3}\nthresholds:\n",
         "  default:\n": "  default:\n    rmse: {warn: 0.5}\n    sde: {warn: 0.5}\n"
                        "    mape: {warn: 0.5}\n",
     },
