@@ -12,7 +12,7 @@ from __future__ import annotations
 
 import time
 import uuid
-from collections.abc import Callable, Mapping
+from collections.abc import Callable, Collection, Mapping
 from datetime import UTC, datetime
 from pathlib import Path
 from types import EllipsisType
@@ -50,11 +50,12 @@ from accuracy_checks.store.archive import (
 from accuracy_checks.store.remote_archive import open_archive
 
 if TYPE_CHECKING:
+    from accuracy_checks.config.engines import Engine
     from accuracy_checks.store import Store
     from accuracy_checks.store.remote_archive import RemoteStaged
 
 __all__ = ["ARCHIVE_CHECK", "archived_cycles", "evaluate", "given_frames", "run_checks",
-           "unmatched_thresholds"]
+           "unmatched_segments", "unmatched_thresholds"]
 
 T = TypeVar("T")
 ARCHIVE_CHECK = "archive.snapshot"
@@ -179,7 +180,8 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
                actuals_path: Path | Url | None = None, progress: Progress | None = None,
                snapshot: bool = True, label: str | None = None,
                forecast: object = None, actuals: object = None, history: object = None,
-               mapping: object = None) -> RunReport:
+               mapping: object = None, engine: str | None = None,
+               scheduler: str | None = None) -> RunReport:
     """Run every check of ``config`` on the current forecast, record the run, return it.
 
     ``forecast``, ``actuals``, ``history`` (one frame or a list) and ``mapping`` take pandas
@@ -202,6 +204,10 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     written: then nothing is recorded and nothing archived. Both are checked before the checks
     run where they can be (a file where a folder should be, a folder that cannot be written,
     a store that does not answer).
+
+    ``engine`` (``pandas`` or ``dask``) and ``scheduler`` (a Dask scheduler's address) override
+    the config's ``engine`` key. The dask engine (:mod:`accuracy_checks.dask`) replaces the
+    reading and the checks (same results); drift, waivers and the record are the same code.
     """
     from accuracy_checks.store import open_store
 
@@ -211,31 +217,76 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     frames = given_frames(forecast=forecast, actuals=actuals, history=history,
                           mapping=mapping, forecast_path=forecast_path,
                           actuals_path=actuals_path)
+    settings = _engine_settings(config, engine, scheduler)
     recorded = _prepare_store_and_archive(config, snapshot=snapshot, progress=progress)
-    inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
-                         progress=progress, archive=archived_cycles(config, recorded),
-                         frames=frames)
-    results = evaluate(config, inputs, progress=progress)
-    cycle = cycle_label(inputs.issued)
-    with open_store(config) as store:
-        results = _drift_and_waivers(config, results, store, cycle=cycle, started=started,
-                                     progress=progress)
-        staged = _stage_snapshot(config, inputs, progress) if snapshot else None
-        report = RunReport(
-            run_id=run_id,
-            cycle=cycle,
-            attempt=None,
-            results=results,
-            started_at=started.isoformat(timespec="seconds"),
-            finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
-            config_path=str(config.source) if config.source else None,
-            inputs=inputs.info,
-            evaluated_cycles=_evaluated_cycles(results),
-            label=label,
-        )
-        _record(config, store, report, staged, forecast_path=forecast_path,
-                actuals_path=actuals_path, progress=progress)
+    staged: StagedSnapshot | RemoteStaged | None = None
+    inputs: Inputs | None = None
+    if settings.name == "dask":
+        from accuracy_checks.dask.cluster import open_client
+        from accuracy_checks.dask.run import evaluate_on_dask
+
+        with open_client(settings) as client:
+            done = evaluate_on_dask(config, client, forecast_path=forecast_path,
+                                    actuals_path=actuals_path, progress=progress,
+                                    archive=archived_cycles(config, recorded), frames=frames,
+                                    snapshot=snapshot)
+        results = done.results + unmatched_segments(config, done.segments)
+        issued, info, staged = done.issued, done.info, done.staged
+    else:
+        inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
+                             progress=progress, archive=archived_cycles(config, recorded),
+                             frames=frames)
+        results = evaluate(config, inputs, progress=progress)
+        issued, info = inputs.issued, inputs.info
+    cycle = cycle_label(issued)
+    try:
+        with open_store(config) as store:
+            results = _drift_and_waivers(config, results, store, cycle=cycle,
+                                         started=started, progress=progress)
+            if snapshot and inputs is not None:
+                staged = _stage_snapshot(config, inputs, progress)
+            report = RunReport(
+                run_id=run_id,
+                cycle=cycle,
+                attempt=None,
+                results=results,
+                started_at=started.isoformat(timespec="seconds"),
+                finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
+                config_path=str(config.source) if config.source else None,
+                inputs=info,
+                evaluated_cycles=_evaluated_cycles(results),
+                label=label,
+            )
+            _record(config, store, report, staged, forecast_path=forecast_path,
+                    actuals_path=actuals_path, progress=progress)
+    except BaseException:
+        if staged is not None and _still_staged(staged):
+            staged.discard()
+        raise
     return report
+
+
+def _still_staged(staged: StagedSnapshot | RemoteStaged) -> bool:
+    """Whether a staged snapshot still waits in the staging folder (not placed yet)."""
+    path = getattr(staged, "path", None)
+    return isinstance(path, Path) and path.exists()
+
+
+def _engine_settings(config: Config, engine: str | None, scheduler: str | None) -> Engine:
+    """The config's ``engine`` key with the command line's overrides."""
+    from accuracy_checks.config.engines import Engine
+
+    current = config.engine
+    name = engine or current.name
+    if name not in ("pandas", "dask"):
+        raise UsageError(f"Unknown engine {name!r}: give pandas or dask.")
+    if name == "pandas":
+        if scheduler:
+            raise UsageError("--scheduler applies to the dask engine: add --engine dask.")
+        return Engine(name="pandas")
+    if scheduler:
+        return Engine(name="dask", scheduler=scheduler)
+    return current if current.name == "dask" else Engine(name="dask")
 
 
 def given_frames(*, forecast: object = None, actuals: object = None, history: object = None,
@@ -385,11 +436,18 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = quiet) -> l
 
 def unmatched_thresholds(config: Config, inputs: Inputs) -> list[CheckResult]:
     """A warning for each ``thresholds.segments`` entry that matches no series."""
-    import difflib
-
     names = set(inputs.forecast[F.SEGMENT].unique()) | set(inputs.actuals[F.SEGMENT].unique())
     if len(inputs.earlier):
         names |= set(inputs.earlier[F.SEGMENT].unique())
+    return unmatched_segments(config, names)
+
+
+def unmatched_segments(config: Config, names: Collection[object]) -> list[CheckResult]:
+    """A warning for each ``thresholds.segments`` entry not among the segment ``names`` of
+    the data (forecast, actuals, earlier cycles)."""
+    import difflib
+
+    names = set(names)
     names.discard(F.UNASSIGNED)
     out = []
     for seg in config.thresholds.segments:

@@ -46,8 +46,11 @@ def grid_positions(dates: pd.Series | pd.DatetimeIndex,
         )
         origin = offset.rollback(_ORIGIN) if isinstance(offset, Week) else _ORIGIN
         delta = values.asi8 - pd.Timestamp(origin).as_unit("ns").value
-        pos = -((-delta) // step)  # ceil: an off-grid date maps to the next grid point
-        return pos.astype(np.int64), (delta % step == 0)
+        # ceil(delta / step) as floor((delta + step − 1) / step), in place: an off-grid date
+        # maps to the next grid point (the calendar's last day lies far below 2**63 − step)
+        pos = delta + (step - 1)
+        np.floor_divide(pos, step, out=pos)
+        return pos.astype(np.int64, copy=False), np.multiply(pos, step) == delta
     codes, uniques = pd.factorize(values, sort=True)
     try:
         first = pd.Timestamp(offset.rollback(uniques[0])).as_unit("ns")

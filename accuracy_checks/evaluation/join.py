@@ -131,6 +131,18 @@ def prune_earlier(earlier: pd.DataFrame, *, periods: list[pd.Timestamp], lags: l
         return earlier
     if starts is None:
         starts = earlier.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
+    starts = starts.sort_index()
+    issued = earlier[F.ISSUED].to_numpy(dtype="datetime64[ns]")
+    cycle = np.minimum(starts.index.searchsorted(issued), max(len(starts) - 1, 0))
+    if len(starts) and (starts.index.to_numpy(dtype="datetime64[ns]")[cycle] == issued).all():
+        # every row's cycle is known: lags from the few cycles' grid positions, one cut
+        first = starts.to_numpy()
+        first_pos, _ = grid_positions(pd.Series(first), frequency)
+        pos, _ = grid_positions(earlier[F.PERIOD], frequency)
+        lag = pos - first_pos[cycle] + 1
+        kept = earlier[F.PERIOD].isin(periods).to_numpy() & np.isin(lag, lags)
+        return earlier.loc[kept].assign(**{CYCLE_START: first[cycle[kept]],
+                                            F.LAG: lag[kept]}).reset_index(drop=True)
     rows = earlier.loc[earlier[F.PERIOD].isin(periods)]
     first = starts.reindex(pd.DatetimeIndex(rows[F.ISSUED])).to_numpy()
     rows = rows.assign(**{CYCLE_START: first})

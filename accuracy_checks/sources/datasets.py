@@ -34,7 +34,9 @@ a damaged file in the span; an unknown scheme is refused when the config is read
 from __future__ import annotations
 
 import os
+import shutil
 import tempfile
+import weakref
 from collections.abc import Sequence
 from dataclasses import dataclass, field
 from pathlib import Path
@@ -96,7 +98,8 @@ class Dataset:
     files: list[str]
     kind: str  # "parquet" | "csv"
     partitions: dict[str, list[str]] = field(default_factory=dict)  # column → value per file
-    _tmp: Any = None  # a downloaded https:// file's folder, kept while the dataset lives
+    _tmp: Any = None  # removes a downloaded https:// file's folder (at the latest with the
+    #                   dataset; read_dataset_columns calls it when done)
 
 
 def is_dataset(place: object) -> TypeGuard[Url | Path]:
@@ -183,15 +186,15 @@ def _download(text: str, url: Url, key: str) -> tuple[Any, str, Any]:
 
     import pyarrow.fs as pafs
 
-    tmp = tempfile.TemporaryDirectory(prefix="accuracy-checks-")
-    target = Path(tmp.name) / (url.name or "download")
+    tmp = tempfile.mkdtemp(prefix="accuracy-checks-")
+    target = Path(tmp) / (url.name or "download")
     try:
         with urllib.request.urlopen(text, timeout=REQUEST_TIMEOUT_S) as response, \
                 open(target, "wb") as out:
             while chunk := response.read(1 << 20):
                 out.write(chunk)
     except (urllib.error.URLError, OSError, ValueError) as exc:
-        tmp.cleanup()
+        shutil.rmtree(tmp, ignore_errors=True)
         raise InputError(
             f"Cannot read {url} (config key `{key}`): {_why(exc)}. Check the address and that "
             f"the server answers within {REQUEST_TIMEOUT_S} s."
@@ -269,7 +272,10 @@ def open_dataset(place: Url | Path, role: str, key: str) -> Dataset:
             name, eq, value = part.partition("=")
             if eq:
                 partitions.setdefault(name, [""] * len(files))[i] = unquote(value)
-    return Dataset(shown, fs, base, files, kinds.pop(), partitions, tmp)
+    data = Dataset(shown, fs, base, files, kinds.pop(), partitions)
+    if tmp is not None:
+        data._tmp = weakref.finalize(data, shutil.rmtree, tmp, ignore_errors=True)
+    return data
 
 
 def _choose(data: Dataset, filters: Sequence[DateFilter], role: str) -> list[str]:
@@ -289,9 +295,10 @@ def _choose(data: Dataset, filters: Sequence[DateFilter], role: str) -> list[str
     return [f for f, k in zip(data.files, keep, strict=True) if k]
 
 
-def dataset_columns(data: Dataset, role: str, key: str) -> list[str]:
-    """The column names of the dataset: the newest file's, then its partition columns."""
-    schema = _schema(data, data.files[-1], role, key)
+def dataset_columns(data: Dataset, role: str, key: str, file: str | None = None) -> list[str]:
+    """The column names of the dataset: those of ``file`` (default: the newest file), then
+    its partition columns."""
+    schema = _schema(data, file or data.files[-1], role, key)
     return [*schema.names, *(p for p in data.partitions if p not in schema.names)]
 
 
@@ -337,10 +344,9 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
 
     data = open_dataset(place, role, key)
     files = _choose(data, filters, role)
-    present = dataset_columns(data, role, key) if files or not allow_empty else []
-    if files:
-        refuse_missing(columns, present, f"{role} {data.shown}",
-                       "Fix the column name in the config or in the data.")
+    if files:  # the newest file read: one outside the filters is never opened
+        refuse_missing(columns, dataset_columns(data, role, key, files[-1]),
+                       f"{role} {data.shown}", "Fix the column name in the config or in the data.")
     wanted = list(dict.fromkeys(c.name for c in columns))
     if files:
         fmt = _format(data, [n for n in wanted if n not in data.partitions])
@@ -379,6 +385,8 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
         frame = table.to_pandas()
     else:
         frame = pd.DataFrame({n: pd.Series([], dtype=object) for n in wanted})
+    if data._tmp is not None:
+        data._tmp()  # the downloaded file is read: remove it now
     if len(frame) == 0 and not allow_empty:
         raise InputError(
             f"The {role} {data.shown} (config key `{key}`) has no rows; "

@@ -161,6 +161,83 @@ def test_a_missing_column_or_an_empty_prefix_is_an_input_error(tmp_path: Path) -
         datasets.open_dataset(tmp_path / "b", "actuals", "k")
 
 
+def test_the_columns_come_from_the_newest_file_the_filters_keep(tmp_path: Path) -> None:
+    """A newer partition outside the filters (damaged here) is not opened for the header."""
+    write_local(tmp_path, {
+        "week=2026-03-02/x.parquet": _parquet(pd.DataFrame({"units": ["1.5"]}), {}),
+        "week=2026-03-09/x.parquet": b"garbage, not Parquet"})
+    columns = [Column("week", "date", "actuals.period", "period"),
+               Column("units", "number", "actuals.value", "actual")]
+    only = datasets.DateFilter("week", (pd.Timestamp("2026-03-02"),))
+    frame = datasets.read_dataset_columns(tmp_path, columns, role="actuals", key="k",
+                                          filters=[only])
+    assert frame["period"].tolist() == [pd.Timestamp("2026-03-02")]
+    assert frame["actual"].tolist() == [1.5]
+    with pytest.raises(InputError, match=r"week=2026-03-09/x.parquet .* cannot be read"):
+        datasets.read_dataset_columns(tmp_path, columns, role="actuals", key="k")
+
+
+@pytest.fixture
+def http_root(tmp_path: Path) -> Iterator[tuple[Path, str]]:
+    """A folder served over HTTP on loopback (Python's own server, one thread per request)."""
+    import functools
+    import threading
+    from http.server import SimpleHTTPRequestHandler, ThreadingHTTPServer
+
+    root = tmp_path / "web"
+    root.mkdir()
+
+    class Quiet(SimpleHTTPRequestHandler):
+        def log_message(self, *args: Any) -> None:
+            pass
+
+    server = ThreadingHTTPServer(("127.0.0.1", 0),
+                                 functools.partial(Quiet, directory=str(root)))
+    threading.Thread(target=server.serve_forever, daemon=True).start()
+    try:
+        yield root, f"http://127.0.0.1:{server.server_address[1]}"
+    finally:
+        server.shutdown()
+        server.server_close()
+
+
+def test_one_file_over_http_gives_the_results_of_the_csv_files(
+        breached: tuple[Project, dict[str, Any]], http_root: tuple[Path, str], tmp_path: Path,
+        capsys: pytest.CaptureFixture[str], monkeypatch: pytest.MonkeyPatch) -> None:
+    """The forecast and the mapping as single files over HTTP (https:// is the same code with
+    TLS); the actuals and history from a local lake. A missing file or a silent server is
+    exit 2 within the timeout, a token in the URL never shown."""
+    project, expected = breached
+    root, base = http_root
+    files = lake(project)
+    write_local(root, {k: v for k, v in files.items() if "/" not in k})
+    write_local(tmp_path / "lake", files)
+    point_config(project, str(tmp_path / "lake"))
+    text = project.config.read_text()
+    for name in ("forecast", "products"):
+        text = text.replace(f"{tmp_path / 'lake'}/{name}.parquet",
+                            f"{base}/{name}.parquet?token=t0p-secret")
+    project.config.write_text(text)
+    assert_same_results(results_of(project, "http"), expected)
+    assert "t0p-secret" not in (project.root / "http.json").read_text()
+    project.config.write_text(text.replace("/forecast.parquet", "/missing.parquet"))
+    assert run(project, "--no-snapshot") == 2
+    err = capsys.readouterr().err
+    assert "Cannot read" in err and "404" in err and "forecast.path" in err
+    assert "t0p-secret" not in err
+    monkeypatch.setattr(datasets, "REQUEST_TIMEOUT_S", 1)
+    with socket.socket() as silent:
+        silent.bind(("127.0.0.1", 0))
+        silent.listen(0)
+        port = silent.getsockname()[1]
+        project.config.write_text(text.replace(base, f"http://127.0.0.1:{port}"))
+        t0 = time.perf_counter()
+        assert run(project, "--no-snapshot") == 2
+        assert time.perf_counter() - t0 < 8
+    err = capsys.readouterr().err
+    assert "Cannot read" in err and "t0p-secret" not in err
+
+
 # ----------------------------------------------------------------------- object storage
 
 
