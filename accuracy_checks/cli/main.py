@@ -55,6 +55,12 @@ def _parser() -> argparse.ArgumentParser:
     run.add_argument("--label", metavar="TEXT",
                      help="a label of the pipeline run kept in the audit record "
                      "(e.g. the scheduler's run id)")
+    run.add_argument("--engine", choices=("pandas", "dask"),
+                     help="the engine (default: the config's `engine`, else pandas); dask "
+                     "checks the series in shards on a Dask cluster, with the same results")
+    run.add_argument("--scheduler", metavar="ADDRESS",
+                     help="the dask engine on a running cluster (tcp://host:8786) instead of "
+                     "a local cluster started for the run")
 
     rep = sub.add_parser("report", help="write the HTML report of the audit trail (charts)")
     rep_where = rep.add_mutually_exclusive_group(required=True)
@@ -174,7 +180,9 @@ def _run(args: argparse.Namespace) -> int:
 
     report = run_checks(config, forecast_path=_place(args.forecast, "--forecast"),
                         actuals_path=_place(args.actuals, "--actuals"),
-                        progress=progress, snapshot=not args.no_snapshot, label=args.label)
+                        progress=progress, snapshot=not args.no_snapshot, label=args.label,
+                        engine=args.engine or ("dask" if args.scheduler else None),
+                        scheduler=args.scheduler)
     if args.json:
         write_json(report, args.json)
     if args.junit:

@@ -151,7 +151,8 @@ def coverage_partial(forecast: pd.DataFrame, actuals: pd.DataFrame, plan: Plan, 
     values = actuals[ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
     periods = actuals[PERIOD].to_numpy(dtype="datetime64[ns]")
     if plan.window_start is None:
-        active, volume = np.zeros(series.n, dtype=bool), np.zeros(series.n)
+        active = np.zeros(series.n, dtype=bool)
+        volume: np.ndarray = np.zeros(series.n)
     else:
         has_value = ~np.isnan(values) & ~np.isnat(periods)
         in_window = has_value & (periods >= plan.window_start)

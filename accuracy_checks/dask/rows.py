@@ -235,7 +235,11 @@ def finish_output(partial: RowsPartial, plan: Plan, *, keys: list[str],
 def _crossing_result(found: RowFindings, qcols: list[str], names: dict[str, str],
                      k: int) -> CheckResult:
     index = {c: i for i, c in enumerate(qcols)}
-    split = [(*p.split("\t"), n) for p, n in found.counts.items() if n]
+    split: list[tuple[str, str, int]] = []
+    for pair, n in found.counts.items():
+        low, high = pair.split("\t")
+        if n:
+            split.append((low, high, n))
     ordered_pairs = sorted(split, key=lambda t: (index[t[0]], index[t[1]]))
     pairs = [(f"{names[low]} > {names[high]}", n) for low, high, n in ordered_pairs]
     shown = ", ".join(f"{pair} in {plural(n, 'row')}" for pair, n in pairs[:3])
