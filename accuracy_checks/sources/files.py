@@ -149,7 +149,7 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
     for c in columns:
         if c.name not in out:
             out[c.name] = convert(frame[c.name], file, c, role, first_line)
-    return pd.DataFrame(out)
+    return pd.DataFrame(out, copy=False)
 
 
 def check_header(file: Path, columns: Sequence[Column], role: str) -> None:
@@ -319,7 +319,7 @@ def _read_parquet(file: Path, wanted: list[str], dictionary: list[str],
                      for cycle, targets in pairs[1].items()]
             expression = reduce(operator.or_, terms) if terms else pc.scalar(False)
     table = pq.read_table(file, columns=wanted, read_dictionary=strings, filters=expression)
-    return table.to_pandas()
+    return table.to_pandas(split_blocks=True, self_destruct=True)
 
 
 def columns_of(path: Place, role: str, key: str) -> list[str]:
