@@ -45,7 +45,7 @@ def accuracy_plan_or_none(config: Config, plan: Plan, archived: ArchivedCycles) 
 
     periods = plan.extra.get("finite_periods", plan.span)
     try:
-        return accuracy_plan(config, actual_periods=list(periods),  # type: ignore[arg-type]
+        return accuracy_plan(config, actual_periods=list(periods),  # type: ignore[call-overload]
                              cycle_starts=_cycle_starts(plan, archived))
     except (NotImplementedError, ConfigError):
         return None

@@ -86,6 +86,9 @@ class CoveragePartial:
     parts: dict[tuple[str, str], Part] = field(default_factory=dict)
     segments: set[str] = field(default_factory=set)
     n_forecast_series: int = 0
+    #: forecast series unknown to the actuals read and the mapping, when the actuals' older
+    #: rows are still to be asked (:func:`resolve_unexpected`): (keys, segment, order, rows)
+    unknown: list[tuple[tuple[str, ...], str, int, int]] = field(default_factory=list)
 
 
 def merge_coverage(parts: Sequence[CoveragePartial], k: int) -> CoveragePartial:
@@ -96,6 +99,7 @@ def merge_coverage(parts: Sequence[CoveragePartial], k: int) -> CoveragePartial:
             out.parts[key] = out.parts.get(key, Part()).merge(part, k)
         out.segments |= p.segments
         out.n_forecast_series += p.n_forecast_series
+        out.unknown += p.unknown
     return out
 
 
@@ -141,9 +145,12 @@ def _steps(series: SeriesIndex, forecast: pd.DataFrame, plan: Plan, frequency: s
 
 def coverage_partial(forecast: pd.DataFrame, actuals: pd.DataFrame, plan: Plan, *,
                      keys: list[str], frequency: str, horizon: int,
-                     known_series: Sequence[pd.DataFrame], max_examples: int
-                     ) -> CoveragePartial:
-    """One shard's coverage partial (frames in reading order, whole series)."""
+                     known_series: Sequence[pd.DataFrame], max_examples: int,
+                     defer_unexpected: bool = False) -> CoveragePartial:
+    """One shard's coverage partial (frames in reading order, whole series).
+    ``defer_unexpected``: the actuals hold only the recent periods; the forecast series they
+    and ``known_series`` do not know are listed in ``unknown`` for :func:`resolve_unexpected`
+    (the older rows name the series they know)."""
     k = max_examples
     series = identify_series(forecast, actuals, keys)
     order = _order_keys(series, forecast, actuals)
@@ -199,8 +206,17 @@ def coverage_partial(forecast: pd.DataFrame, actuals: pd.DataFrame, plan: Plan, 
             example["rows"] = int(n)
         return examples
 
-    add(UNEXPECTED_SERIES, series.in_forecast, series.in_forecast & ~known, no_sort,
-        unexpected_examples)
+    if defer_unexpected:
+        ids = np.flatnonzero(series.in_forecast & ~known)
+        key_rows = forecast.iloc[first_rows(series.f_ids, ids)]
+        values = list(zip(*(key_rows[k].astype(str).tolist() for k in keys), strict=True))
+        out.unknown = [(tuple(v), str(names[i]), int(order[i]), int(rows[i]))
+                       for v, i in zip(values, ids.tolist(), strict=True)]
+        add(UNEXPECTED_SERIES, series.in_forecast, np.zeros(series.n, dtype=bool), no_sort,
+            unexpected_examples)
+    else:
+        add(UNEXPECTED_SERIES, series.in_forecast, series.in_forecast & ~known, no_sort,
+            unexpected_examples)
 
     steps = _steps(series, forecast, plan, frequency, horizon)
     gaps = series.in_forecast & ~steps.present.all(axis=1)
@@ -331,3 +347,21 @@ def _series_count(n_now: int, n_prev: int, previous_label: str | None,
             f"{way} than the {n_prev:,} of {label}; if the change is not planned, look for "
             f"{'new' if way == 'more' else 'dropped'} series")
     return judged(book, value=value, message=message, **common)
+
+
+def resolve_unexpected(partial: CoveragePartial, known: set[tuple[str, ...]], keys: list[str],
+                       k: int) -> None:
+    """Count the deferred unknown series the older actuals did not name (``known``: the key
+    values of those they did) as unexpected, in place: per segment and ``"*"``, with the
+    first ``k`` in the pandas engine's order as examples."""
+    left = sorted((u for u in partial.unknown if u[0] not in known), key=lambda u: u[2])
+    partial.unknown = []
+    for seg in [ALL_SERIES, *sorted(partial.segments)]:
+        mine = [u for u in left if seg == ALL_SERIES or u[1] == seg]
+        part = partial.parts.get((UNEXPECTED_SERIES, seg))
+        if part is None:
+            continue
+        part.n_bad = len(mine)
+        part.shown = [((0.0, order), {**dict(zip(keys, values, strict=True)), "segment": s,
+                                      "rows": rows})
+                      for values, s, order, rows in mine[:k]]

@@ -25,6 +25,7 @@ from accuracy_checks.dask.coverage import (
     coverage_partial,
     finish_coverage,
     merge_coverage,
+    resolve_unexpected,
 )
 from accuracy_checks.dask.read import ORDER, SHARD
 from accuracy_checks.dask.rows import (
@@ -121,7 +122,8 @@ def shard_task(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd.D
     known = [t for t in (inputs.mapping, inputs.older) if t is not None]
     cov = coverage_partial(inputs.forecast, inputs.actuals, plan, keys=keys,
                            frequency=config.frequency, horizon=config.horizon,
-                           known_series=known, max_examples=MAX_EXAMPLES)
+                           known_series=known, max_examples=MAX_EXAMPLES,
+                           defer_unexpected=plan.cut_actuals and not prepared)
     earlier = inputs.earlier
     counts = {
         "forecast_series": n_distinct(inputs.forecast, keys) if len(inputs.forecast) else 0,
@@ -234,6 +236,9 @@ def run_shards(config: Config, client: Any, job: Job, *, progress: Progress,
                              max_examples=MAX_EXAMPLES)
     results += finish_actuals(merged.actuals, column=config.actuals.value,
                               max_examples=MAX_EXAMPLES)
+    if merged.coverage.unknown:
+        found = _older_known(client, job, merged.coverage.unknown, keys)
+        resolve_unexpected(merged.coverage, found, keys, MAX_EXAMPLES)
     previous = archived.previous
     n_prev = None
     if previous is not None:
@@ -289,3 +294,28 @@ def _info(config: Config, job: Job, counts: dict[str, int]) -> dict[str, object]
                     "archive_rows": counts.get("earlier", 0) - counts.get("history", 0)},
         **{k: v for k, v in places.items() if k not in ("forecast", "actuals")},
     }
+
+
+def older_known(item: Any, *, reader: Any, wanted: pd.DataFrame) -> set[tuple[str, ...]]:
+    """The series of ``wanted`` (key columns) that one actuals piece names (any row)."""
+    frame = reader(item)
+    keys = list(wanted.columns)
+    if not len(frame):
+        return set()
+    hit = frame[keys].drop_duplicates().merge(wanted, on=keys, how="inner")
+    return set(zip(*(hit[k].astype(str).tolist() for k in keys), strict=True))
+
+
+def _older_known(client: Any, job: Job, unknown: list[Any],
+                 keys: list[str]) -> set[tuple[str, ...]]:
+    """Which deferred unknown series the actuals' older rows name: a semi-join of the (few)
+    unknown series with every actuals piece's key columns, on the workers."""
+    pieces = job.info.get("older_pieces") or []
+    if not pieces:
+        return set()
+    wanted = pd.DataFrame([u[0] for u in unknown], columns=keys).drop_duplicates()
+    wanted = wanted.astype({k: "str" for k in keys})
+    wanted_f = client.scatter(wanted, broadcast=True)
+    found = client.gather(client.map(older_known, pieces, reader=job.info["older_reader"],
+                                     wanted=wanted_f, pure=False))
+    return set().union(*found)

@@ -72,9 +72,32 @@ def local_files(place: object, role: str, key: str) -> list[Path] | None:
     return list_files(place, role, key)
 
 
-def pieces(files: Sequence[Path], role: str, *, start: int = 0,
-           rows: int = PIECE_ROWS) -> list[Piece]:
-    """The pieces of ``files`` in reading order, numbered from ``start``."""
+def _dates_in(meta: Any, group: int, column: str | None,
+              wanted: Sequence[pd.Timestamp] | None) -> bool:
+    """Whether a Parquet row group may hold a row dated one of ``wanted`` (its statistics of
+    ``column``; no statistics, no filter: ``True``)."""
+    if column is None or wanted is None:
+        return True
+    rg = meta.row_group(group)
+    names = [rg.column(i).path_in_schema for i in range(rg.num_columns)]
+    if column not in names:
+        return True
+    stats = rg.column(names.index(column)).statistics
+    if stats is None or not stats.has_min_max:
+        return True
+    try:
+        lo, hi = pd.Timestamp(stats.min), pd.Timestamp(stats.max)
+    except (TypeError, ValueError):
+        return True
+    return any(lo <= pd.Timestamp(w) <= hi for w in wanted)
+
+
+def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int = PIECE_ROWS,
+           column: str | None = None,
+           wanted: Sequence[pd.Timestamp] | None = None) -> list[Piece]:
+    """The pieces of ``files`` in reading order, numbered from ``start``. With ``column`` and
+    ``wanted`` dates, the Parquet row groups whose statistics of that date column hold none of
+    them are left out (never read): the span's filter pushed into the read."""
     import pyarrow.parquet as pq
 
     out: list[Piece] = []
@@ -87,14 +110,22 @@ def pieces(files: Sequence[Path], role: str, *, start: int = 0,
         except READ_ERRORS as exc:
             raise InputError(f"The {role} file {file} cannot be read: {why(exc)}") from None
         group: list[int] = []
-        first = n = 0
+        first = offset = n = 0
         for i in range(meta.num_row_groups):
-            if group and n + meta.row_group(i).num_rows > rows:
+            size = meta.row_group(i).num_rows
+            keep = _dates_in(meta, i, column, wanted)
+            # a piece is a run of consecutive row groups (its rows numbered from its first)
+            if group and (not keep or n + size > rows):
                 out.append(Piece(file, role, tuple(group), first, start + len(out)))
-                first, group, n = first + n, [], 0
-            group.append(i)
-            n += meta.row_group(i).num_rows
-        out.append(Piece(file, role, tuple(group), first, start + len(out)))
+                group, n = [], 0
+            if keep:
+                if not group:
+                    first = offset
+                group.append(i)
+                n += size
+            offset += size
+        if group:
+            out.append(Piece(file, role, tuple(group), first, start + len(out)))
     return out
 
 
@@ -124,25 +155,45 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
         columns={c.name: c.canonical for c in columns if c.canonical})
     if rename:
         frame = frame.rename(columns=rename)
+    if n_shards:
+        frame[SHARD] = shard_of(frame, keys, n_shards)
     for k in [*keys, *(t for t in text if t in frame.columns)]:
         frame[k] = _text(frame[k])
     frame[ORDER] = (np.int64(piece.ordinal) << _ROW_BITS) + np.arange(len(frame), dtype=np.int64)
-    if n_shards:
-        frame[SHARD] = shard_of(frame, keys, n_shards)
     return frame
 
 
 def _text(column: pd.Series) -> pd.Series:
     """A key or segment column as plain text (the converters give categoricals of text);
-    missing stays missing."""
-    return column.astype(object).astype("str")
+    missing stays missing. A categorical's categories are taken by code in Arrow (no Python
+    string per row)."""
+    import pyarrow as pa
+
+    if not isinstance(column.dtype, pd.CategoricalDtype):
+        return column.astype(object).astype("str")
+    codes = column.cat.codes.to_numpy()
+    cats = pa.array(np.asarray(column.cat.categories, dtype=object), pa.large_string())
+    taken = cats.take(pa.array(codes, mask=codes < 0))
+    return pd.Series(taken.to_pandas(types_mapper=lambda _: pd.StringDtype("pyarrow",
+                                                                           na_value=np.nan)),
+                     index=column.index, name=column.name)
+
+
+def _column_hash(column: pd.Series) -> np.ndarray:
+    """A uint64 hash of each value's text (a categorical: its categories hashed once)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        cats = pd.util.hash_array(np.asarray(column.cat.categories.astype(str), dtype=object))
+        return cats[column.cat.codes.to_numpy()]
+    return pd.util.hash_pandas_object(column.astype(object).astype("str"),
+                                      index=False).to_numpy()
 
 
 def shard_of(frame: pd.DataFrame, keys: Sequence[str], n_shards: int) -> np.ndarray:
     """The shard of each row: a hash of its key columns' text modulo ``n_shards`` (the same
-    for a series in every input)."""
-    text = frame[list(keys)].astype(object).astype("str")
-    hashed = pd.util.hash_pandas_object(text, index=False).to_numpy()
+    for a series in every input, whatever the columns' dtypes)."""
+    hashed = np.zeros(len(frame), dtype=np.uint64)
+    for k in keys:
+        hashed = hashed * np.uint64(1_000_003) ^ _column_hash(frame[k])
     return (hashed % np.uint64(n_shards)).astype(np.int32)
 
 

@@ -112,17 +112,20 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
 
     keys = list(config.forecast.keys)
     f_files, a_files, h_places = places
-    f_pieces = pieces(f_files, "forecast")
-    a_pieces = pieces(a_files, "actuals")
-    h_pieces: list[tuple[int, Piece]] = []
-    for i, files in enumerate(h_places):
-        h_pieces += [(i, p) for p in pieces(files, "history", start=len(h_pieces))]
-
     needed = actuals_span(config)
     found = actual_periods(config, actuals_path) if needed is not None else None
     cut = needed is not None and found is not None and len(found) > needed
     kept = tuple(pd.Timestamp(p) for p in found[-needed:]) if cut and found is not None \
         and needed is not None else None
+
+    f_pieces = pieces(f_files, "forecast")
+    every_a = pieces(a_files, "actuals")
+    # the actuals read: only the row groups that may hold a kept period
+    a_pieces = pieces(a_files, "actuals", column=config.actuals.period, wanted=kept) \
+        if kept is not None else every_a
+    h_pieces: list[tuple[int, Piece]] = []  # every row: the cycles' first periods
+    for i, files in enumerate(h_places):
+        h_pieces += [(i, p) for p in pieces(files, "history", start=len(h_pieces))]
 
     fsum = P.combine_forecast(client.gather(client.map(P.forecast_summary, f_pieces,
                                                        config=config, pure=False)))
@@ -163,24 +166,32 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
               if config.actuals.keys and list(config.actuals.keys) != keys else ())
     actuals = piece_frame(PieceReader(tuple(actual_columns(config)), tuple(keys), n_shards,
                                       rename=rename), a_pieces)
+    # the earlier cycles read: only the row groups that may hold a period of the span
+    used: list[tuple[int, Piece]] = []
+    for i, files in enumerate(h_places):
+        used += [(i, p) for p in pieces(files, "history", start=len(used),
+                                        column=config.forecast.period, wanted=span)]
     history = None
-    if h_pieces:
+    if used:
         h_cols = forecast_columns(config) + _segment_columns(
             config, h_places[0][0], "history")
         history = piece_frame(PieceReader(tuple(h_cols), tuple(keys), n_shards, text=seg_cols,
-                                          after=HistoryPrune(config, plan)), h_pieces)
+                                          after=HistoryPrune(config, plan)), used)
     earlier_starts: list[pd.Series] = []
-    if h_pieces:
+    if used:
         earlier_starts = client.gather(client.map(
-            P.pruned_starts, [p for _, p in h_pieces], [i for i, _ in h_pieces],
+            P.pruned_starts, [p for _, p in used], [i for i, _ in used],
             config=config, plan=plan, pure=False))
+    key_cols = tuple(c for c in actual_columns(config) if c.kind == "key")
+    older = PieceReader(key_cols, rename=rename, text=tuple(keys))
     return M.Job(
         plan=replace(plan, extra={"earlier_starts": P.min_starts(earlier_starts),
                                   "finite_periods": tuple(pd.Timestamp(p)
                                                           for p in sorted(finite))}),
         n_shards=n_shards, forecast=forecast, actuals=actuals, history=history,
         archived=archived, ordinal_base=len(h_pieces),
-        info={"forecast_rows": fsum.rows, "places": {
+        info={"forecast_rows": fsum.rows, "older_pieces": every_a if cut else [],
+              "older_reader": older, "places": {
             "forecast": {"path": str(forecast_path or config.forecast.place)},
             "actuals": {"path": str(actuals_path or config.actuals.place)}}})
 

@@ -128,9 +128,8 @@ def shard_inputs(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd
     forecast = _by_order(_categorical(forecast, keys))
     actuals = _by_order(_categorical(actuals, keys))
     assert forecast is not None and actuals is not None
-    older = None
+    older = None  # the older rows' series are asked later (coverage.resolve_unexpected)
     if plan.cut_actuals:
-        older = actuals[keys].drop_duplicates().reset_index(drop=True)
         kept = actuals[F.PERIOD].isin(list(plan.actual_periods or ())).to_numpy()
         actuals = actuals.loc[kept].reset_index(drop=True)
     refuse_repeated_actuals(actuals, keys, plan.actuals_place)  # type: ignore[arg-type]

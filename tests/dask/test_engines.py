@@ -138,3 +138,33 @@ def test_generated_frames(frames: tuple[pd.DataFrame, pd.DataFrame],
     forecast, actuals = frames
     project = make_project(forecast=forecast, actuals=actuals)
     compare(*both(project.config, cluster))
+
+
+def test_parquet_inputs_with_older_actuals(make_project: Callable[..., Project],
+                                           cluster: str) -> None:
+    """Parquet inputs (timestamps): the actuals cut to the recent periods, a forecast series
+    known only from older actuals rows, an unknown one; pieces by row group."""
+    forecast = forecast_frame(CURRENT)
+    # products outside the mapping: S9/P9 unknown everywhere, S7/P8 known from old actuals
+    extra = forecast.iloc[:4].assign(store="S9", product="P9")
+    old = forecast.iloc[4:8].assign(store="S7", product="P8")
+    forecast = pd.concat([forecast, extra, old], ignore_index=True)
+    actuals = actuals_frame(CURRENT)
+    actuals = pd.concat([actuals, actuals.iloc[:2].assign(store="S7", product="P8")],
+                        ignore_index=True)
+    project = make_project(forecast=forecast, actuals=actuals)
+    for name in ("forecast", "actuals", "earlier"):
+        frame = pd.read_csv(project.data / f"{name}.csv", dtype={"store": str, "product": str})
+        for col in ("week", "issued_on"):
+            if col in frame.columns:
+                frame[col] = pd.to_datetime(frame[col])
+        frame.to_parquet(project.data / f"{name}.parquet", index=False, row_group_size=7)
+    text = project.config.read_text(encoding="utf-8")
+    for name in ("forecast", "actuals", "earlier"):
+        text = text.replace(f"data/{name}.csv", f"data/{name}.parquet")
+    project.config.write_text(text, encoding="utf-8")
+    pandas_report, dask_report = both(project.config, cluster)
+    unexpected = next(r for r in pandas_report.results
+                  if r.check == "coverage.unexpected_series" and r.segment == "*")
+    assert unexpected.value == 1 and unexpected.examples[0]["store"] == "S9"
+    compare(pandas_report, dask_report)
