@@ -299,15 +299,17 @@ def _float(value: object) -> float | None:
 
 
 def run_accuracy(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, *,
-                 book: Thresholds) -> list[CheckResult]:
+                 book: Thresholds, history: ActualsIndex | None = None) -> list[CheckResult]:
     """The accuracy results of a run: evaluation frame → measures → judged results, plus a
-    warning for each rejected measure plugin."""
+    warning for each rejected measure plugin. ``history``: every actual by (series, period)
+    when ``actuals`` holds only the recent periods (``Inputs.history``)."""
     keys = list(config.forecast.keys)
     measures = measures_to_report(config)
     tracking = any(get_measure(m).window == "tracking" for m in measures)
     ev = evaluation_frame(earlier, actuals, keys=keys, frequency=config.frequency,
                           lags=config.evaluation.lags, window=config.evaluation.window,
-                          tracking_window=config.evaluation.tracking_window if tracking else 0)
+                          tracking_window=config.evaluation.tracking_window if tracking else 0,
+                          history=history)
     out = accuracy_results(ev.frame, keys=keys, book=book, measures=measures,
                            lags=config.evaluation.lags, min_obs=config.evaluation.min_obs,
                            window=ev.window, settings=measure_settings(config),

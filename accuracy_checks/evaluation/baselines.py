@@ -94,6 +94,16 @@ def known_through(issued: pd.Series | Sequence[pd.Timestamp], frequency: str) ->
     return (pos - 1)[codes]
 
 
+def _row_positions(actuals: pd.DataFrame, frequency: str) -> tuple[np.ndarray, np.ndarray]:
+    """Grid position of each row's period and whether it is on the grid (computed on the
+    distinct periods only: a history repeats each period per series)."""
+    period_codes, periods = pd.factorize(actuals[F.PERIOD])
+    upos, uon = grid_positions(pd.Series(periods), frequency)
+    upos = np.append(upos, 0)  # code −1 (a missing period) → position 0, off the grid
+    uon = np.append(np.asarray(uon, dtype=bool), False)
+    return upos[period_codes], uon[period_codes]
+
+
 class ActualsIndex:
     """Actuals by (series code, grid position). See the module doc.
 
@@ -152,52 +162,92 @@ class ActualsIndex:
             valid &= codes >= 0
             comb = comb * size + np.maximum(codes, 0)
         self._radix = radix
-        cells = float(np.prod(np.array(radix, dtype=np.float64))) if radix else 1.0
-        # grid positions of the distinct periods only (a history repeats each period per series)
-        period_codes, periods = pd.factorize(actuals[F.PERIOD])
-        upos, uon = grid_positions(pd.Series(periods), frequency)
-        upos = np.append(upos, 0)  # code −1 (a missing period) → position 0, off the grid
-        uon = np.append(np.asarray(uon, dtype=bool), False)
-        pos = upos[period_codes]
-        valid &= uon[period_codes]
+        pos, on_grid = _row_positions(actuals, frequency)
+        valid &= on_grid
         comb = comb[valid]
         pos = pos[valid]
         values = actuals[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)[valid]
+        series = self._number_series(comb, comb.size)
+        p0 = int(pos.min()) if pos.size else 0
+        span = int(pos.max()) - p0 + 1 if pos.size else 1
+        self._store(series, pos - p0, values, p0, span, comb.size)
 
-        # series codes 0 … S−1 (sorted by key codes)
-        if cells <= max(4 * comb.size, 1 << 22):
+    def _number_series(self, comb: np.ndarray, rows: int) -> np.ndarray:
+        """Series codes ``0 … S−1`` of the key combinations ``comb`` (in key-code order, so in
+        the levels' order); sets ``n_series`` and the lookup of :meth:`codes_of`."""
+        cells = float(np.prod(np.array(self._radix, dtype=np.float64))) if self._radix else 1.0
+        if cells <= max(4 * rows, 1 << 22):
             present = np.bincount(comb, minlength=int(cells)) > 0
             self._table: np.ndarray | None = np.full(int(cells), -1, dtype=np.int64)
             observed = np.flatnonzero(present)
             self._table[observed] = np.arange(observed.size, dtype=np.int64)
             self._uniques: pd.Index | None = None
-            series = self._table[comb]
             self.n_series = int(observed.size)
-        else:
-            self._table = None
-            raw, uniques = pd.factorize(comb, sort=True)
-            self._uniques = pd.Index(uniques)
-            series = raw.astype(np.int64, copy=False)
-            self.n_series = len(uniques)
+            return self._table[comb]
+        self._table = None
+        raw, uniques = pd.factorize(comb, sort=True)
+        self._uniques = pd.Index(uniques)
+        self.n_series = len(uniques)
+        return raw.astype(np.int64, copy=False)
 
-        self.p0 = int(pos.min()) if pos.size else 0
-        self.span = int(pos.max()) - self.p0 + 1 if pos.size else 1
-        col = (pos - self.p0).astype(np.int64)
+    def _store(self, series: np.ndarray, col: np.ndarray, values: np.ndarray, p0: int,
+               span: int, rows: int) -> None:
+        """Keep the actuals (``col`` = position − ``p0``): the dense matrix or sorted keys."""
+        self.p0, self.span = p0, span
         self._dense = self.n_series * self.span <= max(
-            _DENSE_CELLS_PER_ROW * comb.size, _DENSE_MIN_CELLS
+            _DENSE_CELLS_PER_ROW * rows, _DENSE_MIN_CELLS
         )
         self._last: np.ndarray | None = None
         if self._dense:  # time-major: a period's actuals are contiguous
             self._matrix = np.full((self.span, max(self.n_series, 1)), np.nan)
             self._matrix[col, series] = values
         else:
-            key = series * self.span + col
-            order = np.argsort(key, kind="stable")
-            self._keys = key[order]
-            self._values = values[order]
-            ok = ~np.isnan(self._values)
-            self._vkeys = self._keys[ok]
-            self._vvalues = self._values[ok]
+            self._set_keys(series * self.span + col, values)
+
+    def _set_keys(self, key: np.ndarray, values: np.ndarray) -> None:
+        order = np.argsort(key, kind="stable")
+        self._keys = key[order]
+        self._values = values[order]
+        ok = ~np.isnan(self._values)
+        self._vkeys = self._keys[ok]
+        self._vvalues = self._values[ok]
+
+    @classmethod
+    def from_parts(cls, keys: Sequence[str], frequency: str, levels: Sequence[pd.Index],
+                   codes: Sequence[np.ndarray], *, p0: int, span: int,
+                   matrix: np.ndarray | None = None,
+                   cells: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
+                   ) -> ActualsIndex:
+        """An index from actuals already reduced (:mod:`accuracy_checks.evaluation.history`):
+        the same answers as the index of every row.
+
+        ``levels`` are the sorted distinct values of each key column; ``codes[k][j]`` the
+        level code of key ``k`` of the ``j``-th series, in any order, each series once.
+        Either ``matrix`` (``span × n`` actuals, column ``j`` for series ``j``, row ``t`` for
+        grid position ``p0 + t``; NaN where none; its columns are reordered in place) or
+        ``cells`` = (series ``j``, row ``t``, actual) of the non-missing actuals.
+        """
+        self = cls.__new__(cls)
+        self.keys, self.frequency = list(keys), frequency
+        self._levels = list(levels)
+        self._categorical = [None] * len(self._levels)
+        self._radix = [max(len(level), 1) for level in self._levels]
+        comb = np.zeros(codes[0].size if len(codes) else 0, dtype=np.int64)
+        for code, size in zip(codes, self._radix, strict=True):
+            comb = comb * size + code
+        final = self._number_series(comb, comb.size)  # key order: the index of every row's
+        self.p0, self.span, self._last = p0, span, None
+        self._dense = matrix is not None
+        if matrix is not None:
+            order = np.argsort(final)
+            for t in range(matrix.shape[0]):  # one period at a time: no second matrix
+                matrix[t, : order.size] = matrix[t, order]
+            self._matrix = matrix[:, : max(order.size, 1)]
+        else:
+            assert cells is not None
+            series, col, values = cells
+            self._set_keys(final[series] * span + col, values)
+        return self
 
     # ------------------------------------------------------------------ addressing
 

@@ -62,13 +62,15 @@ def window_periods(actuals: pd.DataFrame, window: int) -> list[pd.Timestamp]:
 
 def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list[str],
                      frequency: str, lags: list[int], window: int,
-                     tracking_window: int = 0) -> Evaluation:
+                     tracking_window: int = 0, history: ActualsIndex | None = None
+                     ) -> Evaluation:
     """Join earlier forecasts (configured lags, target in a window) with actuals.
 
     Returns the frame with key columns, ``period``, ``issued``, ``lag``, ``segment``,
     ``forecast``, quantile columns, ``actual`` (NaN where not arrived) and the flags
     ``__in_window``/``__in_tracking`` and codes ``__series``; plus the window, the tracking
-    window, the cycles used (with their attempts and sources) and the actuals index.
+    window, the cycles used (with their attempts and sources) and the actuals index
+    (``history`` when given: every actual, when ``actuals`` holds only the recent periods).
     """
     actuals = finite_actuals(actuals)
     periods = window_periods(actuals, max(window, tracking_window))
@@ -82,7 +84,8 @@ def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list
     rows = rows.loc[rows[F.LAG].isin(lags)]
     # a non-finite earlier forecast cannot be scored: count it as dropped, like a missing one
     rows = rows.assign(**{F.FORECAST: rows[F.FORECAST].where(np.isfinite(rows[F.FORECAST]))})
-    history = ActualsIndex(actuals, keys, frequency)
+    if history is None:
+        history = ActualsIndex(actuals, keys, frequency)
     series = history.codes_of(rows)
     position = history.positions(rows[F.PERIOD])
     actual = history.values_at(series, position)

@@ -26,8 +26,10 @@ import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.config.places import Url
+from accuracy_checks.evaluation.baselines import ActualsIndex
+from accuracy_checks.evaluation.history import read_reduced
 from accuracy_checks.evaluation.join import cycle_targets, prune_earlier, window_periods
-from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
+from accuracy_checks.evaluation.spans import actuals_span, evaluation_span, rows_span
 from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.codes import duplicated_rows, n_distinct
@@ -77,6 +79,9 @@ class Inputs:
     #: results about the inputs themselves, reported with the checks' (e.g. an archived
     #: snapshot that is missing or unreadable, so its cycle was left out)
     notes: list[CheckResult] = field(default_factory=list)
+    #: every actual by (series, period) when ``actuals`` holds only the recent periods' rows
+    #: (``load_inputs(reduce_history=True)``); ``None``: ``actuals`` holds every row read
+    history: ActualsIndex | None = None
 
     @property
     def known_series(self) -> list[pd.DataFrame]:
@@ -107,7 +112,7 @@ ArchiveReader = Callable[[pd.Timestamp, set[pd.Timestamp], Prune], ArchivedCycle
 def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
                 actuals_path: Path | Url | None = None, progress: Progress = quiet,
                 archive: ArchiveReader | None = None,
-                frames: GivenFrames | None = None) -> Inputs:
+                frames: GivenFrames | None = None, reduce_history: bool = False) -> Inputs:
     """Read and validate every input (no writes). Raises InputError on unusable input.
 
     Key columns come back as categoricals sharing one set of categories across every frame,
@@ -116,6 +121,9 @@ def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
     recorded snapshot of each cycle, warnings in ``Inputs.notes`` for the cycles left out);
     ``None``: the earlier cycles come from the history files only. ``frames`` replace the
     config's place of the inputs they give (:mod:`accuracy_checks.sources.memory`).
+    ``reduce_history``: when a measure needs the whole actuals history, keep only the recent
+    periods as rows and the rest reduced to ``Inputs.history``
+    (:mod:`accuracy_checks.evaluation.history`; the engine's run asks for it).
     """
     given = frames or GivenFrames()
     keys, seg_cols = list(config.forecast.keys), list(config.segments.columns)
@@ -123,7 +131,13 @@ def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
                else read_mapping(config))
     forecast = _read_current(config, forecast_path, seg_cols, progress, given)
     issued = pd.Timestamp(forecast[F.ISSUED].max())
-    actuals, older = _read_actuals(config, actuals_path, progress, given)
+    reduced = (read_reduced(config, actuals_path, keep=rows_span(config)) if reduce_history
+               and given.actuals is None and actuals_span(config) is None else None)
+    actuals, older = ((reduced.rows, reduced.series) if reduced is not None
+                      else _read_actuals(config, actuals_path, progress, given))
+    if reduced is not None:
+        progress(f"read actuals: {reduced.n_read:,} rows, the last {rows_span(config)} periods "
+                 f"kept ({len(reduced.rows):,} rows), the rest reduced to the actuals index")
 
     t0 = time.perf_counter()
     # earlier forecasts: only rows of a configured lag inside the evaluation span are ever
@@ -164,7 +178,8 @@ def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
     if given.mapping is not None:
         info["mapping"] = _place(given.mapping, None, config)
     return Inputs(forecast, actuals, earlier, mapping, got.get("previous"),
-                  archived.previous_label, issued, info, got.get("older"), archived.notes)
+                  archived.previous_label, issued, info, got.get("older"), archived.notes,
+                  reduced.index if reduced is not None else None)
 
 
 def _place(given: Given | None, place: object, config: Config) -> dict[str, object]:
