@@ -110,7 +110,15 @@ def segment_labels(columns: Sequence[pd.Series]) -> pd.Categorical:
     combo = np.zeros(len(columns[0]), dtype=np.int64)
     for codes, names in zip(codes_list, names_list, strict=True):
         combo = combo * len(names) + np.where(codes < 0, len(names) - 1, codes)
-    ids, uniques = pd.factorize(combo, sort=True)
+    space = int(np.prod(np.array([len(n) for n in names_list], dtype=object)))
+    if space <= max(2 * len(combo), 1 << 16):
+        # few combinations: number the present ones in sorted order by counting, no hashing
+        present = np.bincount(combo, minlength=space) > 0
+        uniques = np.flatnonzero(present)
+        dense = np.cumsum(present) - 1
+        ids = dense[combo]
+    else:
+        ids, uniques = pd.factorize(combo, sort=True)
     parts = []
     rest = np.asarray(uniques)
     for names in reversed(names_list):
@@ -213,23 +221,35 @@ def _rows_by_codes(frame: pd.DataFrame, table: pd.DataFrame, keys: list[str]) ->
     key, as in a join. The combined codes index a dense array when their space is small,
     else a sorted search."""
     n, m = len(frame), len(table)
-    # one code space for both: stack the key arrays, combine once
-    arrays = [pd.Categorical.from_codes(
-        np.concatenate([frame[k].cat.codes.to_numpy(), table[k].cat.codes.to_numpy()]),
-        dtype=frame[k].dtype) for k in keys]
-    codes, space = combined_codes_and_space(pd.DataFrame(dict(zip(keys, arrays, strict=True)),
-                                                         copy=False), keys)
-    wanted, have = codes[:n], codes[n:]
+    if m == 0:
+        return np.full(n, -1, dtype=np.int64)
+    sizes = [len(frame[k].cat.categories) + 1 for k in keys]  # code −1 (missing) → 0
+    space = int(np.prod(np.array(sizes, dtype=object)))
+    if space >= 1 << 62:  # too many combinations for one int64: number them jointly
+        both = pd.concat([frame[keys], table[keys]], ignore_index=True)
+        codes = combined_codes_and_space(both, keys)[0]
+        wanted, have = codes[:n], codes[n:]
+    else:
+        wanted, have = _key_codes(frame, keys, sizes), _key_codes(table, keys, sizes)
     if space <= max(4 * (n + m), 1 << 22):
         row_of = np.full(space, -1, dtype=np.int64)
         row_of[have] = np.arange(m, dtype=np.int64)
         return row_of[wanted]
-    if m == 0:
-        return np.full(n, -1, dtype=np.int64)
     order = np.argsort(have, kind="stable")
     sorted_have = have[order]
     pos = np.minimum(np.searchsorted(sorted_have, wanted), m - 1)
     return np.where(sorted_have[pos] == wanted, order[pos], -1)
+
+
+def _key_codes(frame: pd.DataFrame, keys: list[str], sizes: list[int]) -> np.ndarray:
+    """One int64 per row from the keys' category codes (+1, so missing is 0), mixed radix
+    ``sizes`` (their product below 2**62), computed in place."""
+    out = np.zeros(len(frame), dtype=np.int64)
+    for k, size in zip(keys, sizes, strict=True):
+        out *= size
+        out += frame[k].cat.codes.to_numpy()
+        out += 1
+    return out
 
 
 def _taken(column: pd.Series, rows: np.ndarray) -> pd.Categorical:

@@ -10,7 +10,12 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from accuracy_checks.sources.segments import assign_segments, attach_segments, unify_categories
+from accuracy_checks.sources.segments import (
+    assign_segments,
+    attach_segments,
+    segment_labels,
+    unify_categories,
+)
 from tests.support.sources import config
 
 
@@ -56,3 +61,17 @@ def test_actuals_lookup_on_codes_equals_the_join(tmp_path: Path) -> None:
     coded = attach_segments(f, cfg, None, lambda: k.assign(segment=unused))
     assert coded["segment"].tolist() == joined["segment"].tolist()
     assert list(coded["segment"].cat.categories) == list(joined["segment"].cat.categories)
+
+
+def test_segment_labels_count_or_hash_the_combinations_alike() -> None:
+    rng = np.random.default_rng(7)
+    n = 3000
+    family = pd.Series([f"f{v:03d}" for v in rng.integers(0, 300, n)], dtype="category")
+    kind = pd.Series([None if v == 0 else f"k{v:03d}" for v in rng.integers(0, 300, n)],
+                     dtype="category")
+    few = segment_labels([family, kind])  # 301 × 301 combinations ≫ rows: hashed
+    repeated = [pd.concat([c] * 40, ignore_index=True) for c in (family, kind)]
+    many = segment_labels(repeated)  # rows ≫ combinations: counted
+    assert list(many.categories) == list(few.categories)
+    assert many[:n].tolist() == few.tolist()
+    assert "unassigned" in " ".join(few.categories)
