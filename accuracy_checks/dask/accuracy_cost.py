@@ -4,8 +4,9 @@
 over-forecast and the usable rows, then prices each cell with its segment's unit costs. A shard
 keeps those cells (:func:`cost_cells`); merged, the registry formula runs on two pseudo-rows
 per cell that carry its sums exactly (``e = Σmax(e, 0)`` as ``y − 0``, ``e = −Σmax(−e, 0)``
-as ``0 − f``), and the figures that divide by the rows (cost per forecast, pinball loss at τ*)
-and the row counts are rescaled from the pseudo-rows' count to the merged one.
+as ``0 − f``) and one row without an actual (no figure counts it); the figures that divide by
+the rows (cost per forecast, pinball loss at τ*) and the row counts are then rescaled from the
+pseudo-rows' count to the merged one.
 """
 
 from __future__ import annotations
@@ -51,13 +52,17 @@ def cost_figures(data: MeasureData, cells: pd.DataFrame | None) -> pd.DataFrame:
     under = cells["under"].to_numpy(dtype=np.float64)
     over = cells["over"].to_numpy(dtype=np.float64)
     segment = cells["row_segment"].astype(str).to_numpy(dtype=object)
+    # and one unusable row (no actual), so the formula always sees a segment column, as it
+    # does on rows that are all unusable
+    first = segment[:1] if segment.size else np.array([str(data.groups[F.SEGMENT].iat[0])],
+                                                      dtype=object)
     rows = pd.DataFrame({
-        F.ACTUAL: np.concatenate([under, np.zeros(under.size)]),
-        F.FORECAST: np.concatenate([np.zeros(under.size), over]),
-        F.SEGMENT: np.concatenate([segment, segment]),
+        F.ACTUAL: np.concatenate([under, np.zeros(under.size), [np.nan]]),
+        F.FORECAST: np.concatenate([np.zeros(under.size), over, [0.0]]),
+        F.SEGMENT: np.concatenate([segment, segment, first]),
     })
-    pseudo = MeasureData(rows, np.concatenate([group, group]), data.groups,
-                         np.zeros(2 * group.size, dtype=np.int64), 1, data.settings)
+    pseudo = MeasureData(rows, np.concatenate([group, group, [0]]), data.groups,
+                         np.zeros(2 * group.size + 1, dtype=np.int64), 1, data.settings)
     got = error_cost_from_data(pseudo)
     real = np.bincount(group, weights=cells["rows"].to_numpy(dtype=np.float64),
                        minlength=data.n_groups)

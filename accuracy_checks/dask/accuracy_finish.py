@@ -185,10 +185,13 @@ def _figures(measure: Measure, merged: Merged, window: str, grouping: str,
 
     def table(name: str, columns: list[str], variant: str | None) -> pd.DataFrame:
         frame = tables.get(name)
-        if frame is not None and "before" in frame.columns:
-            frame = frame.loc[frame["before"] == cut]
-        if frame is not None and variant is not None:
-            frame = frame.loc[frame["variant"] == variant]
+        wanted: dict[str, object] = {"before": cut} if name in ("mase", "msis") else {}
+        if variant is not None:
+            wanted["variant"] = variant
+        for column, value in wanted.items():
+            if frame is not None:  # a shard without rows for it keeps no such column
+                frame = (frame.loc[frame[column] == value] if column in frame.columns
+                         else None)
         return merged.table(frame, window, grouping, columns)
 
     cells: dict[str, pd.DataFrame | None] = {}
