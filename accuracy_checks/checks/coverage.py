@@ -48,7 +48,6 @@ from accuracy_checks.checks.series_index import (
     Segments,
     SeriesIndex,
     by_segment,
-    first_rows,
     identify_series,
     judged,
     skipped,
@@ -155,20 +154,43 @@ def _known_by_table(series: SeriesIndex, forecast: pd.DataFrame, keys: list[str]
             columns=list(known_series.columns),
         )
     ids = np.flatnonzero(series.in_forecast)
-    rows = forecast.iloc[first_rows(series.f_ids, ids)]
-    arrays = []
-    for c in columns:
-        table = known_series[c]
-        if pd.api.types.is_string_dtype(rows[c].dtype) and not pd.api.types.is_string_dtype(
-            table.dtype
-        ):
-            table = table.astype("str")
-        arrays.append(pd.concat([rows[c], table], ignore_index=True).array)
-    codes = combine_codes(arrays, len(rows) + len(known_series))
-    matched = np.isin(codes[: len(rows)], codes[len(rows) :])
+    positions = series.first_rows_in(series.f_ids, ids)
+    matched = _matched_by_codes(forecast, positions, known_series, columns)
+    if matched is None:
+        rows = forecast.iloc[positions]
+        arrays = []
+        for c in columns:
+            table = known_series[c]
+            if pd.api.types.is_string_dtype(rows[c].dtype) and not pd.api.types.is_string_dtype(
+                table.dtype
+            ):
+                table = table.astype("str")
+            arrays.append(pd.concat([rows[c], table], ignore_index=True).array)
+        codes = combine_codes(arrays, len(rows) + len(known_series))
+        matched = np.isin(codes[: len(rows)], codes[len(rows) :])
     known = np.zeros(series.n, dtype=bool)
     known[ids[matched]] = True
     return known
+
+
+def _matched_by_codes(forecast: pd.DataFrame, positions: np.ndarray, table: pd.DataFrame,
+                      columns: list[str]) -> np.ndarray | None:
+    """Whether the forecast rows at ``positions`` match a row of ``table`` in ``columns``,
+    from the categorical codes when both frames share each column's categories and the code
+    space is small (a lookup table, no hashing); ``None`` otherwise."""
+    space = 1
+    for c in columns:
+        f, t = forecast[c].dtype, table[c].dtype
+        if not (isinstance(f, pd.CategoricalDtype) and isinstance(t, pd.CategoricalDtype)
+                and f.categories.equals(t.categories)):
+            return None
+        space *= len(f.categories) + 1
+        if space > max(len(positions) + len(table), 1 << 20):
+            return None
+    listed = np.zeros(space, dtype=bool)
+    listed[combine_codes([table[c].array for c in columns], len(table))] = True
+    return listed[combine_codes([forecast[c].array.take(positions) for c in columns],
+                                len(positions))]
 
 
 def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.DataFrame,
@@ -180,7 +202,7 @@ def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.Dat
               if isinstance(known_series, pd.DataFrame) else list(known_series))
     for table in tables:
         known |= _known_by_table(series, forecast, keys, table)
-    rows = np.bincount(series.f_ids, minlength=series.n)
+    rows = np.zeros(0, dtype=np.int64)  # rows per series, for the examples (counted if needed)
     source = "the actuals" + (" and the table of known series" if tables else "")
     out = []
     for part in by_segment(segments, series.in_forecast, series.in_forecast & ~known):
@@ -190,7 +212,9 @@ def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.Dat
             continue
         shown = part.shown(max_examples)
         examples = series.examples(forecast, series.f_ids, shown, keys)
-        for example, n in zip(examples, rows[shown], strict=True):
+        if len(shown) and len(rows) == 0:
+            rows = np.bincount(series.f_ids, minlength=series.n)
+        for example, n in zip(examples, rows[shown] if len(shown) else [], strict=True):
             example["rows"] = int(n)
         head = f"{part.subject('forecast series')} {part.verb('is', 'are')}"
         message = (

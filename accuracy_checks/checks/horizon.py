@@ -27,6 +27,7 @@ from accuracy_checks.checks.series_index import (
     Segments,
     SeriesIndex,
     by_segment,
+    date_codes,
     judged,
     skipped,
 )
@@ -63,27 +64,44 @@ class HorizonSteps:
 
 def horizon_steps(series: SeriesIndex, forecast: pd.DataFrame, frequency: str,
                   horizon: int) -> HorizonSteps:
-    """Place every forecast row on the ``frequency`` grid from the earliest forecast period."""
-    periods = pd.DatetimeIndex(forecast[PERIOD])
-    dated = ~np.asarray(periods.isna())
+    """Place every forecast row on the ``frequency`` grid from the earliest forecast period.
+
+    The distinct periods are placed (:func:`~accuracy_checks.evaluation.grid.grid_positions`)
+    and the rows take their period's place through its code
+    (:func:`~accuracy_checks.checks.series_index.date_codes`)."""
+    codes, uniques = date_codes(forecast[PERIOD])
+    dated = codes >= 0
     pos = np.full(len(forecast), -1, dtype=np.int64)
     on = np.zeros(len(forecast), dtype=bool)
     present = np.zeros((series.n, horizon), dtype=bool)
-    if not dated.any():
+    if len(uniques) == 0:
         no_extra = np.zeros(series.n, dtype=np.int64)
         all_off = np.bincount(series.f_ids, minlength=series.n)
         return HorizonSteps(None, pd.DatetimeIndex([]), present, no_extra, all_off, pos, on,
                             dated, 0)
-    pos[dated], on[dated] = grid_positions(periods[dated], frequency)
-    first_row = int(np.flatnonzero(dated)[np.argmin(periods[dated].asi8)])
-    first = periods[first_row]
-    base = int(pos[first_row])
-    step = pos - base
+    unique_pos, unique_on = grid_positions(uniques, frequency)
+    first = uniques[0]
+    base = int(unique_pos[0])
+    unique_step = unique_pos - base
+    # per distinct period: on the grid and inside the horizon, or on the grid beyond it
+    unique_inside = unique_on & (unique_step < horizon)
+    unique_beyond = unique_on & (unique_step >= horizon)
+    if dated.all():
+        pos, on = unique_pos[codes], unique_on[codes]
+    else:
+        pos[dated], on[dated] = unique_pos[codes[dated]], unique_on[codes[dated]]
+    cells = series.f_ids * horizon + unique_step[codes]
+    if dated.all() and unique_inside.all():  # the usual file: every row has its cell
+        present.reshape(-1)[cells] = True
+    else:
+        inside = dated & unique_inside[codes]
+        present.reshape(-1)[cells[inside]] = True
+    no_rows = np.zeros(series.n, dtype=np.int64)
+    extra = (np.bincount(series.f_ids[dated & unique_beyond[codes]], minlength=series.n)
+             if unique_beyond.any() else no_rows)
     placed = on & dated
-    inside = placed & (step < horizon)
-    present.reshape(-1)[series.f_ids[inside] * horizon + step[inside]] = True
-    extra = np.bincount(series.f_ids[placed & (step >= horizon)], minlength=series.n)
-    off_grid = np.bincount(series.f_ids[~placed], minlength=series.n)
+    off_grid = (no_rows if placed.all() else
+                np.bincount(series.f_ids[~placed], minlength=series.n))
     return HorizonSteps(first, grid_dates(first, horizon, frequency), present, extra, off_grid,
                         pos, on, dated, base)
 
@@ -104,12 +122,14 @@ def _problems(steps: HorizonSteps, forecast: pd.DataFrame, series: SeriesIndex,
     """What is wrong with each series in ``ids`` (a handful), with exact dates."""
     if len(ids) == 0:
         return []
-    rows = np.flatnonzero(np.isin(series.f_ids, ids))
-    periods = pd.DatetimeIndex(forecast[PERIOD])[rows]
+    wanted = np.zeros(series.n, dtype=bool)
+    wanted[ids] = True
+    rows = np.flatnonzero(wanted[series.f_ids])
+    periods = pd.DatetimeIndex(forecast[PERIOD].iloc[rows])
     undated = np.asarray(periods.isna())
     row_ids = series.f_ids[rows]
     placed = steps.row_on[rows] & steps.row_dated[rows]
-    beyond = placed & (steps.row_step()[rows] >= horizon)
+    beyond = placed & (steps.row_pos[rows] - steps.base >= horizon)
     texts = []
     for sid in ids.tolist():
         parts = []
@@ -131,21 +151,45 @@ def _problems(steps: HorizonSteps, forecast: pd.DataFrame, series: SeriesIndex,
 # --------------------------------------------------------------------------- results
 
 
-def _details(part: SegmentPart, steps: HorizonSteps, gaps: np.ndarray, n_gap_steps: np.ndarray,
-             first: Any, horizon: int, frequency: str) -> dict[str, Any]:
-    """The counts behind one segment's result."""
-    in_seg = part.relevant
+#: the counts of a result's details, per series (:func:`_series_counts`), in their order
+_COUNTS = ("with_gaps", "with_rows_beyond", "with_off_grid_rows", "missing_steps",
+           "rows_beyond", "off_grid_rows")
+
+
+def _series_counts(steps: HorizonSteps, gaps: np.ndarray,
+                   n_gap_steps: np.ndarray) -> dict[str, np.ndarray]:
+    """Per series, each count of :data:`_COUNTS` (0 for a series without forecast rows)."""
+    return {
+        "with_gaps": gaps,
+        "with_rows_beyond": steps.extra > 0,
+        "with_off_grid_rows": steps.off_grid > 0,
+        "missing_steps": n_gap_steps,
+        "rows_beyond": steps.extra,
+        "off_grid_rows": steps.off_grid,
+    }
+
+
+def _totals(series: SeriesIndex, per_series: dict[str, np.ndarray]) -> dict[str, list[int]]:
+    """Each count summed per segment code (one ``bincount`` each) and, last, over all."""
+    n_codes = len(series.segment_names)
+    out = {}
+    for name, values in per_series.items():
+        by_code = np.bincount(series.segment, weights=values, minlength=n_codes)
+        out[name] = [*(int(v) for v in by_code), int(np.sum(values))]
+    return out
+
+
+def _details(part: SegmentPart, code: int, totals: dict[str, list[int]], first: Any,
+             horizon: int, frequency: str) -> dict[str, Any]:
+    """The counts behind one segment's result (``code``: the segment's code, ``-1`` for
+    ``"*"``). The counts are 0 outside the forecast series, so a segment's total over all
+    its series is its total over its forecast series."""
     return {
         "first_period": first,
         "horizon": horizon,
         "frequency": frequency,
         "series": part.n,
-        "with_gaps": int((gaps & in_seg).sum()),
-        "with_rows_beyond": int(((steps.extra > 0) & in_seg).sum()),
-        "with_off_grid_rows": int(((steps.off_grid > 0) & in_seg).sum()),
-        "missing_steps": int(n_gap_steps[in_seg].sum()),
-        "rows_beyond": int(steps.extra[in_seg].sum()),
-        "off_grid_rows": int(steps.off_grid[in_seg].sum()),
+        **{name: totals[name][code] for name in _COUNTS},
     }
 
 
@@ -177,18 +221,25 @@ def horizon_results(series: SeriesIndex, segments: Segments, forecast: pd.DataFr
     incomplete = gaps | (steps.extra > 0) | (steps.off_grid > 0)
     first = example_value(steps.first) if steps.first is not None else None
     grid = f"{plural(horizon, 'period')} from {first} on the {frequency} grid"
+    totals = _totals(series, _series_counts(steps, gaps, n_gap_steps))
+    codes = {name: i for i, name in enumerate(series.segment_names)}
+    parts = list(by_segment(segments, series.in_forecast, incomplete))
+    shown = {part.segment: part.shown(max_examples) for part in parts if part.n}
+    # every example series' problems at once (one pass over the forecast's rows)
+    wanted = np.unique(np.concatenate([np.zeros(0, dtype=np.int64), *shown.values()]))
+    problems = dict(zip(wanted.tolist(), _problems(steps, forecast, series, wanted, horizon),
+                        strict=True))
     out = []
-    for part in by_segment(segments, series.in_forecast, incomplete):
+    for part in parts:
         if part.n == 0:
             out.append(skipped(HORIZON, _MEASURE, part.segment, "count",
                                f"The forecast has no series{part.where}"))
             continue
-        details = _details(part, steps, gaps, n_gap_steps, first, horizon, frequency)
-        shown = part.shown(max_examples)
-        examples = series.examples(forecast, series.f_ids, shown, keys)
-        problems = _problems(steps, forecast, series, shown, horizon)
-        for example, text in zip(examples, problems, strict=True):
-            example["problem"] = text
+        code = -1 if part.where == "" else codes[part.segment]
+        details = _details(part, code, totals, first, horizon, frequency)
+        examples = series.examples(forecast, series.f_ids, shown[part.segment], keys)
+        for example, sid in zip(examples, shown[part.segment].tolist(), strict=True):
+            example["problem"] = problems[sid]
         out.append(judged(
             book,
             check=HORIZON,

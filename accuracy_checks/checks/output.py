@@ -3,9 +3,10 @@
 Five checks, each declared as one *wide* pandera :class:`~pandera.api.checks.Check` (the check
 function gets the whole canonical forecast frame and returns one boolean per row, ``True`` =
 the row passes) in one :class:`~pandera.api.pandas.container.DataFrameSchema`
-(:func:`~accuracy_checks.checks.output_schema.output_schema`). :func:`output_checks` validates
-lazily (every check runs, every failure is collected), reads each failing check's row mask
-back from ``SchemaErrors.schema_errors[i].check_output`` and turns it into a
+(:func:`~accuracy_checks.checks.output_schema.output_schema`). :func:`output_checks` computes
+the row mask of each failing check with those same check functions
+(:func:`~accuracy_checks.checks.output_schema.output_masks`: what validating the schema lazily
+collects, without the pandera pass) and turns it into a
 :class:`~accuracy_checks.results.CheckResult`:
 
 ``output.duplicate_rows``
@@ -51,7 +52,7 @@ from accuracy_checks.checks.examples import (
 from accuracy_checks.checks.output_schema import (
     OUTPUT_CHECKS,
     as_float,
-    failed_masks,
+    output_masks,
     output_schema,
     require_output_columns,
 )
@@ -122,13 +123,8 @@ def output_checks(
     quantile_columns = list(quantile_columns)
     max_examples = max(int(max_examples), 0)
     require_output_columns(forecast, list(keys), quantile_columns, allow_negative)
-    schema = output_schema(
-        keys=keys,
-        quantile_columns=quantile_columns,
-        allow_negative=allow_negative,
-        max_examples=max_examples,
-    )
-    failed = failed_masks(schema, forecast)
+    failed = output_masks(forecast, keys=keys, quantile_columns=quantile_columns,
+                          allow_negative=allow_negative)
     rows = _Rows(forecast, list(keys), quantile_columns,
                  _file_names(quantile_columns, quantile_names), max_examples)
 
@@ -324,10 +320,18 @@ def _crossing(rows: _Rows, mask: np.ndarray) -> CheckResult:
     )
 
 
+def _issue_counts(frame: pd.DataFrame, mask: np.ndarray) -> pd.Series:
+    """Rows per distinct issue date, in date order, a missing date last. With no offending row
+    every row carries the latest date: one count, no pass over the column."""
+    issued = frame[ISSUED]
+    if len(frame) and not mask.any():
+        return pd.Series([len(frame)], index=issued.iloc[:1], dtype=np.int64)
+    return issued.value_counts(dropna=False, sort=False).sort_index(na_position="last")
+
+
 def _issue_dates(rows: _Rows, mask: np.ndarray) -> CheckResult:
     frame = rows.frame
-    # distinct issue dates in date order, a missing date last
-    counts = frame[ISSUED].value_counts(dropna=False, sort=False).sort_index(na_position="last")
+    counts = _issue_counts(frame, mask)
     n_dates = len(counts)
     dated = counts.index.notna()
     latest = example_value(counts.index[dated].max()) if dated.any() else None

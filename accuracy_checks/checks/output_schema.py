@@ -4,27 +4,38 @@ Each check is one *wide* pandera :class:`~pandera.api.checks.Check` (the check f
 the whole canonical forecast frame and returns one boolean per row, ``True`` = the row passes)
 in one :class:`~pandera.api.pandas.container.DataFrameSchema` (:func:`output_schema`).
 :func:`failed_masks` validates lazily (every check runs, every failure is collected) and reads
-each failing check's row mask back from ``SchemaErrors.schema_errors[i].check_output``; the
-results are built from those masks in :mod:`.output`.
+each failing check's row mask back from ``SchemaErrors.schema_errors[i].check_output``.
 
-Every mask is a numpy operation over whole columns. Duplicates are found by sorting one int64
-code per row (the key, period and issue columns factorised and combined), which is 2–3×
-faster than ``DataFrame.duplicated`` on millions of rows.
+A run does not go through pandera: :func:`output_masks` computes the very masks the schema's
+checks compute (the same functions), straight from the columns, and keeps those of the
+failing checks, as :func:`failed_masks` does (``tests/checks/test_output_schema.py`` holds
+the two to each other). Validating would add pandera's own work per check (a Series per
+mask, its error tables) and its first-use imports, about a second per run; the schema stays
+the declaration other tools validate with. The results are built from the masks in
+:mod:`.output`.
+
+Every mask is a numpy operation over whole columns. Duplicates are found on one int64 code per
+row (keys from their categorical codes, dates numbered by counting days:
+:func:`~accuracy_checks.checks.series_index.date_codes`): a ``bincount`` over the codes when
+their space is at most a few times the number of rows, a sort otherwise.
 """
 
 from __future__ import annotations
 
 from collections.abc import Callable, Collection, Sequence
+from typing import TYPE_CHECKING
 
 import numpy as np
 import pandas as pd
-import pandera.pandas as pa
-from pandera.errors import SchemaErrors
 
 from accuracy_checks.checks.examples import require_columns
+from accuracy_checks.checks.series_index import date_codes
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.codes import combined_codes
+from accuracy_checks.sources.codes import combined_codes_and_space
 from accuracy_checks.sources.frames import FORECAST, ISSUED, PERIOD, SEGMENT
+
+if TYPE_CHECKING:  # pandera loads only when the schema is built (not in a run)
+    import pandera.pandas as pa
 
 __all__ = [
     "DUPLICATE_ROWS",
@@ -40,8 +51,10 @@ __all__ = [
     "failed_masks",
     "invalid_mask",
     "negative_mask",
+    "output_masks",
     "output_schema",
     "require_output_columns",
+    "row_codes",
     "stale_issue_mask",
 ]
 
@@ -80,19 +93,60 @@ def as_float(frame: pd.DataFrame, column: str) -> np.ndarray:
 
 
 def duplicate_mask(frame: pd.DataFrame, columns: Sequence[str]) -> np.ndarray:
-    """True for every row whose values in ``columns`` also occur in another row.
+    """True for every row whose values in ``columns`` also occur in another row (missing
+    values equal to each other).
 
-    Sort-based: one int64 code per row, sorted; equal neighbours mean duplicates. The rows are
-    only located (``np.isin``) when there are any.
+    One int64 code per row (:func:`row_codes`); a ``bincount`` over the codes when their space
+    is at most :data:`_COUNTED` times the rows (a few integer passes), else a sort, equal
+    neighbours being duplicates (the rows then located with ``np.isin`` when there are any).
     """
     if len(frame) < 2:
         return np.zeros(len(frame), dtype=bool)
-    codes = combined_codes(frame, columns)
+    codes, space = row_codes(frame, columns)
+    if space <= _COUNTED * len(frame):
+        return np.bincount(codes, minlength=space)[codes] > 1
     ordered = np.sort(codes)
     repeated = ordered[1:] == ordered[:-1]
     if not repeated.any():
         return np.zeros(len(frame), dtype=bool)
     return np.isin(codes, np.unique(ordered[1:][repeated]))
+
+
+#: a code space up to this many times the rows is counted (int64 counts: 32 bytes a row)
+_COUNTED = 4
+_SPACE_LIMIT = 1 << 62
+
+
+def row_codes(frame: pd.DataFrame, columns: Sequence[str]) -> tuple[np.ndarray, int]:
+    """One int64 code per row, equal codes ⇔ equal values in ``columns`` (missing values
+    equal), and the size of the code space (codes lie in ``[0, space)``).
+
+    Date columns are numbered by :func:`~accuracy_checks.checks.series_index.date_codes`
+    (dense: 13 weekly periods take 13 codes), every other column by
+    :func:`~accuracy_checks.sources.codes.combined_codes_and_space` (categorical keys: their
+    codes as they are).
+    """
+    combined = np.zeros(len(frame), dtype=np.int64)
+    space = 1
+    for column in columns:
+        values = frame[column]
+        if values.dtype.kind == "M":
+            codes, uniques = date_codes(values)
+            size = len(uniques)
+            if (codes < 0).any():  # missing dates: a code of their own
+                codes, size = codes + 1, size + 1
+            size = max(size, 1)
+        else:
+            codes, size = combined_codes_and_space(frame, [column])
+        if size == 1:  # one value (an issue date): nothing to tell apart
+            continue
+        if space * size >= _SPACE_LIMIT:  # renumber what is combined so far, densely
+            combined, seen = pd.factorize(combined)
+            combined = combined.astype(np.int64, copy=False)
+            space = max(len(seen), 1)
+        combined = combined * size + codes
+        space *= size
+    return combined, space
 
 
 def invalid_mask(frame: pd.DataFrame, value_columns: Sequence[str]) -> np.ndarray:
@@ -173,6 +227,8 @@ def _wide_check(
     def passes(frame: pd.DataFrame) -> pd.Series:
         return pd.Series(~mask(frame), index=frame.index, dtype=bool)
 
+    import pandera.pandas as pa
+
     return pa.Check(
         passes,
         name=name,
@@ -202,6 +258,8 @@ def output_schema(
     ['output.duplicate_rows', 'output.invalid_values', 'output.negative_values',
      'output.quantile_order', 'output.issue_dates']
     """
+    import pandera.pandas as pa
+
     keys = list(keys)
     quantile_columns = list(quantile_columns)
     values = [FORECAST, *quantile_columns]
@@ -256,8 +314,41 @@ def require_output_columns(frame: pd.DataFrame, keys: list[str], quantile_column
     require_columns(frame, needed, role="forecast", checks="output")
 
 
+def output_masks(
+    frame: pd.DataFrame,
+    *,
+    keys: Sequence[str],
+    quantile_columns: Sequence[str] = (),
+    allow_negative: AllowNegative = False,
+) -> dict[str, np.ndarray]:
+    """The offending-row mask (True = offends) of every failing output check, in the order of
+    :data:`OUTPUT_CHECKS`: what :func:`failed_masks` reads from validating
+    :func:`output_schema` with the same arguments, computed by the schema's own mask
+    functions without a pandera pass. Call :func:`require_output_columns` first.
+
+    >>> f = pd.DataFrame({"store": ["S1", "S1"], "period": pd.to_datetime(["2026-03-02"] * 2),
+    ...                   "issued": pd.to_datetime(["2026-02-27"] * 2), "forecast": [5.0, -1.0]})
+    >>> {name: mask.tolist() for name, mask in output_masks(f, keys=["store"]).items()}
+    {'output.duplicate_rows': [True, True], 'output.negative_values': [False, True]}
+    """
+    keys = list(keys)
+    quantile_columns = list(quantile_columns)
+    values = [FORECAST, *quantile_columns]
+    masks = {
+        DUPLICATE_ROWS: duplicate_mask(frame, [*keys, PERIOD, ISSUED]),
+        INVALID_VALUES: invalid_mask(frame, values),
+        NEGATIVE_VALUES: negative_mask(frame, values, allow_negative),
+    }
+    if len(quantile_columns) >= 2:
+        masks[QUANTILE_ORDER] = crossing_mask(frame, quantile_columns)
+    masks[ISSUE_DATES] = stale_issue_mask(frame)
+    return {name: mask for name, mask in masks.items() if mask.any()}
+
+
 def failed_masks(schema: pa.DataFrameSchema, frame: pd.DataFrame) -> dict[str, np.ndarray]:
     """Validate lazily; the offending-row mask (True = offends) of every failing check."""
+    from pandera.errors import SchemaErrors
+
     try:
         # A shallow copy: pandera attaches the schema to the frame it validates, and nothing
         # is coerced, so no data is copied.
@@ -274,4 +365,3 @@ def failed_masks(schema: pa.DataFrameSchema, frame: pd.DataFrame) -> dict[str, n
                 ) from exc
         return out
     return {}
-

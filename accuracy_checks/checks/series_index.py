@@ -13,6 +13,7 @@ from __future__ import annotations
 
 from collections.abc import Iterator
 from dataclasses import dataclass
+from functools import cached_property
 from typing import Any
 
 import numpy as np
@@ -28,6 +29,7 @@ __all__ = [
     "SegmentPart",
     "SeriesIndex",
     "by_segment",
+    "date_codes",
     "first_rows",
     "identify_series",
     "judged",
@@ -40,7 +42,12 @@ Segments = list[tuple[str, np.ndarray | None]]
 
 @dataclass(frozen=True)
 class SeriesIndex:
-    """Series of forecast ∪ actuals: one dense id per row of each frame."""
+    """Series of forecast ∪ actuals: one dense id per row of each frame.
+
+    Series are numbered by first appearance: the forecast's rows first, then the actuals'
+    (as ``pd.factorize`` numbers the two frames' keys stacked), so "the first offending
+    series" are those the files list first.
+    """
 
     n: int
     f_ids: np.ndarray
@@ -50,6 +57,10 @@ class SeriesIndex:
     #: segment code of each series, into ``segment_names``
     segment: np.ndarray
     segment_names: list[str]
+    #: per series: its first row in the forecast (``-1``: none); ``None`` when not known
+    f_first: np.ndarray | None = None
+    #: per series: its first row in the actuals (``-1``: none); ``None`` when not known
+    a_first: np.ndarray | None = None
 
     def segments_to_report(self, relevant: np.ndarray) -> Segments:
         """``("*", None)`` then (name, series mask) for each segment other than ``"*"`` that
@@ -62,11 +73,20 @@ class SeriesIndex:
         out += [(name, self.segment == code) for name, code in names]
         return out
 
+    def first_rows_in(self, row_ids: np.ndarray, wanted: np.ndarray) -> np.ndarray:
+        """:func:`first_rows` of ``wanted`` in the frame whose series ids are ``row_ids``
+        (``f_ids`` or ``a_ids``): looked up when the index knows them, else found."""
+        known = (self.f_first if row_ids is self.f_ids else
+                 self.a_first if row_ids is self.a_ids else None)
+        if known is not None:
+            return known[wanted]
+        return first_rows(row_ids, wanted)
+
     def examples(self, frame: pd.DataFrame, row_ids: np.ndarray, wanted: np.ndarray,
                  keys: list[str]) -> list[dict[str, Any]]:
         """Key values of the series ``wanted`` (one dict each, read from their first row of
         ``frame``, whose series ids are ``row_ids``), with their segment."""
-        examples = row_examples(frame, first_rows(row_ids, wanted), keys)
+        examples = row_examples(frame, self.first_rows_in(row_ids, wanted), keys)
         names = np.asarray(self.segment_names, dtype=object)[self.segment[wanted]]
         for example, seg in zip(examples, names, strict=True):
             example[SEGMENT] = str(seg)
@@ -75,12 +95,24 @@ class SeriesIndex:
 
 def identify_series(forecast: pd.DataFrame, actuals: pd.DataFrame,
                     keys: list[str]) -> SeriesIndex:
-    """One dense series id per row of ``forecast`` and ``actuals`` (their ``keys`` jointly)."""
+    """One dense series id per row of ``forecast`` and ``actuals`` (their ``keys`` jointly),
+    numbered by first appearance (forecast rows first, then the actuals').
+
+    Categorical keys sharing their categories (the canonical frames) are combined from their
+    codes and numbered by counting over the code space (no hashing of the rows); other keys
+    are factorised, the two frames stacked.
+    """
     n_f, n_a = len(forecast), len(actuals)
-    arrays = [pd.concat([forecast[k], actuals[k]], ignore_index=True).array for k in keys]
-    ids, uniques = pd.factorize(combine_codes(arrays, n_f + n_a))
-    n = len(uniques)
-    f_ids, a_ids = ids[:n_f], ids[n_f:]
+    found = _series_by_codes(forecast, actuals, keys)
+    if found is not None:
+        n, f_ids, a_ids, f_first, a_first = found
+    else:
+        arrays = [pd.concat([forecast[k], actuals[k]], ignore_index=True).array for k in keys]
+        ids, uniques = pd.factorize(combine_codes(arrays, n_f + n_a))
+        n = len(uniques)
+        f_ids, a_ids = ids[:n_f], ids[n_f:]
+        f_first, _ = _appearance(f_ids, n)
+        a_first, _ = _appearance(a_ids, n)
     f_seg, f_names = _segment_codes(forecast)
     a_seg, a_names = _segment_codes(actuals)
     names = list(dict.fromkeys([*f_names, *a_names]))
@@ -93,18 +125,76 @@ def identify_series(forecast: pd.DataFrame, actuals: pd.DataFrame,
         n=n,
         f_ids=f_ids,
         a_ids=a_ids,
-        in_forecast=np.bincount(f_ids, minlength=n) > 0,
-        in_actuals=np.bincount(a_ids, minlength=n) > 0,
+        in_forecast=f_first >= 0,
+        in_actuals=a_first >= 0,
         segment=segment,
         segment_names=names,
+        f_first=f_first,
+        a_first=a_first,
     )
+
+
+def _series_by_codes(forecast: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]
+                     ) -> tuple[int, np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None:
+    """:func:`identify_series` on categorical keys with the same categories in both frames,
+    when their code space is at most the rows (or 2**20): (n, f_ids, a_ids, f_first,
+    a_first). ``None`` otherwise."""
+    space = 1
+    for k in keys:
+        f, a = forecast[k].dtype, actuals[k].dtype
+        if not (isinstance(f, pd.CategoricalDtype) and isinstance(a, pd.CategoricalDtype)
+                and f.categories.equals(a.categories)):
+            return None
+        space *= len(f.categories) + 1
+        if space > max(len(forecast) + len(actuals), 1 << 20):
+            return None
+    f_codes = combine_codes([forecast[k].array for k in keys], len(forecast))
+    a_codes = combine_codes([actuals[k].array for k in keys], len(actuals))
+    first_f, new_f = _appearance(f_codes, space)
+    first_a, new_a = _appearance(a_codes, space)
+    only_a = a_codes[new_a]
+    order = np.concatenate([f_codes[new_f], only_a[first_f[only_a] < 0]])
+    label = np.full(space, -1, dtype=np.int64)
+    label[order] = np.arange(len(order))
+    return len(order), label[f_codes], label[a_codes], first_f[order], first_a[order]
+
+
+def _appearance(codes: np.ndarray, space: int) -> tuple[np.ndarray, np.ndarray]:
+    """For codes in ``[0, space)``: the first row of each code (``-1``: absent) and the rows
+    where a code appears for the first time, in row order.
+
+    A first appearance starts a run of equal neighbours, so only run starts are looked at
+    (one per series when the rows are grouped by series).
+
+    >>> first, new = _appearance(np.array([2, 2, 0, 2, 0, 3]), 5)
+    >>> first.tolist(), new.tolist()
+    ([2, -1, 0, 5, -1], [0, 2, 5])
+    """
+    first = np.full(space, -1, dtype=np.int64)
+    if len(codes) == 0:
+        return first, np.zeros(0, dtype=np.int64)
+    starts_mask = np.empty(len(codes), dtype=bool)
+    starts_mask[0] = True
+    np.not_equal(codes[1:], codes[:-1], out=starts_mask[1:])
+    starts = np.flatnonzero(starts_mask)
+    at = codes[starts]
+    first[:] = len(codes)
+    np.minimum.at(first, at, starts)
+    new = starts[first[at] == starts]
+    first[first == len(codes)] = -1
+    return first, new
 
 
 def _segment_codes(frame: pd.DataFrame) -> tuple[np.ndarray, list[str]]:
     """Segment code per row and the segment names (missing → ``"unassigned"``)."""
     if SEGMENT not in frame.columns:
         return np.zeros(len(frame), dtype=np.int64), [ALL_SERIES]
-    codes, uniques = pd.factorize(frame[SEGMENT].array)  # missing → -1
+    column = frame[SEGMENT]
+    if isinstance(column.dtype, pd.CategoricalDtype):  # its codes, no hashing
+        codes = column.cat.codes.to_numpy().astype(np.int64)
+        uniques: Any = column.cat.categories
+    else:
+        codes, uniques = pd.factorize(column.array)  # missing → -1
     names = [str(u) for u in uniques]
     if (codes < 0).any():
         codes = np.where(codes < 0, len(names), codes)
@@ -130,6 +220,28 @@ def first_rows(ids: np.ndarray, wanted: np.ndarray) -> np.ndarray:
     return first[wanted]
 
 
+# --------------------------------------------------------------------------- dates as codes
+
+
+def date_codes(values: Any) -> tuple[np.ndarray, pd.DatetimeIndex]:
+    """Dense codes of dates: ``uniques[codes[i]] == values[i]``, ``-1`` for a missing date;
+    ``uniques`` sorted: ``pd.factorize(values, sort=True)``, with a shortcut for a column of
+    one date (the issue date of a cycle: two passes, no hashing).
+
+    >>> codes, uniques = date_codes(pd.to_datetime(["2026-03-09", None, "2026-03-02"]))
+    >>> codes.tolist(), [str(d.date()) for d in uniques]
+    ([1, -1, 0], ['2026-03-02', '2026-03-09'])
+    """
+    arr = np.asarray(values)
+    if arr.dtype.kind == "M" and len(arr):
+        ticks = arr.view(np.int64)
+        low, high = ticks.min(), ticks.max()  # NaT is the lowest int64
+        if low == high and not np.isnat(arr[0]):
+            return np.zeros(len(arr), dtype=np.int64), pd.DatetimeIndex(arr[:1])
+    codes, uniques = pd.factorize(pd.DatetimeIndex(values), sort=True)
+    return codes.astype(np.int64, copy=False), pd.DatetimeIndex(uniques)
+
+
 # --------------------------------------------------------------------------- per segment
 
 
@@ -144,13 +256,13 @@ class SegmentPart:
     relevant: np.ndarray
     offending: np.ndarray
 
-    @property
+    @cached_property
     def n(self) -> int:
-        return int(self.relevant.sum())
+        return int(np.count_nonzero(self.relevant))
 
-    @property
+    @cached_property
     def n_bad(self) -> int:
-        return int(self.offending.sum())
+        return int(np.count_nonzero(self.offending))
 
     def subject(self, noun: str) -> str:
         """``"3 of 40 forecast series in segment tools"``, or ``"All 40 forecast series"``

@@ -286,7 +286,7 @@ class Archive:
         try:
             incoming.mkdir(parents=True, exist_ok=True)
             self._sweep(incoming)
-            frame.to_parquet(tmp, index=False)
+            write_snapshot(frame, str(tmp))
             with open(tmp, "rb") as fh:
                 os.fsync(fh.fileno())
         except OSError as exc:
@@ -368,6 +368,32 @@ class StagedSnapshot:
     def discard(self) -> None:
         """Remove the staged file (the run was not recorded)."""
         _unlink_quietly(self.path)
+
+
+def write_snapshot(frame: pd.DataFrame, where: Any) -> None:
+    """Write ``frame`` as a snapshot's Parquet file to ``where`` (a path or a writable binary
+    stream): the columns and pandas metadata of ``frame.to_parquet(index=False)``, so every
+    reader sees the same table, with the settings that cost least for this data (measured in
+    ``bench/README.md``): the value columns (floats, which neither repeat nor compress) plain
+    and uncompressed; every other column (keys, segment, dates: few distinct values)
+    dictionary-encoded and snappy-compressed; min/max statistics on the date columns only
+    (``period``, ``issued``: what a reader prunes row groups by)."""
+    import json
+
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    if frame.attrs:  # as pandas keeps them
+        table = table.replace_schema_metadata(
+            {**(table.schema.metadata or {}), "PANDAS_ATTRS": json.dumps(frame.attrs)})
+    fields = list(table.schema)
+    values = [f.name for f in fields if pa.types.is_floating(f.type)]
+    coded = [f.name for f in fields if f.name not in values]
+    dates = [f.name for f in fields if pa.types.is_timestamp(f.type) or pa.types.is_date(f.type)]
+    pq.write_table(table, where, use_dictionary=coded or False,
+                   compression={**dict.fromkeys(coded, "snappy"), **dict.fromkeys(values, "none")},
+                   write_statistics=dates or False)
 
 
 def _unlink_quietly(path: Path) -> None:

@@ -57,6 +57,7 @@ from accuracy_checks.store.archive import (
     Snapshot,
     SnapshotUnreadable,
     archive_url,
+    write_snapshot,
 )
 
 if TYPE_CHECKING:
@@ -228,16 +229,12 @@ class RemoteArchive(Archive):
               issued: pd.Timestamp) -> RemoteStaged:
         """Upload ``frame`` in full under ``.incoming`` (step 1); on failure the partial
         object is deleted and :class:`ArchiveError` raised."""
-        import pyarrow as pa
-        import pyarrow.parquet as pq
-
         self._sweep_incoming()
         name = uuid.uuid4().hex
         key = self._key(f"{_INCOMING}/{name}.parquet")
         try:
-            table = pa.Table.from_pandas(frame, preserve_index=False)
             with self.fs.open_output_stream(key) as out:
-                pq.write_table(table, out)
+                write_snapshot(frame, out)
         except BaseException as exc:
             self._delete_quietly(key)
             if isinstance(exc, Exception):

@@ -32,6 +32,7 @@ from accuracy_checks.store.archive import (
     ArchiveError,
     Snapshot,
     SnapshotUnreadable,
+    write_snapshot,
 )
 from tests.support.project import CURRENT, EARLIER, Project, forecast_frame
 
@@ -179,13 +180,41 @@ def test_check_usable_refuses_an_unwritable_folder(tmp_path: Path) -> None:
         assert list(root.iterdir()) == []
 
 
+def test_snapshot_holds_the_table_to_parquet_writes_with_cheaper_settings(
+        tmp_path: Path) -> None:
+    # the archive reader (and any other) must see what frame.to_parquet(index=False) gives
+    import pyarrow.parquet as pq
+
+    keys = pd.Categorical(["S1", "S2", None, "S1"])
+    frame = pd.DataFrame({
+        "store": keys, "period": pd.to_datetime(["2026-03-02", "2026-03-09", None, "2026-03-02"]),
+        "issued": pd.Timestamp("2026-02-27"), "forecast": [1.5, np.nan, np.inf, -2.0],
+        "q0.9": [2.0, 3.0, 4.0, 5.0], "segment": pd.Categorical(["a", "b", "a", None]),
+    }, index=[7, 8, 9, 10])
+    frame.to_parquet(tmp_path / "pandas.parquet", index=False)
+    write_snapshot(frame, str(tmp_path / "snapshot.parquet"))
+    ours, theirs = (pq.read_table(tmp_path / f"{name}.parquet") for name in ("snapshot", "pandas"))
+    assert ours.schema.equals(theirs.schema, check_metadata=True)
+    pd.testing.assert_frame_equal(pd.read_parquet(tmp_path / "snapshot.parquet"),
+                                  pd.read_parquet(tmp_path / "pandas.parquet"))
+    meta = pq.ParquetFile(tmp_path / "snapshot.parquet").metadata.row_group(0)
+    chunks = {meta.column(i).path_in_schema: meta.column(i) for i in range(meta.num_columns)}
+    assert {c for c, m in chunks.items() if m.compression == "UNCOMPRESSED"} == {"forecast",
+                                                                                 "q0.9"}
+    assert {c for c, m in chunks.items() if m.is_stats_set} == {"period", "issued"}
+    assert not any("DICTIONARY" in str(m.encodings) for m in (chunks["forecast"],
+                                                              chunks["q0.9"]))
+
+
 def test_stage_that_fails_half_way_leaves_no_file(tmp_path: Path,
                                                    monkeypatch: pytest.MonkeyPatch) -> None:
-    def half_then_disk_full(self: pd.DataFrame, path: Path, **_: object) -> None:
+    import pyarrow.parquet as pq
+
+    def half_then_disk_full(table: object, path: str, **_: object) -> None:
         Path(path).write_bytes(b"PAR1 half a file")
         raise OSError(28, "No space left on device", str(path))
 
-    monkeypatch.setattr(pd.DataFrame, "to_parquet", half_then_disk_full)
+    monkeypatch.setattr(pq, "write_table", half_then_disk_full)
     archive = Archive(tmp_path / "archive")
     with pytest.raises(ArchiveError, match="No space left on device"):
         archive.stage(pd.DataFrame({"x": [1.0]}), CURRENT)
@@ -345,11 +374,13 @@ def test_archive_write_failing_half_way_leaves_no_file_and_no_record(
     config = load_config(project.config)
     before = final_snapshots(config)
     if fails == "stage":
-        def half_then_disk_full(self: pd.DataFrame, path: Path, **_: object) -> None:
+        import pyarrow.parquet as pq
+
+        def half_then_disk_full(table: object, path: str, **_: object) -> None:
             Path(path).write_bytes(b"PAR1 half a file")
             raise OSError(28, "No space left on device", str(path))
 
-        monkeypatch.setattr(pd.DataFrame, "to_parquet", half_then_disk_full)
+        monkeypatch.setattr(pq, "write_table", half_then_disk_full)
     else:
         import accuracy_checks.store.archive as archive_module
 
