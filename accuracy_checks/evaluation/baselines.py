@@ -197,7 +197,6 @@ class ActualsIndex:
         self._dense = self.n_series * self.span <= max(
             _DENSE_CELLS_PER_ROW * rows, _DENSE_MIN_CELLS
         )
-        self._last: np.ndarray | None = None
         if self._dense:  # time-major: a period's actuals are contiguous
             self._matrix = np.full((self.span, max(self.n_series, 1)), np.nan)
             self._matrix[col, series] = values
@@ -236,7 +235,7 @@ class ActualsIndex:
         for code, size in zip(codes, self._radix, strict=True):
             comb = comb * size + code
         final = self._number_series(comb, comb.size)  # key order: the index of every row's
-        self.p0, self.span, self._last = p0, span, None
+        self.p0, self.span = p0, span
         self._dense = matrix is not None
         if matrix is not None:
             order = np.argsort(final)
@@ -311,12 +310,15 @@ class ActualsIndex:
         col = np.clip(pos - self.p0, -1, self.span - 1)
         ok = (series >= 0) & (col >= 0)
         out = np.full(series.shape, np.nan)
-        if self._dense:
-            last = self._last_index()
-            j = np.full(series.shape, -1, dtype=np.int64)
-            j[ok] = last[col[ok], series[ok]]
-            got = j >= 0
-            out[got] = self._matrix[j[got], series[got]]
+        if self._dense:  # step back one period at a time, only for the rows still missing
+            at = np.flatnonzero(ok)
+            c, s = col[at], series[at]
+            while at.size:
+                value = self._matrix[c, s]
+                hit = ~np.isnan(value)
+                out[at[hit]] = value[hit]
+                more = ~hit & (c > 0)
+                at, c, s = at[more], c[more] - 1, s[more]
             return out
         if self._vkeys.size == 0:
             return out
@@ -328,18 +330,6 @@ class ActualsIndex:
         found[hit] = self._vvalues[at_c[hit]]
         out[ok] = found
         return out
-
-    def _last_index(self) -> np.ndarray:
-        """Per (period, series): the period of the last non-missing actual up to it, or −1."""
-        if self._last is None:
-            dtype = np.int16 if self.span < (1 << 15) else np.int32
-            last = np.empty(self._matrix.shape, dtype=dtype)
-            ramp = np.arange(self.span, dtype=dtype)[:, None]
-            for start, stop in self._blocks():
-                block = np.where(np.isnan(self._matrix[:, start:stop]), dtype(-1), ramp)
-                last[:, start:stop] = np.maximum.accumulate(block, axis=0)
-            self._last = last
-        return self._last
 
     def _blocks(self) -> list[tuple[int, int]]:
         """Blocks of series (matrix columns) of about ``_BLOCK_CELLS`` cells."""
