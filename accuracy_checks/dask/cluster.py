@@ -62,7 +62,7 @@ def open_client(engine: Engine) -> Iterator[Client]:
         return
     cluster = distributed.LocalCluster(
         n_workers=engine.workers or DEFAULT_WORKERS, threads_per_worker=1, processes=True,
-        memory_limit=engine.memory_limit or "auto", dashboard_address=None,
+        memory_limit=engine.memory_limit or "auto", dashboard_address=":0",
         silence_logs=40)
     try:
         with distributed.Client(cluster) as client:

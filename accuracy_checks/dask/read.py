@@ -131,7 +131,7 @@ def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int = PIEC
 
 def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] = (),
                n_shards: int = 0, rename: dict[str, str] | None = None,
-               text: Sequence[str] = ()) -> pd.DataFrame:
+               text: Sequence[str] = (), head: int | None = None) -> pd.DataFrame:
     """One piece's ``columns`` converted to their canonical dtypes and names (key columns and
     the ``text`` columns present as plain text, so every piece has the same dtypes), with
     ``__order`` and, when ``n_shards``, ``__shard`` of the series (``keys``: canonical key
@@ -140,7 +140,8 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     wanted = list(dict.fromkeys(c.name for c in columns))
     try:
         if piece.row_groups is not None:
-            raw = _parquet(piece, wanted, [c.name for c in columns if c.kind != "number"])
+            raw = _parquet(piece, wanted, [c.name for c in columns if c.kind != "number"],
+                           head)
         else:
             raw = _csv(piece.file, columns, piece.role)
     except READ_ERRORS as exc:
@@ -197,7 +198,8 @@ def shard_of(frame: pd.DataFrame, keys: Sequence[str], n_shards: int) -> np.ndar
     return (hashed % np.uint64(n_shards)).astype(np.int32)
 
 
-def _parquet(piece: Piece, wanted: list[str], dictionary: list[str]) -> pd.DataFrame:
+def _parquet(piece: Piece, wanted: list[str], dictionary: list[str],
+             head: int | None = None) -> pd.DataFrame:
     import pyarrow as pa
     import pyarrow.parquet as pq
 
@@ -208,6 +210,10 @@ def _parquet(piece: Piece, wanted: list[str], dictionary: list[str]) -> pd.DataF
                     or pa.types.is_large_string(schema.field(n).type))]
     handle = pq.ParquetFile(piece.file, read_dictionary=strings)
     assert piece.row_groups is not None
+    if head is not None:  # the first rows only (the dataframe's dtypes)
+        batch = next(handle.iter_batches(batch_size=head, row_groups=[piece.row_groups[0]],
+                                         columns=wanted))
+        return batch.to_pandas()
     return handle.read_row_groups(list(piece.row_groups), columns=wanted).to_pandas()
 
 
@@ -239,10 +245,11 @@ class PieceReader:
     text: tuple[str, ...] = ()
     after: Any = None
 
-    def __call__(self, item: Piece | tuple[int, Piece]) -> pd.DataFrame:
+    def __call__(self, item: Piece | tuple[int, Piece], head: int | None = None
+                 ) -> pd.DataFrame:
         place, piece = item if isinstance(item, tuple) else (0, item)
         frame = read_piece(piece, self.columns, keys=self.keys, n_shards=self.n_shards,
-                           rename=dict(self.rename) or None, text=self.text)
+                           rename=dict(self.rename) or None, text=self.text, head=head)
         return self.after(frame, place) if self.after is not None else frame
 
 
@@ -250,5 +257,5 @@ def piece_frame(reader: PieceReader, items: Sequence[Any]) -> Any:
     """The pieces as one dask dataframe (its dtypes from the first piece's rows)."""
     import dask.dataframe as dd
 
-    meta = reader(items[0]).iloc[:0]
+    meta = reader(items[0], head=64).iloc[:0]
     return dd.from_map(reader, list(items), meta=meta, enforce_metadata=False)

@@ -20,7 +20,7 @@ import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.dask.read import ORDER, SHARD
-from accuracy_checks.evaluation.join import prune_earlier
+from accuracy_checks.evaluation.join import CYCLE_START, prune_earlier
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.load import _concat, _history_frame, _segments_of_archived, quiet
 from accuracy_checks.sources.readers import refuse_repeated_actuals
@@ -82,7 +82,8 @@ def prune_history_piece(frame: pd.DataFrame, config: Config, plan: Plan,
     prune_earlier` with the place's cycle starts)."""
     frame = frame.loc[frame[F.ISSUED] < plan.issued]
     if not len(frame):
-        return frame.iloc[:0].assign(**{F.LAG: pd.Series(dtype="int64")})
+        return frame.iloc[:0].assign(**{CYCLE_START: pd.Series(dtype="datetime64[ns]"),
+                                        F.LAG: pd.Series(dtype="int64")})
     starts = plan.history_starts[place]
     keep = [c for c in frame.columns if c in (ORDER, SHARD)]
     pruned = prune_earlier(frame.drop(columns=keep).assign(**{"__row": np.arange(len(frame))}),

@@ -24,8 +24,8 @@ imports Prefect. Use::
   :data:`WARNED_STATE_NAME`; an unusable config or input ends it ``Failed`` with the CLI's
   one-paragraph message and no traceback of ours. ``alert=`` takes your callable, which
   receives the report.
-- :mod:`.fanout`: the accuracy measures of many segments computed on Prefect's Dask task
-  runner from mergeable statistics, equal to the single-process figures.
+- on a flow run by ``DaskTaskRunner``, ``check_forecast(engine="dask")`` checks the series
+  in shards on the flow's own cluster (``flows/dask_gate.py``; docs/engines.md).
 
 Remember Prefect's rule: a flow that returns ``None`` ends ``Completed`` even when a task in it
 failed; return the failed state (:func:`first_failure`) or raise.

@@ -133,11 +133,14 @@ def run_gate(config: Config | str | Path, *, forecast_path: str | Path | None = 
              label: str | None = None,
              progress: Callable[[str], None] | None = None,
              forecast: Any = None, actuals: Any = None, history: Any = None,
-             mapping: Any = None) -> RunReport:
+             mapping: Any = None, engine: str | None = None,
+             scheduler: str | None = None) -> RunReport:
     """Load ``config`` (a path or a loaded :class:`~accuracy_checks.config.Config`) and run
     :func:`~accuracy_checks.engine.run_checks`: read, check, judge, apply waivers, snapshot
     and record the run in the audit store. ``forecast``, ``actuals``, ``history`` and
-    ``mapping`` take frames (pandas or pyarrow) in place of the config's places. Raises
+    ``mapping`` take frames (pandas or pyarrow) in place of the config's places. ``engine``
+    and ``scheduler`` override the config's ``engine`` key; the dask engine run inside a task
+    of a flow on ``DaskTaskRunner`` (no scheduler given) uses that flow's cluster. Raises
     ``UsageError`` on an unusable config or input (then nothing is recorded)."""
     from accuracy_checks.api import read_config
     from accuracy_checks.engine import run_checks
@@ -146,7 +149,8 @@ def run_gate(config: Config | str | Path, *, forecast_path: str | Path | None = 
     return run_checks(cfg, forecast_path=Path(forecast_path) if forecast_path else None,
                       actuals_path=Path(actuals_path) if actuals_path else None,
                       progress=progress, snapshot=snapshot, label=label,
-                      forecast=forecast, actuals=actuals, history=history, mapping=mapping)
+                      forecast=forecast, actuals=actuals, history=history, mapping=mapping,
+                      engine=engine, scheduler=scheduler)
 
 
 def findings(report: RunReport, n: int = MAX_FINDINGS) -> list[str]:
@@ -312,6 +316,8 @@ def check_forecast(
     actuals: Any = None,
     history: Any = None,
     mapping: Any = None,
+    engine: Literal["pandas", "dask"] | None = None,
+    scheduler: str | None = None,
 ) -> State:
     """Gate a forecast: run the checks of ``config``, record the run, publish artifacts, then
     pass, warn or fail (see the module docstring for the contract of each outcome).
@@ -324,7 +330,9 @@ def check_forecast(
     ``label`` is kept with the audit record (default: ``<flow>/<flow run name> (<id>)``);
     ``fail_on="warn"`` fails on warnings too; ``alert`` is called with the report when the
     verdict is in ``alert_on``; ``artifact_key`` prefixes the artifacts' keys (lower-case
-    letters, digits and dashes).
+    letters, digits and dashes); ``engine``/``scheduler`` choose the engine (default: the
+    config's ``engine``): on a flow whose task runner is ``DaskTaskRunner`` the dask engine
+    checks the shards on the flow's own cluster (docs/engines.md).
     """
     if fail_on not in ("warn", "fail"):
         raise ValueError(f"fail_on must be 'warn' or 'fail', got {fail_on!r}")
@@ -337,7 +345,8 @@ def check_forecast(
         report = run_gate(config, forecast_path=forecast_path, actuals_path=actuals_path,
                           snapshot=snapshot, label=label or _default_label(),
                           progress=logger.info, forecast=forecast, actuals=actuals,
-                          history=history, mapping=mapping)
+                          history=history, mapping=mapping, engine=engine,
+                          scheduler=scheduler)
     except UsageError as exc:
         logger.error(cli_message(exc))
         return usage_failure(exc)

@@ -386,23 +386,6 @@ def test_cli_json_of_an_overflow_is_strict(make_project: Callable[..., Project],
     assert "beyond the floating-point range" in console
 
 
-def test_fanned_out_statistics_judge_an_overflow_the_same_way(
-        make_project: Callable[..., Project]) -> None:
-    from accuracy_checks.prefect.fanout import judge_stats
-
-    config = load_config(make_project().config)
-    rows = pd.DataFrame({"lag": 1, "segment": ["tools", "tools", "plants", "plants"],
-                         "actual": [1.0, 2.0, 10.0, 12.0],
-                         "forecast": [1e308, 1e308, 11.0, 12.0]})
-    stats = error_stats(rows, ["lag", "segment"]).assign(n_series=2)
-    by = {(r.segment, r.measure): r for r in judge_stats(stats, config)}
-    assert (by[("tools", "wape")].status, by[("tools", "wape")].reason) == ("fail", "overflow")
-    assert (by[("tools", "rmse")].status, by[("tools", "rmse")].reason) == ("skipped",
-                                                                             "overflow")
-    assert by[("plants", "wape")].value == pytest.approx(100 * 1 / 22, rel=1e-12)
-    assert all(not NON_FINITE_TOKEN.search(r.message) for r in by.values())
-
-
 def test_a_share_beyond_the_float_range_is_none() -> None:
     from accuracy_checks.measures.data import MeasureData, MeasureSettings
 

@@ -14,5 +14,5 @@ def cluster() -> Iterator[str]:
     import distributed
 
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=None, silence_logs=40) as local:
+                                  dashboard_address=":0", silence_logs=40) as local:
         yield local.scheduler_address

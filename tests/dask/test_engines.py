@@ -66,6 +66,19 @@ def test_problems_of_every_family(make_project: Callable[..., Project], cluster:
     compare(pandas_report, dask_report)
 
 
+def test_overflow_is_judged_the_same_way(make_project: Callable[..., Project],
+                                        cluster: str) -> None:
+    """Sums beyond the float64 range: ``value: null``, reason ``overflow``, on both engines."""
+    earlier = pd.concat([forecast_frame(pd.Timestamp(d)) for d in ("2026-02-16", "2026-02-23")],
+                        ignore_index=True)
+    hit = (earlier["store"] == "S1") & (earlier["product"] == "P1") & \
+        (earlier["week"] == earlier["issued_on"])
+    earlier.loc[hit, "units"] = 1.5e308
+    pandas_report, dask_report = both(make_project(earlier=earlier).config, cluster)
+    assert any(r.reason == "overflow" for r in pandas_report.results)
+    compare(pandas_report, dask_report)
+
+
 def test_archive_cycles_and_series_count(make_project: Callable[..., Project],
                                          cluster: str) -> None:
     """Earlier cycles from the archive (recorded by pandas runs), the previous cycle's series

@@ -41,7 +41,7 @@ from accuracy_checks.store import open_store
 from flows.forecasting import forecast_next_cycle, write_forecast
 from flows.nightly_forecast import main as nightly_main
 from flows.nightly_forecast import run_nightly
-from tests.support.project import CONFIG, EARLIER, Project, forecast_frame
+from tests.support.project import EARLIER, Project, forecast_frame
 
 Make = Callable[..., Project]
 from tests.support.paths import REPO  # noqa: E402
@@ -290,36 +290,21 @@ def test_demo_nights_publish_one_cycle_and_stop_the_other(tmp_path: Path) -> Non
     assert len(published) == 13 * published.groupby(["store", "product"]).ngroups
 
 
-def test_dask_fan_out_equals_the_single_process_figures(tmp_path: Path) -> None:
+def test_the_gate_runs_on_the_flows_dask_cluster(tmp_path: Path) -> None:
+    """check_forecast(engine="dask") on DaskTaskRunner: the shards are checked on the flow's
+    cluster (the snapshot is the dask engine's partitioned one), with the pandas verdict."""
     from accuracy_checks.demo.scenario import generate_scenario
-    from accuracy_checks.engine import run_checks
+    from flows.dask_gate import dask_gate
     from flows.demo_nightly import LATEST_CONFIG, latest_config_text
-    from flows.fan_out_dask import fan_out_accuracy
 
     scenario = generate_scenario(tmp_path / "demo")
     config = scenario.out_dir / LATEST_CONFIG
     config.write_text(latest_config_text(scenario), encoding="utf-8")
-    state = fan_out_accuracy(str(config), partitions=3, return_state=True)
-    assert state.is_completed()
-    fanned = state.result()
-    report = run_checks(load_config(config), snapshot=False)
-    single = {(r.segment, r.lag, r.measure): r.to_dict() for r in report.results
-              if r.check == "accuracy"}
-    assert len(fanned) == 84  # 7 core measures × (5 segments + "*") × 2 lags
-    assert any(r["status"] == "fail" for r in fanned)  # the pet-care bias
-    for r in fanned:
-        ref = single[(r["segment"], r["lag"], r["measure"])]
-        for field in ("status", "n_obs", "n_series", "warn", "fail", "reason"):
-            assert r[field] == ref[field], (field, r, ref)
-        if ref["value"] is None:
-            assert r["value"] is None
-        else:
-            assert r["value"] == pytest.approx(ref["value"], rel=1e-12, abs=1e-12)
-
-    bad = tmp_path / "bad.yaml"
-    bad.write_text(CONFIG.format(extra="  segmnts: {}\n"), encoding="utf-8")
-    state = fan_out_accuracy(str(bad), return_state=True)
-    assert state.is_failed() and state.message.startswith("accuracy-checks: error: ")
+    expected = run_checks(load_config(config), snapshot=False)
+    state = dask_gate(str(config), return_state=True)
+    assert state.is_failed() == (expected.status == "fail")
+    snapshots = list((scenario.out_dir / ".accuracy_checks" / "archive").glob("cycle=*/*"))
+    assert snapshots and all(s.is_dir() and any(s.glob("part-*.parquet")) for s in snapshots)
 
 
 def test_the_readme_deployment_schedules_the_flow_every_night() -> None:

@@ -1,6 +1,5 @@
 """The Prefect integration without a Prefect server: the gate task's body (``task.fn``), the
-example pipelines' forecaster and the plain CI step (the fan-out's mergeable statistics:
-``test_fanout.py``).
+example pipelines' forecaster and the plain CI step (the dask engine: ``tests/dask/``).
 
 Flow-level tests against a Prefect server are in ``test_flows.py`` (one test harness).
 """
