@@ -27,7 +27,8 @@ from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
 
-__all__ = ["ActualsSummary", "ForecastSummary", "actuals_summary", "combine_forecast",
+__all__ = ["ActualsSummary", "ForecastSummary", "actual_periods_piece", "actuals_summary",
+           "combine_forecast", "combine_periods",
            "forecast_summary", "history_starts", "min_starts", "pruned_starts"]
 
 
@@ -114,3 +115,38 @@ def pruned_starts(piece: Piece, place: int, *, config: Config, plan: object) -> 
     frame = prune_history_piece(read_piece(piece, _dates(config, "history")), config, plan,
                                 place)
     return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
+
+
+def actual_periods_piece(piece: Piece, config: Config) -> np.ndarray | None:
+    """The distinct periods holding a (non-null) actual in one Parquet piece, read from its
+    period and value columns only, as :func:`~accuracy_checks.sources.prereads.
+    actual_periods` reads them (``None``: a CSV file, or a period column that is not a
+    timestamp: then the run reads every row, as the pandas engine does)."""
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    from accuracy_checks.sources.files import is_timestamp
+
+    ac = config.actuals
+    if piece.row_groups is None:
+        return None
+    handle = pq.ParquetFile(piece.file)
+    schema = handle.schema_arrow
+    if (not is_timestamp(schema, ac.period)
+            or len(schema.get_all_field_indices(ac.value)) != 1):
+        return None
+    table = handle.read_row_groups(list(piece.row_groups), columns=[ac.period, ac.value])
+    present = pc.unique(pc.filter(table[ac.period], pc.is_valid(table[ac.value])))
+    return np.asarray(present.to_pandas())
+
+
+def combine_periods(parts: Sequence[np.ndarray | None]) -> pd.DatetimeIndex | None:
+    """The sorted distinct periods of every piece (``None`` if any piece cannot tell)."""
+    if any(p is None for p in parts):
+        return None
+    found = [pd.Series(p) for p in parts if p is not None and len(p)]
+    if not found:
+        return pd.DatetimeIndex([]).as_unit("ns")
+    periods = pd.DatetimeIndex(pd.concat(found, ignore_index=True).unique()).sort_values()
+    periods = periods.tz_localize(None) if periods.tz is not None else periods
+    return periods.as_unit("ns")

@@ -107,19 +107,21 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
     from accuracy_checks.dask.shards import HistoryPrune
     from accuracy_checks.evaluation.join import prune_earlier
     from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
-    from accuracy_checks.sources.prereads import actual_periods
     from accuracy_checks.sources.segments import read_mapping
 
     keys = list(config.forecast.keys)
     f_files, a_files, h_places = places
     needed = actuals_span(config)
-    found = actual_periods(config, actuals_path) if needed is not None else None
+    every_a = pieces(a_files, "actuals")
+    # the pre-read of the periods holding an actual (as sources/prereads.py), on the workers
+    found = P.combine_periods(client.gather(client.map(
+        P.actual_periods_piece, every_a, config=config, pure=False))) \
+        if needed is not None else None
     cut = needed is not None and found is not None and len(found) > needed
     kept = tuple(pd.Timestamp(p) for p in found[-needed:]) if cut and found is not None \
         and needed is not None else None
 
     f_pieces = pieces(f_files, "forecast")
-    every_a = pieces(a_files, "actuals")
     # the actuals read: only the row groups that may hold a kept period
     a_pieces = pieces(a_files, "actuals", column=config.actuals.period, wanted=kept) \
         if kept is not None else every_a
