@@ -177,12 +177,13 @@ def _group_labels(data: MeasureData, window: str, grouping: str,
 
 def _candidates(data: MeasureData, labels: pd.DataFrame, plan: AccuracyPlan) -> pd.DataFrame:
     """Per (group, series) the sums ``worst_offenders`` ranks by, with the label of the
-    series' first row, scored under every ordering (the shard's top k kept by the caller)."""
+    series' first row: the shard's first ``plan.offenders`` of each group under every
+    ordering (one lexsort per ordering on integer codes; labels read for those only)."""
     units = data.units()
-    if units.n == 0 or plan.offenders <= 0:
+    limit = plan.offenders
+    if units.n == 0 or limit <= 0:
         return pd.DataFrame(columns=[*GROUP_KEYS, "ordering", "comb", "score"])
-    inside = units.code >= 0
-    rows = np.flatnonzero(inside)
+    rows = np.flatnonzero(units.code >= 0)
     unit = units.code[rows]
     sum_e = np.bincount(unit, weights=data.error[rows], minlength=units.n)
     sum_abs = np.bincount(unit, weights=np.abs(data.error[rows]), minlength=units.n)
@@ -190,15 +191,27 @@ def _candidates(data: MeasureData, labels: pd.DataFrame, plan: AccuracyPlan) -> 
     first = pd.Series(unit).drop_duplicates().index.to_numpy()
     first_of = np.empty(units.n, dtype=np.int64)
     first_of[unit[first]] = rows[first]
-    firsts = data.rows.iloc[first_of]
-    base = labels.iloc[units.group].reset_index(drop=True).assign(
-        comb=series_order(firsts, plan.keys), sum_e=sum_e, sum_abs=sum_abs,
-        count=count.astype(np.int64))
+    comb = series_order(data.rows[plan.keys].iloc[first_of], plan.keys)
+    picked, orderings, picked_scores = [], [], []
+    for ordering in ORDERINGS:
+        score = scores(sum_e, sum_abs, ordering)
+        order = np.lexsort((comb, -score, units.group))
+        group = units.group[order]
+        rank = np.arange(order.size) - np.searchsorted(group, group, side="left")
+        keep = order[rank < limit]
+        picked.append(keep)
+        orderings.append(np.full(keep.size, ordering, dtype=object))
+        picked_scores.append(score[keep])
+    chosen = np.concatenate(picked)
+    firsts = data.rows[[*plan.keys, F.SEGMENT]].iloc[first_of[chosen]]
+    out = labels.iloc[units.group[chosen]].reset_index(drop=True).assign(
+        ordering=np.concatenate(orderings), comb=comb[chosen], score=np.concatenate(
+            picked_scores), sum_e=sum_e[chosen], sum_abs=sum_abs[chosen],
+        count=count[chosen].astype(np.int64))
     for name in plan.keys:
-        base[f"label:{name}"] = firsts[name].astype(object).to_numpy()
-    base[LABEL_SEGMENT] = firsts[F.SEGMENT].astype(object).to_numpy()
-    parts = [base.assign(ordering=o, score=scores(sum_e, sum_abs, o)) for o in ORDERINGS]
-    return pd.concat(parts, ignore_index=True)
+        out[f"label:{name}"] = firsts[name].astype(object).to_numpy()
+    out[LABEL_SEGMENT] = firsts[F.SEGMENT].astype(object).to_numpy()
+    return out
 
 
 def _cycles(frame: pd.DataFrame) -> set[tuple[pd.Timestamp, int | None, str]]:

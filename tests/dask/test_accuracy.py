@@ -9,6 +9,7 @@ checks, statuses, reasons, counts, examples (and their order), messages and deta
 from __future__ import annotations
 
 import math
+import pickle
 from collections.abc import Sequence
 from pathlib import Path
 from typing import Any
@@ -56,8 +57,9 @@ def by_shards(config: Config, earlier: pd.DataFrame, actuals: pd.DataFrame, n: i
                          cycle_starts=dict(zip(starts.index, starts.to_numpy(), strict=True)))
     keys = list(config.forecast.keys)
     e_shard, a_shard = shard_codes(earlier, actuals, keys, n, seed)
-    parts = [accuracy_partial(plan, earlier.loc[e_shard == i], actuals.loc[a_shard == i])
-             for i in range(n)]
+    # each partial travels pickled, as between dask workers
+    parts = [pickle.loads(pickle.dumps(accuracy_partial(
+        plan, earlier.loc[e_shard == i], actuals.loc[a_shard == i]))) for i in range(n)]
     rng = np.random.default_rng(seed + 1)
     rng.shuffle(parts)  # type: ignore[arg-type]
     while len(parts) > 1:  # a tree of pairwise merges
