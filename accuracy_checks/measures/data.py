@@ -294,11 +294,14 @@ class MeasureData:
 
     def gsum(self, weights: np.ndarray | None = None, mask: np.ndarray | None = None
              ) -> np.ndarray:
-        """Per group: the sum of ``weights`` (a count when ``None``) over the rows in ``mask``."""
-        group = self.group if mask is None else self.group[mask]
-        if weights is not None and mask is not None:
-            weights = weights[mask]
-        out = np.bincount(group, weights=weights, minlength=self.n_groups)
+        """Per group: the sum of ``weights`` (a count when ``None``) over the rows in ``mask``.
+
+        The rows outside ``mask`` add an exact 0.0 instead of being cut out (no compacted
+        copies; a float sum never changes by adding +0.0 in the same row order).
+        """
+        if mask is not None:
+            weights = mask if weights is None else np.where(mask, weights, 0.0)
+        out = np.bincount(self.group, weights=weights, minlength=self.n_groups)
         return out.astype(np.float64, copy=False)
 
     @cached_property
