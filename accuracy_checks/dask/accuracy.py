@@ -141,7 +141,12 @@ def merge_partials(parts: Sequence[AccuracyPartial]) -> AccuracyPartial:
     segments: dict[str, int] = {}
     cycles: set[tuple[pd.Timestamp, int | None, str]] = set()
     for p in kept:
-        segments.update(p.segments)
+        for label, rank in p.segments.items():
+            if segments.setdefault(label, rank) != rank:
+                raise ValueError(
+                    f"the shards number segment {label!r} differently ({segments[label]} and "
+                    f"{rank}): every shard's segment and key columns must be categoricals with "
+                    "the run's categories (as sources.load.Inputs holds them)")
         cycles |= p.cycles
     limit = max((_limit(p.candidates) for p in kept), default=0)
     tables = {}

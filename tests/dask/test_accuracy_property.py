@@ -135,3 +135,16 @@ def test_a_measure_without_a_mergeable_form_is_refused_naming_the_pandas_engine(
     with pytest.raises(ConfigError, match=r"'trigg' is not yet available on the dask engine"
                        r".*engine: pandas"):
         accuracy_plan(config(True, 2), actual_periods=[], cycle_starts={})
+
+
+def test_shards_with_their_own_categories_are_refused() -> None:
+    """The pandas engine orders segments and series by the run's categories: shards that
+    number them differently cannot be merged into its order."""
+    import dataclasses
+
+    from accuracy_checks.dask.accuracy import AccuracyPartial, merge_partials
+
+    one = AccuracyPartial(n_rows=1, segments={"a": 0, "b": 1})
+    other = dataclasses.replace(one, segments={"b": 0})
+    with pytest.raises(ValueError, match="number segment 'b' differently"):
+        merge_partials([one, other])
