@@ -146,20 +146,14 @@ class Units:
 
 def dense_codes(combined: np.ndarray, cells: int) -> tuple[np.ndarray, np.ndarray]:
     """Compress non-negative integer codes below ``cells`` to ``0 … k − 1`` (in code order):
-    ``(code per row, original code of each new code)``. One ``bincount`` when ``cells`` is
-    small next to the rows; a presence mask and a lookup (1 + 4 bytes a cell, no sort) while
-    ``cells`` stays within 16 a row; else a hash factorisation (sorted). All three give the
-    same codes.
+    ``(code per row, original code of each new code)``. A presence mask and a lookup (1 + 4
+    bytes a cell, no sort) while ``cells`` stays within 16 a row, else a hash factorisation
+    (sorted). Both give the same codes.
 
     >>> dense_codes(np.array([7, 2, 7, 9]), 10)
     (array([1, 0, 1, 2]), array([2, 7, 9]))
     """
-    if cells <= max(4 * combined.size, 1 << 20):
-        present = np.flatnonzero(np.bincount(combined, minlength=cells))
-        lookup = np.full(cells, -1, dtype=np.int64)
-        lookup[present] = np.arange(present.size, dtype=np.int64)
-        return lookup[combined], present
-    if cells <= min(16 * combined.size, np.iinfo(np.int32).max):
+    if cells <= min(max(16 * combined.size, 1 << 20), np.iinfo(np.int32).max):
         mask = np.zeros(cells, dtype=bool)
         mask[combined] = True
         present = np.flatnonzero(mask)
