@@ -223,8 +223,9 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     inputs: Inputs | None = None
     if settings.name == "dask":
         from accuracy_checks.dask.cluster import open_client
-        from accuracy_checks.dask.run import evaluate_on_dask
+        from accuracy_checks.dask.run import evaluate_on_dask, refuse_plugins
 
+        refuse_plugins()
         with open_client(settings) as client:
             done = evaluate_on_dask(config, client, forecast_path=forecast_path,
                                     actuals_path=actuals_path, progress=progress,
@@ -235,7 +236,7 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     else:
         inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
                              progress=progress, archive=archived_cycles(config, recorded),
-                             frames=frames, reduce_history=True)
+                             frames=frames)
         results = evaluate(config, inputs, progress=progress)
         issued, info = inputs.issued, inputs.info
     cycle = cycle_label(issued)
@@ -428,7 +429,7 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = quiet) -> l
         previous_label=inputs.previous_label))
 
     results += stage("accuracy", lambda: run_accuracy(config, inputs.earlier, inputs.actuals,
-                                                      book=book, history=inputs.history))
+                                                      book=book))
     results += unmatched_thresholds(config, inputs)
     results += run_check_plugins(inputs, config, book)
     return results
