@@ -236,7 +236,7 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     else:
         inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
                              progress=progress, archive=archived_cycles(config, recorded),
-                             frames=frames)
+                             frames=frames, reduce_history=True)
         results = evaluate(config, inputs, progress=progress)
         issued, info = inputs.issued, inputs.info
     cycle = cycle_label(issued)
@@ -429,7 +429,7 @@ def evaluate(config: Config, inputs: Inputs, *, progress: Progress = quiet) -> l
         previous_label=inputs.previous_label))
 
     results += stage("accuracy", lambda: run_accuracy(config, inputs.earlier, inputs.actuals,
-                                                      book=book))
+                                                      book=book, history=inputs.history))
     results += unmatched_thresholds(config, inputs)
     results += run_check_plugins(inputs, config, book)
     return results
