@@ -181,3 +181,13 @@ def test_parquet_inputs_with_older_actuals(make_project: Callable[..., Project],
                   if r.check == "coverage.unexpected_series" and r.segment == "*")
     assert unexpected.value == 1 and unexpected.examples[0]["store"] == "S9"
     compare(pandas_report, dask_report)
+
+
+def test_frames_in_memory_are_read_on_the_client(make_project: Callable[..., Project],
+                                                 cluster: str) -> None:
+    """Frames given to run_checks (not local files): read by the pandas readers on the client,
+    then sharded; the same results."""
+    project = make_project()
+    frames = {"forecast": pd.read_csv(project.data / "forecast.csv"),
+              "actuals": pd.read_csv(project.data / "actuals.csv")}
+    compare(*both(project.config, cluster, **frames))
