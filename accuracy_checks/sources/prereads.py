@@ -134,7 +134,6 @@ def actual_periods(config: Config, path: Place | None = None) -> pd.DatetimeInde
     """The sorted distinct periods that hold at least one actual, read from the period and
     value columns of Parquet files (or a table) only (``None`` when a file is CSV or its period
     column is not a timestamp: such inputs are read whole)."""
-    import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
     ac = config.actuals
@@ -155,17 +154,51 @@ def actual_periods(config: Config, path: Place | None = None) -> pd.DatetimeInde
             if (not is_timestamp(schema, ac.period)
                     or len(schema.get_all_field_indices(ac.value)) != 1):
                 return None
-            table = pq.read_table(f, columns=[ac.period, ac.value])
+            found.append(_file_periods(pq.ParquetFile(f), ac.period, ac.value))
         except (OSError, ValueError):
             return None  # the full read reports the problem with its proper message
-        present = pc.filter(table[ac.period], pc.is_valid(table[ac.value]))
-        found.append(pc.unique(present).to_pandas())
     periods = pd.DatetimeIndex(pd.concat(found, ignore_index=True).unique()).sort_values()
     periods = periods.tz_localize(None) if periods.tz is not None else periods
     try:
         return periods.as_unit("ns")
     except (OutOfBoundsDatetime, OverflowError):
         return None  # dates beyond the calendar: the full read names them
+
+
+def _file_periods(file: Any, period: str, value: str) -> pd.Series:
+    """The distinct periods of one Parquet file that hold a value (not null), from the row
+    groups' statistics where they tell it without reading a row: a row group of one period
+    (min = max, none missing) holds a value unless its value column is null on every row.
+    Only the other row groups are read, and only their period and value columns."""
+    import pyarrow.compute as pc
+
+    names = [file.schema.column(i).path for i in range(len(file.schema))]
+    at_period, at_value = (names.index(n) if names.count(n) == 1 else -1 for n in (period, value))
+    unit = _naive_unit(file.schema.column(at_period)) if at_period >= 0 else None
+    meta = file.metadata
+    known: list[int] = []
+    unread: list[int] = []
+    for r in range(meta.num_row_groups):
+        group = meta.row_group(r)
+        if group.num_rows == 0:
+            continue
+        days = group.column(at_period).statistics if at_period >= 0 else None
+        values = group.column(at_value).statistics if at_value >= 0 else None
+        if (unit is not None and days is not None and values is not None
+                and days.has_min_max and days.has_null_count and days.null_count == 0
+                and days.min_raw == days.max_raw and values.has_null_count):
+            if values.null_count < group.num_rows:
+                known.append(days.min_raw)
+        else:
+            unread.append(r)
+    parts = []
+    if known:
+        parts.append(pd.Series(np.array(known, dtype=np.int64).astype(f"datetime64[{unit}]")))
+    if unread or not parts:
+        table = file.read_row_groups(unread, columns=[period, value])
+        present = pc.filter(table[period], pc.is_valid(table[value]))
+        parts.append(pc.unique(present).to_pandas())
+    return pd.concat(parts, ignore_index=True) if len(parts) > 1 else parts[0]
 
 
 def actual_series(config: Config, path: Place | None = None) -> pd.DataFrame:
