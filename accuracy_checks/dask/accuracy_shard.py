@@ -139,7 +139,10 @@ def reduce_shard(plan: AccuracyPlan, frame: pd.DataFrame, history: ActualsIndex 
             stats.append(pd.concat([labels, data.stats], axis=1))
             units = data.units()
             sums.append(labels.assign(n_series=data.series_per_group(units)))
-            candidates.append(_candidates(data, labels, plan))
+            bias = {get_measure(m).bias_type for m in plan.measures
+                    if get_measure(m).window == window}
+            wanted = [o for o in ORDERINGS if (o == "abs") in bias or (o != "abs") in bias]
+            candidates.append(_candidates(data, labels, plan, wanted))
             measured = [m for m in plan.measures if get_measure(m).window == window]
             for name, table in family_tables(measured, data, labels, history, cuts).items():
                 tables.setdefault(name, []).append(table)
@@ -175,10 +178,11 @@ def _group_labels(data: MeasureData, window: str, grouping: str,
     }, index=pd.RangeIndex(data.n_groups))
 
 
-def _candidates(data: MeasureData, labels: pd.DataFrame, plan: AccuracyPlan) -> pd.DataFrame:
+def _candidates(data: MeasureData, labels: pd.DataFrame, plan: AccuracyPlan,
+                orderings: list[str]) -> pd.DataFrame:
     """Per (group, series) the sums ``worst_offenders`` ranks by, with the label of the
-    series' first row: the shard's first ``plan.offenders`` of each group under every
-    ordering (one lexsort per ordering on integer codes; labels read for those only)."""
+    series' first row: the shard's first ``plan.offenders`` of each group under each of
+    ``orderings`` (those the window's measures can ask for; labels read for those only)."""
     units = data.units()
     limit = plan.offenders
     if units.n == 0 or limit <= 0:
@@ -192,20 +196,28 @@ def _candidates(data: MeasureData, labels: pd.DataFrame, plan: AccuracyPlan) -> 
     first_of = np.empty(units.n, dtype=np.int64)
     first_of[unit[first]] = rows[first]
     comb = series_order(data.rows[plan.keys].iloc[first_of], plan.keys)
-    picked, orderings, picked_scores = [], [], []
-    for ordering in ORDERINGS:
+    # the units in (group, series order); then per ordering two stable sorts: by score, then
+    # by group (a radix sort on small integers), so ties keep the series order
+    base = np.arange(units.n)
+    step_g, step_c = np.diff(units.group), np.diff(comb)
+    if not np.all((step_g > 0) | ((step_g == 0) & (step_c >= 0))):
+        base = np.lexsort((comb, units.group))
+    small = units.group.astype(np.int16 if data.n_groups < (1 << 15) else np.int64)
+    picked, chosen_orderings, picked_scores = [], [], []
+    for ordering in orderings:
         score = scores(sum_e, sum_abs, ordering)
-        order = np.lexsort((comb, -score, units.group))
+        order = base[np.argsort(-score[base], kind="stable")]
+        order = order[np.argsort(small[order], kind="stable")]
         group = units.group[order]
         rank = np.arange(order.size) - np.searchsorted(group, group, side="left")
         keep = order[rank < limit]
         picked.append(keep)
-        orderings.append(np.full(keep.size, ordering, dtype=object))
+        chosen_orderings.append(np.full(keep.size, ordering, dtype=object))
         picked_scores.append(score[keep])
     chosen = np.concatenate(picked)
     firsts = data.rows[[*plan.keys, F.SEGMENT]].iloc[first_of[chosen]]
     out = labels.iloc[units.group[chosen]].reset_index(drop=True).assign(
-        ordering=np.concatenate(orderings), comb=comb[chosen], score=np.concatenate(
+        ordering=np.concatenate(chosen_orderings), comb=comb[chosen], score=np.concatenate(
             picked_scores), sum_e=sum_e[chosen], sum_abs=sum_abs[chosen],
         count=count[chosen].astype(np.int64))
     for name in plan.keys:
