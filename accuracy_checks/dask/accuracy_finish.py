@@ -35,6 +35,7 @@ from accuracy_checks.dask.accuracy_tables import (
     AccuracyPlan,
     empty_data,
 )
+from accuracy_checks.evaluation.baselines import known_through
 from accuracy_checks.evaluation.join import _cycles_used
 from accuracy_checks.measures.data import MeasureData
 from accuracy_checks.measures.plugins import rejected_plugins
@@ -127,6 +128,7 @@ def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds) -> li
                   else f"no earlier forecast targets the window {span}")
         out = [_no_data(ALL_SERIES, lag, m.id, book, reason) for lag in plan.lags for m in defs]
     else:
+        _check_cut(plan, partial)
         merged = merged_view(plan, partial)
         with np.errstate(over="ignore", invalid="ignore"):
             out = _measure_all(merged, defs, book)
@@ -147,6 +149,17 @@ def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds) -> li
     out += [CheckResult("accuracy.plugins", Status.WARN, message=p.message, details=p.details)
             for p in rejected_plugins()]
     return out
+
+
+def _check_cut(plan: AccuracyPlan, partial: AccuracyPartial) -> None:
+    """The global MASE/MSIS cut must be one every shard computed: a cut of the plan's issue
+    dates (else a shard's sums for it would be missing, and the figure wrong)."""
+    if partial.cut is None:
+        return
+    cuts = known_through(pd.Series(plan.scale_issues, dtype="M8[ns]"), plan.frequency) + 1
+    if partial.cut not in set(cuts.tolist()):
+        raise ValueError("the earliest evaluated cycle is not among the plan's scale_issues: "
+                         "cycle_starts must hold every earlier cycle's issue date")
 
 
 def _measure_all(merged: Merged, defs: list[Measure], book: Thresholds) -> list[CheckResult]:

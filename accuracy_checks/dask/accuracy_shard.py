@@ -72,6 +72,11 @@ def evaluation_rows(plan: AccuracyPlan, earlier: pd.DataFrame, actuals: pd.DataF
         starts = pd.Series(list(plan.cycle_starts.values()),
                            index=pd.DatetimeIndex(list(plan.cycle_starts)), dtype="M8[ns]")
         first = starts.reindex(pd.DatetimeIndex(rows[F.ISSUED])).to_numpy()
+        unknown = pd.isna(first) & rows[F.ISSUED].notna().to_numpy()
+        if unknown.any():
+            missing = sorted({str(d.date()) for d in rows.loc[unknown, F.ISSUED]})
+            raise ValueError(f"the plan's cycle_starts lack the issue date(s) {missing}: it "
+                             "must hold every earlier cycle's first period over all series")
         rows = add_lags_for_subset(earlier, rows.assign(**{CYCLE_START: first}),
                                    plan.frequency).drop(columns=CYCLE_START)
     rows = rows.loc[rows[F.LAG].isin(plan.lags)]

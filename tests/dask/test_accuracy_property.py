@@ -148,3 +148,17 @@ def test_shards_with_their_own_categories_are_refused() -> None:
     other = dataclasses.replace(one, segments={"b": 0})
     with pytest.raises(ValueError, match="number segment 'b' differently"):
         merge_partials([one, other])
+
+
+def test_a_plan_without_a_cycle_start_is_refused_not_guessed() -> None:
+    from accuracy_checks.dask.accuracy import accuracy_partial
+
+    cfg = config(False, 2)
+    day = pd.Timestamp("2026-01-05")
+    earlier = pd.DataFrame({"sku": pd.Categorical(["s0"]), "period": [day], "issued": [day],
+                            "forecast": [1.0], "q0.1": [0.0], "q0.9": [2.0],
+                            "segment": pd.Categorical(["*"])})
+    actuals = earlier[["sku", "period", "segment"]].assign(actual=1.0)
+    plan = accuracy_plan(cfg, actual_periods=[day], cycle_starts={})
+    with pytest.raises(ValueError, match=r"cycle_starts lack the issue date\(s\) \['2026-01-05'\]"):
+        accuracy_partial(plan, earlier, actuals)
