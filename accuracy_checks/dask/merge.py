@@ -208,6 +208,9 @@ def run_shards(config: Config, client: Any, job: Job, *, progress: Progress,
     arch_frame = (job.info.get("older") if prepared else
                   _archived_frame(config, archived, job.ordinal_base, job.n_shards))
     acc_plan = accuracy_plan_or_none(config, plan, archived)
+    if acc_plan is None:
+        progress("dask engine: the accuracy stage of this config's measures has no mergeable "
+                 "form yet: the shards hand their evaluation rows to the client")
     stage = StagedParts.start(config, plan.issued) if snapshot else None
     plan_f = client.scatter(plan, broadcast=True)
     acc_f = client.scatter(acc_plan, broadcast=True) if acc_plan is not None else None
