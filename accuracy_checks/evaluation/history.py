@@ -14,12 +14,16 @@ every row as before: an older row whose actual is infinite or missing (the
 ``actuals.invalid_values`` check names such rows), a row the chunks did not cover (a period
 whose every actual is empty, a missing date: counted against the files' row count), a series
 with a missing key or without an on-grid row, any refusal of the reader (so its message names
-the whole file). Only local Parquet files are reduced (their row count is in the metadata).
+the whole file). Only local Parquet files are reduced (their row count and each row group's
+periods are in the metadata), and only when their row groups keep periods apart (a file sorted
+or partitioned by period: reading a chunk opens only its row groups); else every row is read
+once, as before.
 """
 
 from __future__ import annotations
 
 import json
+import time
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -52,6 +56,8 @@ class ReducedActuals:
     index: ActualsIndex
     #: rows read in all
     n_read: int
+    #: seconds the reading and the reduction took
+    seconds: float = 0.0
 
 
 class _Incomplete(Exception):
@@ -63,19 +69,22 @@ def read_reduced(config: Config, path: Place | None, *, keep: int,
     """The actuals reduced as the module doc says, or ``None`` (read every row instead)."""
     from accuracy_checks.sources.readers import read_actuals
 
+    t0 = time.perf_counter()
     files = _parquet_files(config, path)
     total = _stored_rows(files) if files is not None else None
-    periods = (_periods(config, files, path) if files is not None and total is not None
-               else None)
-    if total is None or periods is None or len(periods) <= keep:
+    layout = _layout(config, files) if files is not None and total is not None else None
+    if total is None or layout is None or len(layout.periods) <= keep:
         return None
+    periods = layout.periods
     recent, older = list(periods[-keep:]), list(periods[:-keep])
     step = max(1, chunk_rows * len(periods) // max(total, 1))
+    chunks = [older[start:start + step] for start in range(0, len(older), step)]
+    if 2 * layout.scanned([*chunks, recent]) > 3 * total:
+        return None  # row groups mixing far-apart periods: each chunk would read most rows
     builder = _Builder(list(config.forecast.keys), config.frequency, periods, total)
     try:
-        for start in range(0, len(older), step):
-            builder.add(read_actuals(config, path, periods=older[start:start + step]),
-                        old=True)
+        for chunk in chunks:
+            builder.add(read_actuals(config, path, periods=chunk), old=True)
         rows = read_actuals(config, path, periods=recent)
         builder.add(finite_actuals(rows), old=False)
         if builder.n_read != total:
@@ -83,7 +92,7 @@ def read_reduced(config: Config, path: Place | None, *, keep: int,
         index, series = builder.finish()
     except (_Incomplete, InputError):
         return None
-    return ReducedActuals(rows, series, index, builder.n_read)
+    return ReducedActuals(rows, series, index, builder.n_read, time.perf_counter() - t0)
 
 
 class _Registry:
@@ -285,50 +294,79 @@ def _stored_rows(files: list[Path]) -> int | None:
         return None
 
 
-def _periods(config: Config, files: list[Path], path: Place | None) -> pd.DatetimeIndex | None:
-    """The sorted distinct periods holding at least one actual (a non-null value), as
-    :func:`~accuracy_checks.sources.prereads.actual_periods` says, from the row groups'
-    statistics where they tell it (one period in the row group, a value not null): a file
-    sorted by period is not read here. Other row groups are read (the two columns only);
-    files whose period is not a naive INT64 timestamp go to ``actual_periods``."""
+@dataclass
+class _Layout:
+    """What the files' metadata tell: the periods with an actual and each row group's span."""
+
+    periods: pd.DatetimeIndex
+    #: per row group with rows: first and last period (as in the files) and its rows
+    first: np.ndarray
+    last: np.ndarray
+    rows: np.ndarray
+
+    def scanned(self, chunks: list[list[pd.Timestamp]]) -> int:
+        """Rows in the row groups that reading each chunk of periods opens (those whose span
+        meets the chunk's: the others are skipped by their statistics)."""
+        total = 0
+        for chunk in chunks:
+            lo, hi = np.datetime64(min(chunk), "ns"), np.datetime64(max(chunk), "ns")
+            total += int(self.rows[(self.first <= hi) & (self.last >= lo)].sum())
+        return total
+
+
+def _layout(config: Config, files: list[Path]) -> _Layout | None:
+    """The sorted distinct periods holding at least one actual (a non-null value, as
+    :func:`~accuracy_checks.sources.prereads.actual_periods` says) and the row groups' spans,
+    from the row groups' statistics where they tell it (one period in the row group, a value
+    not null); other row groups are read, the two columns only. ``None`` when a file's period
+    is not a naive INT64 timestamp or a row group has no statistics (the layout is unknown)."""
     import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
-    from accuracy_checks.sources.prereads import actual_periods
-
     ac = config.actuals
     found: list[np.ndarray] = []
+    first: list[np.ndarray] = []
+    last: list[np.ndarray] = []
+    rows: list[int] = []
     for f in files:
         try:
             file = pq.ParquetFile(f)
             names = [file.schema.column(i).path for i in range(len(file.schema))]
             if names.count(ac.period) != 1 or names.count(ac.value) != 1:
-                return actual_periods(config, path)
+                return None
             at, value_at = names.index(ac.period), names.index(ac.value)
             unit = _naive_unit(file.schema.column(at))
             if unit is None:
-                return actual_periods(config, path)
-            meta, unread = file.metadata, []
+                return None
+            meta, unread, lo, hi = file.metadata, [], [], []
             for r in range(meta.num_row_groups):
                 group = meta.row_group(r)
                 if group.num_rows == 0:
                     continue
                 day, value = group.column(at).statistics, group.column(value_at).statistics
-                if (day is not None and value is not None and day.has_min_max
-                        and day.has_null_count and value.has_null_count
+                if day is None or not day.has_min_max:
+                    return None
+                lo.append(day.min_raw)
+                hi.append(day.max_raw)
+                rows.append(group.num_rows)
+                if (value is not None and day.has_null_count and value.has_null_count
                         and day.null_count == 0 and day.min_raw == day.max_raw):
                     if value.null_count < group.num_rows:
                         found.append(np.array([day.min_raw], dtype=f"datetime64[{unit}]"))
                 else:
                     unread.append(r)
+            first.append(np.array(lo, dtype=np.int64).astype(f"datetime64[{unit}]"))
+            last.append(np.array(hi, dtype=np.int64).astype(f"datetime64[{unit}]"))
             if unread:
                 table = file.read_row_groups(unread, columns=[ac.period, ac.value])
                 present = pc.filter(table[ac.period], pc.is_valid(table[ac.value]))
                 found.append(pc.unique(present).to_numpy().astype(f"datetime64[{unit}]"))
         except (OSError, ValueError):
-            return actual_periods(config, path)
+            return None
     stamps = np.concatenate(found) if found else np.zeros(0, dtype="datetime64[ns]")
-    return pd.DatetimeIndex(pd.unique(stamps[~np.isnat(stamps)])).sort_values().as_unit("ns")
+    periods = pd.DatetimeIndex(pd.unique(stamps[~np.isnat(stamps)])).sort_values().as_unit("ns")
+    return _Layout(periods, np.concatenate(first).astype("datetime64[ns]"),
+                   np.concatenate(last).astype("datetime64[ns]"), np.array(rows, dtype=np.int64))
 
 
 def _naive_unit(column: object) -> str | None:

@@ -137,7 +137,8 @@ def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
                       else _read_actuals(config, actuals_path, progress, given))
     if reduced is not None:
         progress(f"read actuals: {reduced.n_read:,} rows, the last {rows_span(config)} periods "
-                 f"kept ({len(reduced.rows):,} rows), the rest reduced to the actuals index")
+                 f"kept ({len(reduced.rows):,} rows), the rest reduced to the actuals index "
+                 f"in {reduced.seconds:.1f} s")
 
     t0 = time.perf_counter()
     # earlier forecasts: only rows of a configured lag inside the evaluation span are ever

@@ -43,14 +43,17 @@ def long_actuals(seed: int = 1) -> pd.DataFrame:
     return grid.loc[keep].reset_index(drop=True)
 
 
-def write_parquet(path: Path, frame: pd.DataFrame, *, by_week: bool = True) -> None:
-    """One row group per week (a file sorted by week), or the rows shuffled in row groups of
-    50 (row groups that span many weeks)."""
+def write_parquet(path: Path, frame: pd.DataFrame, *, layout: str = "by_week") -> None:
+    """``by_week``: one row group per week; ``sorted``: sorted by week in row groups of 50
+    (some hold two weeks); ``shuffled``: the rows shuffled in row groups of 50 (each spans
+    most weeks)."""
     frame = frame.assign(week=frame["week"].astype("datetime64[us]"))
-    if not by_week:
+    if layout == "shuffled":
         frame = frame.sample(frac=1.0, random_state=3).reset_index(drop=True)
+    elif layout == "sorted":
+        frame = frame.sort_values("week", kind="stable").reset_index(drop=True)
     table = pa.Table.from_pandas(frame, preserve_index=False)
-    if by_week:
+    if layout == "by_week":
         with pq.ParquetWriter(path, table.schema) as writer:
             for week in frame["week"].unique():
                 writer.write_table(pa.Table.from_pandas(frame.loc[frame["week"] == week],
@@ -72,11 +75,11 @@ def every_measure() -> str:
 def long_project(make_project: Callable[..., Project]) -> Callable[..., Project]:
     """The small project with 78 weeks of Parquet actuals and every measure (MASE, FVA…)."""
 
-    def make(actuals: pd.DataFrame | None = None, *, by_week: bool = True) -> Project:
+    def make(actuals: pd.DataFrame | None = None, *, layout: str = "by_week") -> Project:
         text = every_measure().replace("data/actuals.csv", "data/actuals.parquet")
         project = make_project(config_text=text)
         write_parquet(project.data / "actuals.parquet",
-                      long_actuals() if actuals is None else actuals, by_week=by_week)
+                      long_actuals() if actuals is None else actuals, layout=layout)
         return project
 
     return make
@@ -90,12 +93,12 @@ def storage(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> 
     return str(request.param)
 
 
-@pytest.mark.parametrize("by_week", [True, False])
-@pytest.mark.parametrize("chunk_rows", [1, 100, 10_000])
+@pytest.mark.parametrize(("layout", "chunk_rows"), [
+    ("by_week", 1), ("by_week", 100), ("by_week", 10_000), ("sorted", 100), ("sorted", 10_000)])
 def test_reduced_index_answers_as_the_index_of_every_row(
-        long_project: Callable[..., Project], storage: str, by_week: bool,
+        long_project: Callable[..., Project], storage: str, layout: str,
         chunk_rows: int) -> None:
-    config = load_config(long_project(by_week=by_week).config)
+    config = load_config(long_project(layout=layout).config)
     reduced = read_reduced(config, None, keep=8, chunk_rows=chunk_rows)
     assert reduced is not None
     every = read_actuals(config)
@@ -132,20 +135,22 @@ def test_reduced_index_answers_as_the_index_of_every_row(
         index=False)}
 
 
-def result_dicts(project: Project, *, reduce: bool) -> tuple[list[dict[str, object]], int]:
+def result_dicts(project: Project, *, reduce: bool, reduced: bool | None = None
+                 ) -> tuple[list[dict[str, object]], int]:
     config = load_config(project.config)
     inputs = load_inputs(config, reduce_history=reduce)
-    assert (inputs.history is not None) == reduce
+    assert (inputs.history is not None) == (reduce if reduced is None else reduced)
     return [r.to_dict() for r in evaluate(config, inputs)], len(inputs.actuals)
 
 
-@pytest.mark.parametrize("by_week", [True, False])
+@pytest.mark.parametrize("layout", ["by_week", "sorted", "shuffled"])
 def test_a_run_on_reduced_actuals_gives_every_result_of_a_run_on_every_row(
-        long_project: Callable[..., Project], by_week: bool) -> None:
-    project = long_project(by_week=by_week)
-    reduced, n_reduced = result_dicts(project, reduce=True)
+        long_project: Callable[..., Project], layout: str) -> None:
+    # a shuffled file is read whole (each chunk would open every row group)
+    project = long_project(layout=layout)
+    reduced, n_reduced = result_dicts(project, reduce=True, reduced=layout != "shuffled")
     every, n_every = result_dicts(project, reduce=False)
-    assert n_reduced < n_every
+    assert (n_reduced < n_every) == (layout != "shuffled")
     assert reduced == every
     measured = {r["measure"] for r in reduced if r.get("value") is not None}
     assert {"mase", "fva_naive", "fva_seasonal_naive", "tracking_signal"} <= measured
