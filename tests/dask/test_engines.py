@@ -191,3 +191,17 @@ def test_frames_in_memory_are_read_on_the_client(make_project: Callable[..., Pro
     frames = {"forecast": pd.read_csv(project.data / "forecast.csv"),
               "actuals": pd.read_csv(project.data / "actuals.csv")}
     compare(*both(project.config, cluster, **frames))
+
+
+def test_demo_with_every_measure(demo: Path, cluster: str, tmp_path: Path) -> None:
+    """Every registered measure (``evaluation.measures: [all]``): sMAPE, MASE, tracking
+    signals, FVA, intervals, pinball, interval scores, with worst offenders."""
+    text = (demo / "accuracy-checks.yaml").read_text(encoding="utf-8")
+    text = text.replace("  min_obs: 20\n", "  min_obs: 20\n  measures: [all]\n")
+    assert "measures: [all]" in text
+    text = text.replace(".accuracy_checks/", f"{tmp_path}/state/")
+    config = demo / "accuracy-checks-all.yaml"
+    config.write_text(text, encoding="utf-8")
+    forecast = sorted((demo / "data" / "forecasts").iterdir())[-1]
+    compare(*both(config, cluster, forecast_path=forecast,
+                  actuals_path=demo / "data" / "actuals.csv"))
