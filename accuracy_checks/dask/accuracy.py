@@ -55,7 +55,8 @@ from accuracy_checks.results import CheckResult
 __all__ = ["AccuracyPartial", "AccuracyPlan", "accuracy_partial", "accuracy_plan",
            "finish_accuracy", "merge_partials"]
 
-#: the built-in measures the dask engine computes (the others are refused by the plan)
+#: the built-in measures the dask engine computes: every built-in one (a plugin measure, or a
+#: built-in id a plugin replaced, is refused by the plan)
 AVAILABLE = frozenset({"me", "bias_pct", "mae", "mape", "wape", "rmse", "sde", *FAMILIES})
 
 
@@ -73,11 +74,13 @@ def accuracy_plan(config: Config, *, actual_periods: Sequence[pd.Timestamp],
     """
     measures = measures_to_report(config)
     for m in measures:
-        if m not in AVAILABLE:
+        origin = get_measure(m).origin
+        if m not in AVAILABLE or origin != "built-in":
+            source = "" if origin == "built-in" else f" (it comes from {origin})"
             raise ConfigError(
-                f"The measure {m!r} is not yet available on the dask engine (it computes "
-                f"{', '.join(sorted(AVAILABLE))}). Use `engine: pandas` for this config, or "
-                f"leave {m!r} out of evaluation.measures and thresholds.")
+                f"The measure {m!r}{source} is not yet available on the dask engine, which "
+                f"computes the built-in {', '.join(sorted(AVAILABLE))}. Use `engine: pandas` "
+                f"for this config, or leave {m!r} out of evaluation.measures and thresholds.")
     tracking = any(get_measure(m).window == "tracking" for m in measures)
     ev = config.evaluation
     span = max(ev.window, ev.tracking_window) if tracking else ev.window

@@ -162,3 +162,19 @@ def test_a_plan_without_a_cycle_start_is_refused_not_guessed() -> None:
     plan = accuracy_plan(cfg, actual_periods=[day], cycle_starts={})
     with pytest.raises(ValueError, match=r"cycle_starts lack the issue date\(s\) \['2026-01-05'\]"):
         accuracy_partial(plan, earlier, actuals)
+
+
+def test_a_plugin_measure_is_refused_naming_its_origin(monkeypatch: pytest.MonkeyPatch) -> None:
+    import dataclasses
+
+    import accuracy_checks.dask.accuracy as stage
+    from accuracy_checks.measures.registry import get_measure
+
+    def plugged(measure_id: str):  # type: ignore[no-untyped-def]
+        found = get_measure(measure_id)
+        return (dataclasses.replace(found, origin="plugin mase = acme:mase")
+                if measure_id == "mase" else found)
+
+    monkeypatch.setattr(stage, "get_measure", plugged)
+    with pytest.raises(ConfigError, match=r"'mase' \(it comes from plugin mase = acme:mase\)"):
+        accuracy_plan(config(True, 2), actual_periods=[], cycle_starts={})
