@@ -215,7 +215,8 @@ class _Builder:
     def finish(self) -> tuple[ActualsIndex, pd.DataFrame]:
         """The index and the table of every series (key columns, any period)."""
         per_key = self._series_codes()
-        table = pd.DataFrame({name: self.values[k].take(per_key[k])
+        # categorical keys, as the pre-read of older series gives them (sources/prereads.py)
+        table = pd.DataFrame({name: pd.Categorical.from_codes(per_key[k], self.values[k])
                               for k, name in enumerate(self.keys)})
         levels = [self.values[k].sort_values() for k in range(len(self.keys))]
         on = np.flatnonzero(self.on_grid)
