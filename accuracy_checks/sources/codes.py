@@ -99,8 +99,10 @@ def n_distinct(frame: pd.DataFrame, columns: Sequence[str],
     if len(frame) == 0 or (mask is not None and not np.any(mask)):
         return 0
     codes, space = combined_codes_and_space(frame, columns, mask)
-    if space <= max(8 * codes.size, 1 << 20):  # a counting pass, no sort
-        return int(np.count_nonzero(np.bincount(codes, minlength=space)))
+    if space <= max(8 * codes.size, 1 << 20):  # a marking pass (≤ 8 bytes a row), no sort
+        seen = np.zeros(space, dtype=bool)
+        seen[codes] = True
+        return int(np.count_nonzero(seen))
     return int(pd.unique(codes).size)
 
 

@@ -111,9 +111,10 @@ def segment_labels(columns: Sequence[pd.Series]) -> pd.Categorical:
     for codes, names in zip(codes_list, names_list, strict=True):
         combo = combo * len(names) + np.where(codes < 0, len(names) - 1, codes)
     space = int(np.prod(np.array([len(n) for n in names_list], dtype=object)))
-    if space <= max(2 * len(combo), 1 << 16):
-        # few combinations: number the present ones in sorted order by counting, no hashing
-        present = np.bincount(combo, minlength=space) > 0
+    if space <= max(len(combo) // 8, 1 << 16):
+        # few combinations: number the present ones in sorted order by marking, no hashing
+        present = np.zeros(space, dtype=bool)
+        present[combo] = True
         uniques = np.flatnonzero(present)
         dense = np.cumsum(present) - 1
         ids = dense[combo]
@@ -231,10 +232,10 @@ def _rows_by_codes(frame: pd.DataFrame, table: pd.DataFrame, keys: list[str]) ->
         wanted, have = codes[:n], codes[n:]
     else:
         wanted, have = _key_codes(frame, keys, sizes), _key_codes(table, keys, sizes)
-    if space <= max(4 * (n + m), 1 << 22):
-        row_of = np.full(space, -1, dtype=np.int64)
-        row_of[have] = np.arange(m, dtype=np.int64)
-        return row_of[wanted]
+    if space <= max(n + m, 1 << 22) and m < 1 << 31:  # a dense table of ≤ 4 bytes a row
+        row_of = np.full(space, -1, dtype=np.int32)
+        row_of[have] = np.arange(m, dtype=np.int32)
+        return row_of[wanted].astype(np.int64)
     order = np.argsort(have, kind="stable")
     sorted_have = have[order]
     pos = np.minimum(np.searchsorted(sorted_have, wanted), m - 1)

@@ -70,7 +70,7 @@ def test_segment_labels_count_or_hash_the_combinations_alike() -> None:
     kind = pd.Series([None if v == 0 else f"k{v:03d}" for v in rng.integers(0, 300, n)],
                      dtype="category")
     few = segment_labels([family, kind])  # 301 × 301 combinations ≫ rows: hashed
-    repeated = [pd.concat([c] * 40, ignore_index=True) for c in (family, kind)]
+    repeated = [pd.concat([c] * 250, ignore_index=True) for c in (family, kind)]
     many = segment_labels(repeated)  # rows ≫ combinations: counted
     assert list(many.categories) == list(few.categories)
     assert many[:n].tolist() == few.tolist()
