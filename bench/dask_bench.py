@@ -158,6 +158,7 @@ def main(argv: list[str] | None = None) -> int:
     ap.add_argument("--memory-limit", default="4GB")
     ap.add_argument("--pandas-cap", type=float, default=12.0, help="GiB")
     ap.add_argument("--no-pandas", action="store_true")
+    ap.add_argument("--no-dask", action="store_true", help="the pandas engine only")
     ap.add_argument("--inputs", type=Path, help="a folder of generated inputs to reuse")
     args = ap.parse_args(argv)
     rows = []
@@ -171,19 +172,20 @@ def main(argv: list[str] | None = None) -> int:
               flush=True)
         row: dict[str, Any] = {"series": n, "manifest": manifest.__dict__ if manifest else None,
                                "workers": args.workers, "memory_limit": args.memory_limit}
-        row["dask"] = run_dask(folder, args.workers, args.memory_limit)
-        print(f"  dask: {row['dask']}", flush=True)
+        if not args.no_dask:
+            row["dask"] = run_dask(folder, args.workers, args.memory_limit)
+            print(f"  dask: {row['dask']}", flush=True)
         if not args.no_pandas:
             row["pandas"] = run_pandas(folder, args.pandas_cap * GIB)
             print(f"  pandas: {row['pandas']}", flush=True)
-            row["same"] = same_results(folder)
+            row["same"] = same_results(folder) if "dask" in row else None
         rows.append(row)
         with (args.out / "dask_bench.jsonl").open("a", encoding="utf-8") as fh:
             fh.write(json.dumps(row, default=str) + "\n")
     print("\n| series | dask wall s | peak per worker GiB | client GiB | pandas | same |")
     print("|---:|---:|---|---:|---|---|")
     for row in rows:
-        d = row["dask"]
+        d = row.get("dask") or {"seconds": "—", "peak_gib": {"client": "—"}}
         workers = ", ".join(f"{v}" for k, v in d["peak_gib"].items() if k.startswith("worker"))
         p = row.get("pandas")
         ptext = ("—" if p is None else f"ran out above {args.pandas_cap:g} GiB"
