@@ -20,11 +20,11 @@ again after conversion, so the result never depends on it).
 (extra ``postgres``): the same compiled statement with ``$1``-style bound parameters, the rows
 fetched as Arrow (the driver reads PostgreSQL's binary COPY format in C, no Python object per
 row); without ADBC, and for any other SQLAlchemy URL, through SQLAlchemy. Arrow results go
-through the same column rules as SQLAlchemy's rows (:func:`_arrow_column`): ``numeric`` is a
-number where a number is configured and a decimal elsewhere (a decimal key is refused, as
-psycopg's ``Decimal`` is), ``timestamptz`` is shown in the session's time zone (as psycopg
-shows it), types without an Arrow twin (``uuid``, ``json``, …) as their text. A connection
-gives up after :data:`CONNECT_TIMEOUT_S` seconds unless the URL sets ``connect_timeout``.
+through the same column rules as SQLAlchemy's rows (:mod:`accuracy_checks.sources.sql_arrow`):
+``numeric`` is a number where a number is configured and a decimal elsewhere (a decimal key
+is refused, as psycopg's ``Decimal`` is), ``timestamptz`` is shown in the session's time zone
+(as psycopg shows it), types without an Arrow twin (``uuid``, ``json``, …) as their text. A
+connection gives up after :data:`CONNECT_TIMEOUT_S` seconds unless the URL sets ``connect_timeout``.
 ``${NAME}`` in the URL is replaced from the environment when the connection opens.
 
 **Errors** (:class:`~accuracy_checks.errors.InputError`, exit 2; the URL's password masked):
@@ -48,8 +48,9 @@ from accuracy_checks.config import SqlSource
 from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources.columns import Column, convert, refuse_missing
+from accuracy_checks.sources.sql_arrow import arrow_column, libpq_uri
 
-__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows", "libpq_uri",
+__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows",
            "read_sql_columns", "sql_columns"]
 
 #: seconds a connection to a database may take before the run gives up (exit 2)
@@ -69,27 +70,6 @@ def _adbc() -> Any | None:
     return None
 
 
-def libpq_uri(url: Any) -> str:
-    """A SQLAlchemy PostgreSQL URL as a libpq connection URI: every part percent-encoded (libpq
-    reads ``+`` as itself, never as a blank), the query parameters kept (they are libpq's, as
-    psycopg passes them), ``connect_timeout`` defaulting to :data:`CONNECT_TIMEOUT_S`."""
-    from urllib.parse import quote
-
-    def q(part: object) -> str:
-        return quote(str(part), safe="")
-
-    auth = ""
-    if url.username is not None:
-        auth = q(url.username) + (f":{q(url.password)}" if url.password is not None else "") + "@"
-    host = url.host or ""
-    host = f"[{host}]" if ":" in host else q(host)
-    port = f":{url.port}" if url.port else ""
-    query = {"connect_timeout": str(CONNECT_TIMEOUT_S), **dict(url.query)}
-    pairs = [(k, v) for k, vs in query.items() for v in (vs if isinstance(vs, tuple) else (vs,))]
-    return (f"postgresql://{auth}{host}{port}/{q(url.database or '')}?"
-            + "&".join(f"{q(k)}={q(v)}" for k, v in pairs))
-
-
 class _Connection:
     """One open connection: runs SQLAlchemy Core statements, returns Arrow or pandas."""
 
@@ -106,6 +86,12 @@ class _Connection:
     def adbc(self) -> bool:
         """Whether PostgreSQL is read through ADBC."""
         return self._adbc is not None
+
+    @property
+    def postgres(self) -> bool:
+        """Whether the database is PostgreSQL (through ADBC or SQLAlchemy)."""
+        return self.adbc or (self._engine is not None
+                             and self._engine.dialect.name == "postgresql")
 
     @property
     def arrow(self) -> bool:
@@ -134,7 +120,7 @@ class _Connection:
                      and url.get_driver_name() in ("psycopg", "psycopg2", ""))
             adbc = _adbc() if libpq else None
             if adbc is not None:
-                self._adbc = adbc.connect(libpq_uri(url), autocommit=True)
+                self._adbc = adbc.connect(libpq_uri(url, CONNECT_TIMEOUT_S), autocommit=True)
                 return
             args: dict[str, Any] = {}
             if libpq and "connect_timeout" not in url.query:
@@ -214,10 +200,11 @@ class _Connection:
 
     def run(self, stmt: Any, kinds: dict[str, str] | None = None) -> pd.DataFrame:
         """The rows of a Core statement as a frame; Arrow results converted column by column
-        (:func:`_arrow_column`, ``kinds``: column → configured kind)."""
+        (:func:`~accuracy_checks.sources.sql_arrow.arrow_column`; ``kinds``: column → kind)."""
         if self.arrow:
             table = self.table(stmt)
-            frame = pd.DataFrame({i: _arrow_column(self, table.column(i), (kinds or {}).get(n))
+            frame = pd.DataFrame({i: arrow_column(table.column(i), (kinds or {}).get(n),
+                                                  adbc=self.adbc, zone=self.zone)
                                   for i, n in enumerate(table.column_names)})
             frame.columns = pd.Index(table.column_names, dtype=object)
             return frame
@@ -261,43 +248,6 @@ class _Connection:
             return bool(sa.inspect(self._conn).has_table(name, schema=schema))
         except Exception:
             return True  # a dialect without the inspection: the read names the problem
-
-
-def _arrow_column(conn: _Connection, column: Any, kind: str | None) -> pd.Series:
-    """One Arrow result column as the pandas values SQLAlchemy's rows would give the
-    converters: decimals (DuckDB) as floats; PostgreSQL ``numeric`` (ADBC: its text) as floats
-    for a number column, else as ``Decimal`` values (refused as a key, as psycopg's are);
-    other PostgreSQL types without an Arrow twin as their text; ``timestamptz`` in the
-    session's time zone; dates as ``datetime64``."""
-    import pyarrow as pa
-    import pyarrow.compute as pc
-
-    kind_of = column.type
-    if isinstance(kind_of, pa.BaseExtensionType):
-        column = pa.chunked_array([c.storage for c in column.chunks], type=kind_of.storage_type)
-        if getattr(kind_of, "type_name", None) == "numeric":
-            if kind == "number":
-                with suppress(pa.ArrowInvalid, pa.ArrowNotImplementedError):
-                    column = pc.cast(column, pa.float64())  # else: text the converter names
-            else:
-                from decimal import Decimal
-
-                import numpy as np
-
-                codes = column.combine_chunks().dictionary_encode()
-                values = np.empty(len(codes.dictionary) + 1, dtype=object)  # last: NULL
-                values[:-1] = [Decimal(v) for v in codes.dictionary.to_pylist()]
-                return pd.Series(values[codes.indices.fill_null(-1).to_numpy()])
-    elif pa.types.is_decimal(kind_of):
-        column = pc.cast(column, pa.float64())
-    elif pa.types.is_timestamp(kind_of) and kind_of.tz is not None and conn.adbc:
-        try:
-            column = column.cast(pa.timestamp(kind_of.unit, tz=conn.zone()))
-            return column.to_pandas()
-        except (pa.ArrowInvalid, ValueError, KeyError):
-            pass  # a zone pandas does not know: UTC
-    # a date where no date is configured: date values, as psycopg gives them (messages alike)
-    return column.to_pandas(date_as_object=conn.adbc and kind not in (None, "date"))
 
 
 @contextmanager
@@ -461,14 +411,43 @@ def cycle_starts(source: SqlSource, issued: str, period: str, *, role: str = "hi
     return pd.Series(values, index=index, dtype="datetime64[ns]").groupby(level=0).min()
 
 
+def _index_skip(conn: _Connection, period: str, value: str) -> Any | None:
+    """On a PostgreSQL table with an index led by the period column, the distinct periods
+    with an actual by one index probe per period (a recursive query: the next period after
+    the last, ``LIMIT 1``) instead of a scan of every row; ``None`` otherwise."""
+    import sqlalchemy as sa
+    from sqlalchemy.dialects import postgresql
+
+    schema, name = conn.source.table_parts
+    if conn.source.table is None or not conn.postgres:
+        return None
+    quoted = ".".join('"' + p.replace('"', '""') + '"' for p in (schema, name) if p)
+    indexed = sa.text("SELECT count(*) FROM pg_index i JOIN pg_attribute a ON a.attrelid = "
+                      "i.indrelid AND a.attnum = i.indkey[0] WHERE i.indrelid = to_regclass(:t) "
+                      "AND a.attname = :c AND i.indisvalid").bindparams(t=quoted, c=period)
+    if not int(conn.run(indexed).iloc[0, 0]):
+        return None
+    q = postgresql.dialect().identifier_preparer
+    t, p, v = q.format_table(sa.table(name, schema=schema)), q.quote(period), q.quote(value)
+    return sa.text(
+        f"WITH RECURSIVE w(p) AS ((SELECT {p} FROM {t} WHERE {p} IS NOT NULL AND {v} IS NOT "
+        f"NULL ORDER BY {p} LIMIT 1) UNION ALL SELECT (SELECT {p} FROM {t} WHERE {p} > w.p AND "
+        f"{v} IS NOT NULL ORDER BY {p} LIMIT 1) FROM w WHERE w.p IS NOT NULL) "
+        "SELECT p FROM w WHERE p IS NOT NULL")
+
+
 def actual_periods(source: SqlSource, period: str, value: str) -> pd.DatetimeIndex | None:
     """The sorted distinct periods holding at least one actual: ``SELECT DISTINCT period …
-    WHERE value IS NOT NULL`` (``None`` when the period column is not a date type)."""
+    WHERE value IS NOT NULL`` (:func:`_index_skip` on an indexed PostgreSQL table; ``None``
+    when the period column is not a date type)."""
     import sqlalchemy as sa
 
     def build(src: Any, conn: _Connection) -> Any | None:
         if _date_kind(conn, period) is None:
             return None
+        skip = _index_skip(conn, period, value)
+        if skip is not None:
+            return skip
         return sa.select(src.c[period]).where(src.c[value].is_not(None)).distinct()
 
     rows = _grouped(source, "actuals", "actuals.sql", [period, value], build)

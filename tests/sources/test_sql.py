@@ -25,6 +25,7 @@ from accuracy_checks.config import SqlSource
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import sql
 from accuracy_checks.sources.columns import Column
+from accuracy_checks.sources.sql_arrow import libpq_uri
 from tests.support.cli import refused, run
 from tests.support.project import CURRENT, EARLIER, Project, forecast_frame
 
@@ -278,7 +279,7 @@ def test_the_libpq_uri_keeps_every_part_percent_encoded() -> None:
     percent-encoded, never written as ``+``."""
     url = sa.engine.make_url("postgresql+psycopg://gate%40x:p%40ss+w%3Ard@[::1]:5432/my db"
                              "?options=-csearch_path%3Dt1%20-c%20work_mem%3D64MB&sslmode=disable")
-    uri = sql.libpq_uri(url)
+    uri = libpq_uri(url, sql.CONNECT_TIMEOUT_S)
     assert uri == ("postgresql://gate%40x:p%40ss%2Bw%3Ard@[::1]:5432/my%20db?connect_timeout=10"
                    "&options=-csearch_path%3Dt1%20-c%20work_mem%3D64MB&sslmode=disable")
 
@@ -488,3 +489,32 @@ def test_a_missing_table_column_or_a_failing_query_on_postgresql_is_the_same_exi
         assert "database refused the statement: relation \"nowhere\" does not exist" in found[-1]
         assert "history.sql" in found[-1] and "SQLSTATE" not in found[-1]
     assert errors["adbc"] == errors["sqlalchemy"]
+
+
+def test_the_periods_with_actuals_use_an_index_on_the_period_when_there_is_one(
+        make_project: Callable[..., Project], pg_url: str,
+        pg_driver: tuple[str, list[tuple[str, Any]]]) -> None:
+    """With an index led by the period column, the distinct periods holding an actual come
+    from one index probe per period (a recursive query), with the same results; a period whose
+    actuals are all missing is not one of them."""
+    project = make_project(**BREACHED)
+    expected = results_of(project, "csv")
+    load_postgres(project, pg_url)
+    source = SqlSource(url=pg_url, table="actuals")
+    plain = sql.actual_periods(source, "week", "units_sold")
+    engine = sa.create_engine(pg_url, poolclass=sa.pool.NullPool)
+    with engine.begin() as conn:
+        conn.execute(sa.text("CREATE INDEX ON actuals (week)"))
+        conn.execute(sa.text("INSERT INTO actuals VALUES ('S1', 'P1', '2020-01-06', NULL), "
+                             "('S1', 'P2', '2020-01-13', 1.0), ('S2', 'P1', '2020-01-13', NULL)"))
+    engine.dispose()
+    _, statements = pg_driver
+    skipped = sql.actual_periods(source, "week", "units_sold")
+    assert any("WITH RECURSIVE" in s for s, _ in statements)
+    assert plain is not None and skipped is not None
+    assert list(skipped) == [pd.Timestamp("2020-01-13"), *plain]
+    with engine.begin() as conn:
+        conn.execute(sa.text("DELETE FROM actuals WHERE week < '2021-01-01'"))
+    engine.dispose()
+    sql_config(project, pg_url, prefix="")
+    assert_same_results(results_of(project, "pg_indexed"), expected)
