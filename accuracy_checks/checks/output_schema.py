@@ -29,7 +29,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.examples import require_columns
-from accuracy_checks.checks.series_index import date_codes
+from accuracy_checks.checks.series_index import date_codes, key_codes
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources.codes import combined_codes_and_space
 from accuracy_checks.sources.frames import FORECAST, ISSUED, PERIOD, SEGMENT
@@ -126,9 +126,18 @@ def row_codes(frame: pd.DataFrame, columns: Sequence[str]) -> tuple[np.ndarray, 
     :func:`~accuracy_checks.sources.codes.combined_codes_and_space` (categorical keys: their
     codes as they are).
     """
-    combined = np.zeros(len(frame), dtype=np.int64)
-    space = 1
-    for column in columns:
+    columns = list(columns)
+    # leading categorical keys: their codes combined in place (one array of the rows)
+    n_keys = 0
+    while n_keys < len(columns) and isinstance(frame[columns[n_keys]].dtype,
+                                               pd.CategoricalDtype):
+        n_keys += 1
+    found = key_codes(frame, columns[:n_keys]) if n_keys else None
+    if found is None:
+        combined, space, n_keys = np.zeros(len(frame), dtype=np.int64), 1, 0
+    else:
+        combined, space = found
+    for column in columns[n_keys:]:
         values = frame[column]
         if values.dtype.kind == "M":
             codes, uniques = date_codes(values)
@@ -144,7 +153,8 @@ def row_codes(frame: pd.DataFrame, columns: Sequence[str]) -> tuple[np.ndarray, 
             combined, seen = pd.factorize(combined)
             combined = combined.astype(np.int64, copy=False)
             space = max(len(seen), 1)
-        combined = combined * size + codes
+        combined *= size
+        combined += codes
         space *= size
     return combined, space
 

@@ -33,6 +33,7 @@ __all__ = [
     "first_rows",
     "identify_series",
     "judged",
+    "key_codes",
     "skipped",
 ]
 
@@ -118,9 +119,11 @@ def identify_series(forecast: pd.DataFrame, actuals: pd.DataFrame,
     names = list(dict.fromkeys([*f_names, *a_names]))
     position = {name: i for i, name in enumerate(names)}
     segment = np.zeros(n, dtype=np.int64)
-    segment[a_ids] = np.array([position[x] for x in a_names], dtype=np.int64)[a_seg]
-    # the forecast's segment wins
-    segment[f_ids] = np.array([position[x] for x in f_names], dtype=np.int64)[f_seg]
+    # each series takes the segment of its last row: the actuals', then the forecast's wins
+    for ids, seg, seg_names in ((a_ids, a_seg, a_names), (f_ids, f_seg, f_names)):
+        ends = _run_ends(ids)
+        segment[ids[ends]] = np.array([position[x] for x in seg_names],
+                                      dtype=np.int64)[seg[ends]]
     return SeriesIndex(
         n=n,
         f_ids=f_ids,
@@ -134,29 +137,62 @@ def identify_series(forecast: pd.DataFrame, actuals: pd.DataFrame,
     )
 
 
+def key_codes(frame: pd.DataFrame, keys: list[str],
+              like: pd.DataFrame | None = None) -> tuple[np.ndarray, int] | None:
+    """One int64 per row from categorical ``keys``: their codes + 1 (missing is 0) in mixed
+    radix, computed in place (one array, no temporaries), and the size of the code space.
+    ``None`` unless every key is categorical (with the categories of ``like``'s same column,
+    when given) and the space is at most the rows (or 2**20): then a code indexes a table.
+
+    >>> f = pd.DataFrame({"a": pd.Categorical(["x", "y", None]), "b": pd.Categorical(["u"] * 3)})
+    >>> codes, space = key_codes(f, ["a", "b"])
+    >>> codes.tolist(), space
+    ([3, 5, 1], 6)
+    """
+    space = 1
+    for k in keys:
+        dtype = frame[k].dtype
+        if not isinstance(dtype, pd.CategoricalDtype):
+            return None
+        if like is not None:
+            other = like[k].dtype
+            if not (isinstance(other, pd.CategoricalDtype)
+                    and other.categories.equals(dtype.categories)):
+                return None
+        space *= len(dtype.categories) + 1
+        if space > max(len(frame) + (0 if like is None else len(like)), 1 << 20):
+            return None
+    out = np.empty(len(frame), dtype=np.int64)
+    for i, k in enumerate(keys):
+        codes = frame[k].cat.codes.to_numpy()
+        if i == 0:
+            out[:] = codes
+        else:
+            out *= len(frame[k].cat.categories) + 1
+            out += codes
+        out += 1
+    return out, space
+
+
 def _series_by_codes(forecast: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]
                      ) -> tuple[int, np.ndarray, np.ndarray, np.ndarray, np.ndarray] | None:
     """:func:`identify_series` on categorical keys with the same categories in both frames,
-    when their code space is at most the rows (or 2**20): (n, f_ids, a_ids, f_first,
+    when their code space is small (:func:`key_codes`): (n, f_ids, a_ids, f_first,
     a_first). ``None`` otherwise."""
-    space = 1
-    for k in keys:
-        f, a = forecast[k].dtype, actuals[k].dtype
-        if not (isinstance(f, pd.CategoricalDtype) and isinstance(a, pd.CategoricalDtype)
-                and f.categories.equals(a.categories)):
-            return None
-        space *= len(f.categories) + 1
-        if space > max(len(forecast) + len(actuals), 1 << 20):
-            return None
-    f_codes = combine_codes([forecast[k].array for k in keys], len(forecast))
-    a_codes = combine_codes([actuals[k].array for k in keys], len(actuals))
+    found_f = key_codes(forecast, keys, like=actuals)
+    found_a = None if found_f is None else key_codes(actuals, keys, like=forecast)
+    if found_f is None or found_a is None:
+        return None
+    (f_codes, space), (a_codes, _) = found_f, found_a
     first_f, new_f = _appearance(f_codes, space)
     first_a, new_a = _appearance(a_codes, space)
     only_a = a_codes[new_a]
     order = np.concatenate([f_codes[new_f], only_a[first_f[only_a] < 0]])
     label = np.full(space, -1, dtype=np.int64)
     label[order] = np.arange(len(order))
-    return len(order), label[f_codes], label[a_codes], first_f[order], first_a[order]
+    f_ids = np.take(label, f_codes, out=f_codes)  # in place: the codes are not needed after
+    a_ids = np.take(label, a_codes, out=a_codes)
+    return len(order), f_ids, a_ids, first_f[order], first_a[order]
 
 
 def _appearance(codes: np.ndarray, space: int) -> tuple[np.ndarray, np.ndarray]:
@@ -185,19 +221,29 @@ def _appearance(codes: np.ndarray, space: int) -> tuple[np.ndarray, np.ndarray]:
     return first, new
 
 
+def _run_ends(ids: np.ndarray) -> np.ndarray:
+    """The rows whose next row has another id (and the last row): assigning per row in row
+    order leaves each id the value of its last row, and so does assigning at these rows."""
+    ends = np.empty(len(ids), dtype=bool)
+    if len(ids):
+        ends[-1] = True
+        np.not_equal(ids[1:], ids[:-1], out=ends[:-1])
+    return np.flatnonzero(ends)
+
+
 def _segment_codes(frame: pd.DataFrame) -> tuple[np.ndarray, list[str]]:
     """Segment code per row and the segment names (missing → ``"unassigned"``)."""
     if SEGMENT not in frame.columns:
         return np.zeros(len(frame), dtype=np.int64), [ALL_SERIES]
     column = frame[SEGMENT]
     if isinstance(column.dtype, pd.CategoricalDtype):  # its codes, no hashing
-        codes = column.cat.codes.to_numpy().astype(np.int64)
+        codes = column.cat.codes.to_numpy()
         uniques: Any = column.cat.categories
     else:
         codes, uniques = pd.factorize(column.array)  # missing → -1
     names = [str(u) for u in uniques]
     if (codes < 0).any():
-        codes = np.where(codes < 0, len(names), codes)
+        codes = np.where(codes < 0, len(names), codes.astype(np.int64))
         names.append(UNASSIGNED)
     return codes, names
 
