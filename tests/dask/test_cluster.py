@@ -131,3 +131,20 @@ def test_check_plugins_are_refused_on_the_dask_engine(make_project: Callable[...
             run_checks(config, engine="dask", scheduler="tcp://127.0.0.1:1", snapshot=False)
     finally:
         check_plugins.reset_check_plugins()
+
+
+def test_a_local_cluster_starts_and_stops_with_the_run(make_project: Callable[..., Project],
+                                                       tmp_path: Path) -> None:
+    """No scheduler: the run starts its own cluster of worker processes (the config's
+    ``workers`` and ``memory_limit``) and closes it: no worker process outlives the run."""
+    import psutil
+
+    project = make_project(extra="engine: {name: dask, workers: 1, memory_limit: 1GB}\n")
+    before = {p.pid for p in psutil.Process().children(recursive=True)}
+    assert run(project, "--no-snapshot", "--json", str(tmp_path / "r.json")) == 0
+    time.sleep(1)
+    # (multiprocessing's resource tracker lives as long as this process: not a worker)
+    left = [p for p in psutil.Process().children(recursive=True) if p.pid not in before
+            and p.is_running() and p.status() != psutil.STATUS_ZOMBIE
+            and "resource_tracker" not in " ".join(p.cmdline())]
+    assert not left, [p.cmdline() for p in left]
