@@ -205,3 +205,21 @@ def test_demo_with_every_measure(demo: Path, cluster: str, tmp_path: Path) -> No
     forecast = sorted((demo / "data" / "forecasts").iterdir())[-1]
     compare(*both(config, cluster, forecast_path=forecast,
                   actuals_path=demo / "data" / "actuals.csv"))
+
+
+def test_an_unusable_input_is_the_same_exit_2_message(make_project: Callable[..., Project],
+                                                      cluster: str) -> None:
+    """A date that does not parse, read on a worker: the same InputError as the pandas
+    engine's, raised on the client (exit 2)."""
+    from accuracy_checks.errors import InputError
+
+    forecast = forecast_frame(CURRENT)
+    forecast.loc[5, "week"] = "2026-13-40"
+    config = load_config(make_project(forecast=forecast).config)
+    messages = []
+    for engine in ("pandas", "dask"):
+        with pytest.raises(InputError) as err:
+            run_checks(config, engine=engine, scheduler=cluster if engine == "dask" else None,
+                       snapshot=False)
+        messages.append(str(err.value))
+    assert messages[0] == messages[1] and "line 7" in messages[0]
