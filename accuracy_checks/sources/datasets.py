@@ -333,21 +333,56 @@ def _format(data: Dataset, text_columns: Sequence[str]) -> Any:
         null_values=[""], quoted_strings_can_be_null=True))
 
 
+def _distinct(dataset: Any, names: list[str], present: str | None, expression: Any) -> Any:
+    """The distinct rows of columns ``names`` (over the rows where column ``present`` holds a
+    number that is not NaN), grouped while the files are scanned: never every row in memory."""
+    import pyarrow as pa
+    import pyarrow.acero as ac
+    import pyarrow.compute as pc
+    import pyarrow.dataset as pds
+
+    cond = expression
+    if present is not None:
+        valid = ~pc.field(present).is_null(nan_is_null=True)
+        cond = valid if cond is None else cond & valid
+        if set(names) <= set(dataset.partitioning.schema.names):
+            # partition columns only: a file's values are in its path; count its valid rows
+            found = [pds.get_partition_keys(f.partition_expression)
+                     for f in dataset.get_fragments() if f.count_rows(filter=cond) > 0]
+            return pa.Table.from_pylist([{n: keys.get(n) for n in names} for keys in found],
+                                        schema=pa.schema([(n, pa.string()) for n in names])
+                                        ).group_by(names).aggregate([])
+    scanned = [*names, *([present] if present is not None and present not in names else [])]
+    nodes = [ac.Declaration("scan", ac.ScanNodeOptions(dataset, columns=scanned, filter=cond))]
+    if cond is not None:
+        nodes.append(ac.Declaration("filter", ac.FilterNodeOptions(cond)))
+    nodes += [ac.Declaration("project", ac.ProjectNodeOptions([pc.field(n) for n in names],
+                                                             names)),
+              ac.Declaration("aggregate", ac.AggregateNodeOptions([], keys=names))]
+    return ac.Declaration.from_sequence(nodes).to_table()
+
+
 def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: str, key: str,
-                         allow_empty: bool = False,
-                         filters: Sequence[DateFilter] = ()) -> pd.DataFrame:
+                         allow_empty: bool = False, filters: Sequence[DateFilter] = (),
+                         distinct: bool = False, present: Column | None = None) -> pd.DataFrame:
     """Read ``columns`` of the dataset at ``place`` (partition columns included), the
-    ``filters`` pushed into the read, and convert them as a file's columns are converted."""
+    ``filters`` pushed into the read, and convert them as a file's columns are converted.
+
+    ``distinct``: only the distinct rows, and only over the rows where the number column
+    ``present`` (checked, not returned) holds a value; in Parquet files grouped while
+    scanning (the pre-reads over every file: periods with actuals, the series known)."""
     import pyarrow as pa
     import pyarrow.compute as pc
     import pyarrow.dataset as pds
 
     data = open_dataset(place, role, key)
     files = _choose(data, filters, role)
+    extra = [present] if present is not None else []
     if files:  # the newest file read: one outside the filters is never opened
-        refuse_missing(columns, dataset_columns(data, role, key, files[-1]),
+        refuse_missing([*columns, *extra], dataset_columns(data, role, key, files[-1]),
                        f"{role} {data.shown}", "Fix the column name in the config or in the data.")
-    wanted = list(dict.fromkeys(c.name for c in columns))
+    grouped = False
+    wanted = list(dict.fromkeys(c.name for c in [*columns, *extra]))
     if files:
         fmt = _format(data, [n for n in wanted if n not in data.partitions])
         # partition values are text, whatever they look like ("07" stays "07"); the
@@ -376,8 +411,16 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
                 cond = pc.field(flt.column) >= since
             cond = cond | pc.field(flt.column).is_null()
             expression = cond if expression is None else expression & cond
+        grouped = distinct and data.kind == "parquet" and (present is None or (
+            present.name in dataset.schema.names and present.name not in data.partitions
+            and pa.types.is_floating(dataset.schema.field(present.name).type)))
         try:
-            table = dataset.to_table(columns=wanted, filter=expression)
+            if grouped:
+                names = list(dict.fromkeys(c.name for c in columns))
+                table = _distinct(dataset, names, present.name if present else None,
+                                  expression)
+            else:
+                table = dataset.to_table(columns=wanted, filter=expression)
         except (OSError, ValueError, pa.ArrowInvalid) as exc:
             raise InputError(
                 f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
@@ -387,19 +430,27 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
         frame = pd.DataFrame({n: pd.Series([], dtype=object) for n in wanted})
     if data._tmp is not None:
         data._tmp()  # the downloaded file is read: remove it now
-    if len(frame) == 0 and not allow_empty:
+    # (grouped over the rows with a value, none is no error: the full read names an empty one)
+    if len(frame) == 0 and not allow_empty and not (grouped and present is not None):
         raise InputError(
             f"The {role} {data.shown} (config key `{key}`) has no rows; "
             f"a {role} with no data cannot be checked."
         )
     out: dict[str, pd.Series] = {}
     shown = Path(data.shown)
-    for c in columns:
+    for c in [*columns, *([] if grouped else extra)]:
         if c.name in out:
             continue
         raw = frame[c.name]
-        if data.kind == "csv" and c.kind in ("date", "number") and raw.dtype == object:
+        if data.kind == "csv" and c.kind in ("date", "number") and (
+                raw.dtype == object or pd.api.types.is_string_dtype(raw.dtype)):
             raw = raw.where(~raw.isin(_NA_TEXT))
         out[c.name] = convert(raw, shown, c, role, 1)
-    return pd.DataFrame(out).rename(
-        columns={c.name: c.canonical for c in columns if c.canonical})
+    result = pd.DataFrame(out)
+    if distinct:
+        if present is not None and not grouped:
+            result = result.loc[result[present.name].notna()]
+            if present.name not in {c.name for c in columns}:
+                result = result.drop(columns=present.name)
+        result = result.drop_duplicates()
+    return result.rename(columns={c.name: c.canonical for c in columns if c.canonical})

@@ -141,9 +141,10 @@ def actual_periods(config: Config, path: Place | None = None) -> pd.DatetimeInde
     if isinstance(place, SqlSource):
         return sql.actual_periods(place, ac.period, ac.value)
     if datasets.is_dataset(place):
-        cols = [c for c in actual_columns(config) if c.name in (ac.period, ac.value)]
-        frame = read_columns(place, cols, role="actuals", key="actuals.path")
-        present = frame.loc[frame[F.ACTUAL].notna(), F.PERIOD]
+        cols = {c.name: c for c in actual_columns(config) if c.name in (ac.period, ac.value)}
+        present = datasets.read_dataset_columns(
+            place, [cols[ac.period]], role="actuals", key="actuals.path", distinct=True,
+            present=cols[ac.value])[F.PERIOD]
         return pd.DatetimeIndex(present.dropna().unique()).sort_values().as_unit("ns")
     found = []
     for f in list_files(place, "actuals", "actuals.path"):
@@ -214,7 +215,8 @@ def actual_series(config: Config, path: Place | None = None) -> pd.DataFrame:
         table = sql.distinct_rows(place, src, role="actuals", key="actuals.sql")
     elif datasets.is_dataset(place):
         cols = [c for c in actual_columns(config) if c.kind == "key"]
-        found = read_columns(place, cols, role="actuals", key="actuals.path")
+        found = datasets.read_dataset_columns(place, cols, role="actuals", key="actuals.path",
+                                              distinct=True)
         return found.rename(columns=dict(zip(src, config.forecast.keys, strict=False))
                             ).drop_duplicates()
     else:

@@ -177,6 +177,54 @@ def test_the_columns_come_from_the_newest_file_the_filters_keep(tmp_path: Path) 
         datasets.read_dataset_columns(tmp_path, columns, role="actuals", key="k")
 
 
+def test_actuals_partitioned_by_period_give_the_results_of_the_csv_files(
+        breached: tuple[Project, dict[str, Any]], tmp_path: Path) -> None:
+    """Actuals in one folder per week (the week only in the folder names): the pre-reads
+    group while scanning (periods with an actual, the series known) and the run gives the
+    CSV results."""
+    project, expected = breached
+    files = {k: v for k, v in lake(project).items() if not k.startswith("actuals/")}
+    for week, rows in _csv(project, "actuals").groupby("week"):
+        files[f"actuals/week={week}/part-0.parquet"] = _parquet(rows.drop(columns="week"), {})
+    write_local(tmp_path / "lake", files)
+    point_config(project, str(tmp_path / "lake"))
+    got = results_of(project, "by_week")
+    assert got["inputs"]["actuals"]["rows"] < expected["inputs"]["actuals"]["rows"]
+    assert_same_results(got, expected)
+
+
+@pytest.mark.parametrize("fmt", ["parquet", "csv"])
+def test_distinct_reads_group_over_the_rows_with_a_value(tmp_path: Path, fmt: str) -> None:
+    """``distinct=True, present=…``: the distinct periods over the rows whose value is a
+    number (missing and NaN values left out), the same from Parquet (grouped while scanning)
+    and from CSV (read, then grouped); the distinct keys with blanks stripped."""
+    frame = pd.DataFrame({"store": ["S1", "S1 ", "S2", "S2", "S3"],
+                          "units": [1.5, 2.0, None, float("nan"), 4.0]})
+    weeks = ["2026-03-02", "2026-03-02", "2026-03-09", "2026-03-16", "2026-03-23"]
+    for week, part in frame.groupby(pd.Series(weeks)):
+        if fmt == "parquet":
+            sink = io.BytesIO()
+            units = pa.array(part["units"].tolist(), pa.float64(),
+                             from_pandas=week == "2026-03-09")
+            pq.write_table(pa.table({"store": pa.array(part["store"], pa.string()),
+                                     "units": units}), sink)
+            data = sink.getvalue()  # 03-09: a missing value; 03-16: NaN
+        else:
+            data = part.to_csv(index=False, na_rep="NaN").encode()
+        write_local(tmp_path, {f"week={week}/x.{fmt}": data})
+    week = Column("week", "date", "actuals.period", "period")
+    value = Column("units", "number", "actuals.value", "actual")
+    periods = datasets.read_dataset_columns(tmp_path, [week], role="actuals", key="k",
+                                            distinct=True, present=value)
+    assert sorted(periods["period"]) == [pd.Timestamp("2026-03-02"), pd.Timestamp("2026-03-23")]
+    keys = datasets.read_dataset_columns(tmp_path, [Column("store", "key", "actuals.keys")],
+                                         role="actuals", key="k", distinct=True)
+    assert sorted(keys["store"]) == ["S1", "S2", "S3"]
+    with pytest.raises(InputError, match=r"no column 'sold' \(config key `actuals.value`\)"):
+        datasets.read_dataset_columns(tmp_path, [week], role="actuals", key="k", distinct=True,
+                                      present=Column("sold", "number", "actuals.value"))
+
+
 @pytest.fixture
 def http_root(tmp_path: Path) -> Iterator[tuple[Path, str]]:
     """A folder served over HTTP on loopback (Python's own server, one thread per request)."""
