@@ -226,7 +226,7 @@ def worst_status(statuses: list[str] | tuple[str, ...]) -> Verdict:
     >>> worst_status([])
     'pass'
     """
-    level = max((Status(s).severity for s in statuses), default=0)
+    level = max((Status(s).severity for s in set(statuses)), default=0)  # each status once
     return (Status.PASS, Status.WARN, Status.FAIL)[level].value  # type: ignore[return-value]
 
 

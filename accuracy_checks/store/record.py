@@ -211,7 +211,8 @@ def chain_digest(previous: str | None, run: dict[str, Any],
     :data:`RUN_FIELDS`, timestamps in ISO 8601 UTC), a newline, and the result rows as one
     JSON array of arrays (fields in :data:`RESULT_FIELDS` order, floats as shortest repr)."""
     head = dumps({k: _canon(run.get(k)) for k in RUN_FIELDS})
-    body = _ENCODER.encode([list(r) for r in rows])
+    # a tuple encodes as the JSON array its list would: no copy of the rows
+    body = _ENCODER.encode([r if isinstance(r, tuple | list) else list(r) for r in rows])
     payload = f"{previous or ''}\n{head}\n{body}"
     return hashlib.sha256(payload.encode("utf-8")).hexdigest()
 
@@ -285,7 +286,9 @@ def input_fingerprints(config: Config, info: dict[str, Any], *,
 def insert_results(conn: Connection, run_pk: int, rows: Sequence[Sequence[Any]]) -> None:
     """Insert result rows in bulk: ``COPY … FROM STDIN`` on PostgreSQL (psycopg 3), one
     ``executemany`` through the driver elsewhere (no per-row work in SQLAlchemy). Values
-    travel as data (COPY rows or bound parameters), never as SQL text."""
+    travel as data (COPY rows or bound parameters), never as SQL text; only ``run_pk``, the
+    integer key the database gave the run, is written into the ``executemany`` statement.
+    Timed by ``bench/record_bench.py`` (50 000 results on SQLite: see ``bench/README.md``)."""
     if not rows:
         return
     from accuracy_checks.store.schema import results
@@ -303,9 +306,11 @@ def insert_results(conn: Connection, run_pk: int, rows: Sequence[Sequence[Any]])
     style = conn.dialect.paramstyle
     if style in ("qmark", "format", "pyformat"):
         mark = "?" if style == "qmark" else "%s"
+        # the run's key is the integer the database just gave this run: written into the
+        # statement (as int), so the result rows go to the driver as they are, uncopied
         sql = (f"INSERT INTO {quote(results.name)} ({columns}) "
-               f"VALUES ({', '.join([mark] * len(names))})")
-        conn.exec_driver_sql(sql, [(run_pk, *r) for r in rows])
+               f"VALUES ({int(run_pk)}, {', '.join([mark] * len(RESULT_FIELDS))})")
+        conn.exec_driver_sql(sql, rows if isinstance(rows, list) else list(rows))
     else:  # any other driver: SQLAlchemy's own executemany
         conn.execute(results.insert(), [dict(zip(names, (run_pk, *r), strict=True))
                                         for r in rows])
