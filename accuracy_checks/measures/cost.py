@@ -39,10 +39,12 @@ def error_cost_from_data(data: MeasureData) -> pd.DataFrame:
     """
     costs = data.settings.costs
     codes, segments = pd.factorize(data.rows[F.SEGMENT], sort=False)
-    table = [costs.of(str(s)) if costs is not None else None for s in segments]
+    width = max(len(segments), 1)
+    # unpriced padding for the one empty cell when the window has no row (so the per-cell
+    # arrays below keep their (group, cell) shape)
+    table = [costs.of(str(s)) if costs is not None else None for s in segments] or [None]
     under_of = np.array([np.nan if c is None else c[0] for c in table])
     over_of = np.array([np.nan if c is None else c[1] for c in table])
-    width = max(len(segments), 1)
     usable = data.usable & (codes >= 0)
     cell = data.group[usable] * width + codes[usable]
     e = data.error[usable]

@@ -423,3 +423,23 @@ def test_mase_undefined_cases() -> None:
     # the history is all zero).
     assert math.isnan(fn.mase([1, 2], [1, 1], [5, 6, 7], m=4))
     assert math.isnan(fn.mase([1, 2], [1, 1], [0, 0, 0]))
+
+
+def test_error_cost_of_a_window_without_rows_is_no_data() -> None:
+    """A window with no evaluation row (the tracking window may still hold some) gives every
+    group an undefined cost instead of failing on an empty reduction (a regression: numpy's
+    ``min`` over a zero-width axis raised)."""
+    from accuracy_checks.measures.cost import error_cost_from_data
+    from accuracy_checks.measures.data import MeasureData
+    from accuracy_checks.sources import frames as F
+
+    rows = pd.DataFrame({F.SEGMENT: pd.Series([], dtype=object),
+                         F.ACTUAL: pd.Series([], dtype=float),
+                         F.FORECAST: pd.Series([], dtype=float)})
+    groups = pd.DataFrame({"lag": [1, 1], "segment": ["a", "*"]})
+    settings = MeasureSettings(costs=CostTable(default=(2.0, 1.0)))
+    data = MeasureData(rows, np.array([], dtype=np.int64), groups, np.array([], dtype=np.int64),
+                       0, settings)
+    out = error_cost_from_data(data)
+    assert len(out) == 2
+    assert out["value"].isna().all()
