@@ -19,18 +19,24 @@ computes the accuracy results without gathering rows in one process:
 
 Shard frames: ``earlier``/``actuals`` exactly as :class:`~accuracy_checks.sources.load.Inputs`
 holds them (canonical columns, rows in the files' order), restricted to the shard's series.
-Key and segment columns are categoricals with the SAME categories in every shard (as
-``Inputs`` holds them: one set of categories per column across frames): the pandas engine
-numbers series by their key category codes, and that number breaks ties between offenders.
+Key and segment columns are categoricals, each shard with its own sorted categories (the
+same relative order as the run's: the loader sorts every key column's categories): the pandas
+engine numbers series by their key category codes, and that number breaks ties between
+offenders; a shard's candidates carry it as ``comb`` (its own codes), and the merge ranks the
+candidates of several shards again by their key labels (``accuracy_tables.label_order``).
 
 Group identity across shards: ``(window, grouping, lag, seg_rank, segment)``; ``seg_rank`` is
-the segment's category code (the pandas engine orders groups by it), ``-1`` for ``"*"``.
+the segment's category code in its shard (the pandas engine orders groups by it), ``-1`` for
+``"*"``; shards that number the segments apart are renumbered by one order before they merge
+(:func:`_one_segment_order`).
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping, Sequence
+from dataclasses import replace
 
+import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.judge import Thresholds
@@ -51,6 +57,7 @@ from accuracy_checks.measures.registry import get_measure
 from accuracy_checks.measures.selection import measure_settings, measures_to_report
 from accuracy_checks.measures.stats import merge_stats
 from accuracy_checks.results import CheckResult
+from accuracy_checks.sources import frames as F
 
 __all__ = ["AccuracyPartial", "AccuracyPlan", "accuracy_partial", "accuracy_plan",
            "finish_accuracy", "merge_partials"]
@@ -141,15 +148,9 @@ def merge_partials(parts: Sequence[AccuracyPartial]) -> AccuracyPartial:
         return AccuracyPartial()
     if len(kept) == 1:
         return kept[0]
-    segments: dict[str, int] = {}
+    kept, segments = _one_segment_order(kept)
     cycles: set[tuple[pd.Timestamp, int | None, str]] = set()
     for p in kept:
-        for label, rank in p.segments.items():
-            if segments.setdefault(label, rank) != rank:
-                raise ValueError(
-                    f"the shards number segment {label!r} differently ({segments[label]} and "
-                    f"{rank}): every shard's segment and key columns must be categoricals with "
-                    "the run's categories (as sources.load.Inputs holds them)")
         cycles |= p.cycles
     limit = max((_limit(p.candidates) for p in kept), default=0)
     tables = {}
@@ -166,6 +167,45 @@ def merge_partials(parts: Sequence[AccuracyPartial]) -> AccuracyPartial:
                                     limit),
         tables=tables, cut=min(cuts) if cuts else None,
     )
+
+
+def _one_segment_order(parts: list[AccuracyPartial]
+                       ) -> tuple[list[AccuracyPartial], dict[str, int]]:
+    """The parts with one numbering of the segments, and that numbering.
+
+    Each shard ranks its segments by its own categories, a restriction of the run's order.
+    When the parts agree (every label one rank, every rank one label) their ranks stand;
+    otherwise the union is ranked again by the label's text, ``unassigned`` last (the order
+    of the run's categories for a segment column: sorted values, then the actuals whose
+    segment is unknown), and every ``seg_rank`` column is renumbered before the merge."""
+    segments: dict[str, int] = {}
+    agree = True
+    for p in parts:
+        for label, rank in p.segments.items():
+            agree &= segments.setdefault(label, rank) == rank
+    agree &= len(set(segments.values())) == len(segments)
+    if agree:
+        return parts, segments
+    labels = sorted(segments, key=lambda label: (label == F.UNASSIGNED, label))
+    new = {label: i for i, label in enumerate(labels)}
+    return [_renumbered(p, new) for p in parts], new
+
+
+def _renumbered(part: AccuracyPartial, ranks: dict[str, int]) -> AccuracyPartial:
+    """``part`` with every ``seg_rank`` (but ``-1``, the ``"*"`` rows) taken from ``ranks``."""
+
+    def frame(f: pd.DataFrame | None) -> pd.DataFrame | None:
+        if f is None or "seg_rank" not in f.columns or not len(f):
+            return f
+        rank = f["seg_rank"].to_numpy()
+        mapped = f["segment"].map(ranks).to_numpy()
+        out = f.assign(seg_rank=np.where(rank == -1, -1, mapped).astype(rank.dtype))
+        out.attrs = dict(f.attrs)
+        return out
+
+    return replace(part, segments=dict(ranks), stats=frame(part.stats), sums=frame(part.sums),
+                   candidates=frame(part.candidates),
+                   tables={name: frame(t) for name, t in part.tables.items()})
 
 
 def _limit(candidates: pd.DataFrame | None) -> int:

@@ -18,6 +18,7 @@ from accuracy_checks.checks.accuracy_groups import EvaluationGroups
 from accuracy_checks.dask.accuracy_families import EXTRA_KEYS, family_tables, scale_cut
 from accuracy_checks.dask.accuracy_tables import (
     GROUP_KEYS,
+    LABELS_SORTED,
     ORDERINGS,
     AccuracyPlan,
     scores,
@@ -158,8 +159,18 @@ def reduce_shard(plan: AccuracyPlan, frame: pd.DataFrame, history: ActualsIndex 
     return Reduced(
         segments=ranks, cycles=_cycles(job.frame), stats=pd.concat(stats, ignore_index=True),
         sums=pd.concat(sums, ignore_index=True),
-        candidates=top_candidates(pd.concat(candidates, ignore_index=True), plan.offenders),
+        candidates=_flagged(top_candidates(pd.concat(candidates, ignore_index=True),
+                                           plan.offenders), frame, plan.keys),
         tables=joined, cut=cut)
+
+
+def _flagged(candidates: pd.DataFrame, frame: pd.DataFrame, keys: list[str]) -> pd.DataFrame:
+    """``candidates`` flagged (:data:`LABELS_SORTED`) when every key column's categories are
+    sorted: the order of the labels' text is then the order of the codes."""
+    candidates.attrs[LABELS_SORTED] = all(
+        isinstance(frame[k].dtype, pd.CategoricalDtype)
+        and frame[k].cat.categories.is_monotonic_increasing for k in keys)
+    return candidates
 
 
 def _cuts(plan: AccuracyPlan, own: int | None) -> list[int]:

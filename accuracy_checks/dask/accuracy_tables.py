@@ -5,7 +5,8 @@ A partial holds small frames keyed by group (:data:`GROUP_KEYS`): sufficient sta
 additive sums (:func:`merge_sums`), per-series rows of per-series reductions (concatenated:
 a series lives in one shard) and the top-k offender candidates of each group and ordering
 (:func:`merge_candidates`: the top k of a union is the top k of the parts' top k, with the
-pandas engine's total order ``(−score, series code)``).
+pandas engine's total order ``(−score, series code)``; across shards the series code is ranked
+again from the key labels: :func:`label_order`).
 """
 
 from __future__ import annotations
@@ -26,13 +27,17 @@ from accuracy_checks.measures.data import (
 )
 from accuracy_checks.measures.registry import get_measure
 
-__all__ = ["GROUP_KEYS", "ORDERINGS", "AccuracyPartial", "AccuracyPlan", "merge_candidates",
-           "merge_sums", "series_scales", "top_candidates"]
+__all__ = ["GROUP_KEYS", "LABELS_SORTED", "ORDERINGS", "AccuracyPartial", "AccuracyPlan",
+           "label_order", "merge_candidates", "merge_sums", "series_scales", "top_candidates"]
 
 #: what identifies a group across shards: the window measured, the grouping (``segment``:
 #: per (lag, segment); ``all``: per lag, segment ``"*"``), the lag, the segment's rank (its
 #: category code; ``-1`` for ``"*"``) and its label
 GROUP_KEYS = ["window", "grouping", "lag", "seg_rank", "segment"]
+
+#: the candidates' ``attrs`` flag: their shard's key categories were in sorted order, so the
+#: key labels' text order is the series order (:func:`merge_candidates`)
+LABELS_SORTED = "labels_sorted"
 
 #: the offender orderings a group may need once merged: by absolute error (``abs``), by the
 #: bias when the group's net error is positive (``pos``), negative (``neg``) or zero
@@ -134,13 +139,41 @@ def top_candidates(frame: pd.DataFrame, limit: int) -> pd.DataFrame:
     return out
 
 
+def label_order(frame: pd.DataFrame) -> np.ndarray:
+    """The rank of each candidate's series in the pandas engine's series order: its key labels
+    (the ``label:<key>`` columns) compared key by key as text, which is the order of the run's
+    key category codes (the loader gives every key column one sorted set of categories).
+
+    A shard's ``comb`` (its own category codes in mixed radix) follows the same order within
+    the shard, but shards number their categories apart, so candidates of several shards are
+    ranked again from their labels before their ties are broken."""
+    columns = [c for c in frame.columns if c.startswith("label:")]
+    if not columns:
+        return frame["comb"].to_numpy()
+    codes = [pd.factorize(frame[c].astype(object).to_numpy(), sort=True)[0] for c in columns]
+    order = np.lexsort(codes[::-1])
+    rank = np.empty(len(frame), dtype=np.int64)
+    rank[order] = np.arange(len(frame), dtype=np.int64)
+    return rank
+
+
 def merge_candidates(parts: Sequence[pd.DataFrame], limit: int) -> pd.DataFrame:
-    """The top ``limit`` candidates of each (group, ordering) over the parts."""
+    """The top ``limit`` candidates of each (group, ordering) over the parts: ties broken by
+    :func:`label_order` when every part's key categories were sorted (as the loader gives
+    them; the shards then number them apart), else by ``comb`` (parts that share one set of
+    categories, in any order)."""
     kept = [p for p in parts if len(p)] or list(parts[:1])
     if not kept:
         return pd.DataFrame()
-    stacked = pd.concat(kept, ignore_index=True) if len(kept) > 1 else kept[0]
-    return top_candidates(stacked, limit)
+    by_labels = all(p.attrs.get(LABELS_SORTED, False) for p in kept)
+    if len(kept) == 1:
+        out = top_candidates(kept[0], limit)
+    else:
+        stacked = pd.concat(kept, ignore_index=True)
+        out = top_candidates(stacked.assign(comb=label_order(stacked)) if by_labels
+                             else stacked, limit)
+    out.attrs[LABELS_SORTED] = by_labels
+    return out
 
 
 def empty_data(groups: pd.DataFrame, settings: MeasureSettings) -> MeasureData:

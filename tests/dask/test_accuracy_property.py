@@ -137,17 +137,29 @@ def test_a_measure_without_a_mergeable_form_is_refused_naming_the_pandas_engine(
         accuracy_plan(config(True, 2), actual_periods=[], cycle_starts={})
 
 
-def test_shards_with_their_own_categories_are_refused() -> None:
-    """The pandas engine orders segments and series by the run's categories: shards that
-    number them differently cannot be merged into its order."""
+def test_shards_numbering_segments_apart_are_renumbered_by_one_order() -> None:
+    """Shards rank their segments by their own (sorted) categories: parts that number a
+    segment apart are renumbered by the labels' order (``unassigned`` last) before they
+    merge, so each group keeps one identity."""
     import dataclasses
 
     from accuracy_checks.dask.accuracy import AccuracyPartial, merge_partials
+    from accuracy_checks.dask.accuracy_tables import GROUP_KEYS
 
-    one = AccuracyPartial(n_rows=1, segments={"a": 0, "b": 1})
-    other = dataclasses.replace(one, segments={"b": 0})
-    with pytest.raises(ValueError, match="number segment 'b' differently"):
-        merge_partials([one, other])
+    def sums(ranks: dict[str, int]) -> pd.DataFrame:
+        return pd.DataFrame([["evaluation", "segment", 1, r, s] for s, r in ranks.items()],
+                            columns=GROUP_KEYS).assign(n=1)
+
+    one = AccuracyPartial(n_rows=1, segments={"a": 0, "unassigned": 1, "c": 2})
+    one = dataclasses.replace(one, sums=sums(one.segments))
+    other = AccuracyPartial(n_rows=1, segments={"b": 0, "c": 1})
+    other = dataclasses.replace(other, sums=sums(other.segments))
+    merged = merge_partials([one, other])
+    assert merged.segments == {"a": 0, "b": 1, "c": 2, "unassigned": 3}
+    assert merged.sums is not None
+    got = merged.sums.sort_values("seg_rank")
+    assert got["segment"].tolist() == ["a", "b", "c", "unassigned"]
+    assert got["n"].tolist() == [1, 1, 2, 1]
 
 
 def test_a_plan_without_a_cycle_start_is_refused_not_guessed() -> None:
