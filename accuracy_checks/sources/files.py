@@ -101,8 +101,8 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
     are never opened (:mod:`accuracy_checks.sources.datasets`); callers filter the rows again.
     ``pairs`` = (issue-date column, issue date → dates of ``row_filter``'s column): Parquet
     files whose two columns are naive timestamps keep only those (issue date, date) pairs,
-    filtered while reading (row groups outside them skipped by their statistics); other places
-    ignore it (callers prune the rows anyway).
+    filtered while reading (row groups outside them skipped by their statistics); a table in
+    its WHERE clause; other places ignore it (callers prune the rows anyway).
     """
     if datasets.is_dataset(path):
         fmts = {c.name: c.fmt for c in columns if c.kind == "date"}
@@ -116,7 +116,7 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
                                              allow_empty=allow_empty, filters=filters)
     if isinstance(path, SqlSource):
         return sql.read_sql_columns(path, columns, role=role, key=sql_key(key),
-                                    allow_empty=allow_empty, row_filter=row_filter)
+                                    allow_empty=allow_empty, row_filter=row_filter, pairs=pairs)
     parts = [_read_file(f, columns, role=role, row_filter=row_filter, pairs=pairs)
              for f in list_files(path, role, key)]
     frame = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)

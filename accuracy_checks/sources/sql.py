@@ -36,7 +36,7 @@ from __future__ import annotations
 
 import datetime as dt
 import re
-from collections.abc import Callable, Iterator, Sequence
+from collections.abc import Callable, Iterator, Mapping, Sequence
 from contextlib import contextmanager, suppress
 from pathlib import Path
 from typing import Any
@@ -345,12 +345,15 @@ def sql_columns(source: SqlSource, role: str, key: str) -> list[str]:
 
 def read_sql_columns(source: SqlSource, columns: Sequence[Column], *, role: str, key: str,
                      allow_empty: bool = False,
-                     row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None
-                     ) -> pd.DataFrame:
+                     row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None,
+                     pairs: tuple[str, Mapping[pd.Timestamp, Sequence[pd.Timestamp]]] | None
+                     = None) -> pd.DataFrame:
     """Read ``columns`` of a table or query and convert them to their kinds (as files).
 
     ``row_filter`` = (date column, dates): when the column holds dates or naive timestamps,
-    only the rows on those dates are read (``column IN (…)``, bound parameters)."""
+    only the rows on those dates are read (``column IN (…)``, bound parameters). ``pairs`` =
+    (issue-date column, issue date → dates of ``row_filter``'s column): when both columns are
+    dates, only those pairs too (``issued = … AND column IN (…) OR …``)."""
     import sqlalchemy as sa
 
     names = list(dict.fromkeys(c.name for c in columns))
@@ -361,7 +364,14 @@ def read_sql_columns(source: SqlSource, columns: Sequence[Column], *, role: str,
         if row_filter is not None:
             kind = _date_kind(conn, row_filter[0])
             if kind is not None:
-                stmt = stmt.where(src.c[row_filter[0]].in_(_params(kind, row_filter[1])))
+                col = src.c[row_filter[0]]
+                stmt = stmt.where(col.in_(_params(kind, row_filter[1])))
+                issued = _date_kind(conn, pairs[0]) if pairs and any(pairs[1].values()) else None
+                if pairs is not None and issued is not None:
+                    stmt = stmt.where(sa.or_(*[
+                        sa.and_(src.c[pairs[0]] == _params(issued, [i])[0],
+                                col.in_(_params(kind, dates)))
+                        for i, dates in pairs[1].items() if len(dates)]))
         raw = conn.run(stmt, {c.name: c.kind for c in reversed(columns)})
     if len(raw) == 0 and not allow_empty:
         raise InputError(

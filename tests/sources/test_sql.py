@@ -347,6 +347,8 @@ def test_postgresql_tables_give_the_results_of_the_csv_files_filters_bound(
     assert filtered and all(p and "2026-" not in s for s, p in filtered)
     if driver == "adbc":  # $1-style placeholders, one per date, dates bound as dates
         assert all("$1" in s and all(isinstance(v, dt.date) for v in p) for s, p in filtered)
+    # the earlier cycles: only the (issue date, period) pairs of the lags, in the WHERE clause
+    assert any("AS src" in s and "src.issued_on = " in s for s, _ in filtered)
     assert any("actuals" in s for s, _ in filtered) and any("AS src" in s for s, _ in filtered)
     # no password anywhere: stdout, stderr, the JSON report, the audit record
     password = sa.engine.make_url(pg_url).password
