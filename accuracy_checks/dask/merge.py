@@ -36,7 +36,7 @@ from accuracy_checks.dask.rows import (
     merge_rows,
     output_partial,
 )
-from accuracy_checks.dask.shards import Plan, prepared_inputs, shard_inputs
+from accuracy_checks.dask.shards import Plan, merge_repeated, prepared_inputs, shard_inputs
 from accuracy_checks.results import CheckResult
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.load import ArchivedCycles, Progress
@@ -88,6 +88,8 @@ class ShardPartial:
     counts: dict[str, int] = field(default_factory=dict)
     #: the accuracy stage's rows when its mergeable form is not available (see ``run_shards``)
     rows: list[tuple[pd.DataFrame, pd.DataFrame]] = field(default_factory=list)
+    #: actuals rows repeating a series and period (count, first rows): the run is refused
+    repeated: tuple[int, pd.DataFrame] | None = None
 
 
 def _segment_names(*frames: pd.DataFrame | None) -> set[str]:
@@ -111,6 +113,9 @@ def shard_task(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd.D
         inputs = prepared_inputs(config, plan, forecast, actuals, history, archived)
     else:
         inputs = shard_inputs(config, plan, forecast, actuals, history, archived)
+    if inputs.repeated is not None:  # the run is refused: nothing else to check
+        return ShardPartial(RowsPartial(), RowsPartial(), CoveragePartial(), None,
+                            repeated=inputs.repeated)
     fc = config.forecast
     qcols = [F.quantile_column(t) for t in fc.quantiles]
     allow = fc.allow_negative
@@ -169,7 +174,8 @@ def merge_shards(parts: Sequence[ShardPartial]) -> ShardPartial:
         merged_accuracy,
         set().union(*(p.segments for p in parts)),
         counts,
-        [r for p in parts for r in p.rows])
+        [r for p in parts for r in p.rows],
+        merge_repeated([p.repeated for p in parts]))
 
 
 def _tree(client: Any, futures: list[Any]) -> Any:
@@ -223,6 +229,12 @@ def run_shards(config: Config, client: Any, job: Job, *, progress: Progress,
     try:
         futures = client.compute(tasks)
         merged: ShardPartial = _tree(client, futures).result()
+        if merged.repeated is not None:  # the pandas engine's refusal, for the whole file
+            from accuracy_checks.sources.readers import repeated_actuals_error
+
+            count, rows = merged.repeated
+            raise repeated_actuals_error(count, rows.drop(columns=[ORDER], errors="ignore"),
+                                         plan.actuals_place)  # type: ignore[arg-type]
     except BaseException:
         if stage is not None:
             stage.discard()

@@ -22,8 +22,9 @@ from accuracy_checks.config import Config
 from accuracy_checks.dask.read import ORDER, SHARD
 from accuracy_checks.evaluation.join import CYCLE_START, prune_earlier
 from accuracy_checks.sources import frames as F
+from accuracy_checks.sources.codes import duplicated_rows
+from accuracy_checks.sources.columns import SHOWN
 from accuracy_checks.sources.load import _concat, _history_frame, _segments_of_archived, quiet
-from accuracy_checks.sources.readers import refuse_repeated_actuals
 from accuracy_checks.sources.segments import (
     assign_segments,
     attach_segments,
@@ -31,8 +32,8 @@ from accuracy_checks.sources.segments import (
     unify_categories,
 )
 
-__all__ = ["HistoryPrune", "Plan", "ShardInputs", "prepared_inputs", "prune_history_piece",
-           "shard_inputs"]
+__all__ = ["HistoryPrune", "Plan", "ShardInputs", "merge_repeated", "prepared_inputs",
+           "prune_history_piece", "repeated_actuals", "shard_inputs"]
 
 
 @dataclass(frozen=True)
@@ -73,6 +74,34 @@ class ShardInputs:
     #: series the actuals' older rows know (``None``: every actual row was read)
     older: pd.DataFrame | None
     mapping: pd.DataFrame | None
+    #: actuals rows repeating a series and period: their count and the first :data:`SHOWN`
+    #: (keys, period, ``__order``); the shard is not checked further (``None``: none)
+    repeated: tuple[int, pd.DataFrame] | None = None
+
+
+def repeated_actuals(actuals: pd.DataFrame, keys: list[str]
+                     ) -> tuple[int, pd.DataFrame] | None:
+    """The shard's share of the pandas engine's repeated-actuals refusal (``refuse_repeated_
+    actuals``): a series lives in one shard, so the run's repeated rows are the union of the
+    shards', their count the sum and the rows named the first by ``__order``."""
+    dup = duplicated_rows(actuals, [*keys, F.PERIOD])
+    if not dup.any():
+        return None
+    columns = [*keys, F.PERIOD, *([ORDER] if ORDER in actuals.columns else [])]
+    sample = actuals.loc[dup, columns].head(SHOWN)
+    return int(dup.sum()), sample.astype({k: object for k in keys})
+
+
+def merge_repeated(parts: Sequence[tuple[int, pd.DataFrame] | None]
+                   ) -> tuple[int, pd.DataFrame] | None:
+    """Several shards' repeated actuals as one: counts summed, the first rows kept."""
+    found = [p for p in parts if p is not None]
+    if not found:
+        return None
+    rows = pd.concat([f for _, f in found], ignore_index=True)
+    if ORDER in rows.columns:
+        rows = rows.sort_values(ORDER, kind="stable")
+    return sum(n for n, _ in found), rows.head(SHOWN).reset_index(drop=True)
 
 
 def prune_history_piece(frame: pd.DataFrame, config: Config, plan: Plan,
@@ -133,7 +162,9 @@ def shard_inputs(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd
     if plan.cut_actuals:
         kept = actuals[F.PERIOD].isin(list(plan.actual_periods or ())).to_numpy()
         actuals = actuals.loc[kept].reset_index(drop=True)
-    refuse_repeated_actuals(actuals, keys, plan.actuals_place)  # type: ignore[arg-type]
+    repeated = repeated_actuals(actuals, keys)
+    if repeated is not None:  # refused on the client for the whole file (run_shards)
+        return ShardInputs(forecast, actuals, pd.DataFrame(), None, plan.mapping, repeated)
     history_parts = []
     if history is not None and len(history):
         history_parts = [_by_order(_categorical(history, keys))]

@@ -118,13 +118,19 @@ def refuse_repeated_actuals(frame: pd.DataFrame, keys: list[str], path: Place) -
     dup = duplicated_rows(frame, [*keys, F.PERIOD])
     if not dup.any():
         return
-    sample = frame.loc[dup, [*keys, F.PERIOD]].head(SHOWN)
+    raise repeated_actuals_error(int(dup.sum()), frame.loc[dup, [*keys, F.PERIOD]].head(SHOWN),
+                                 path)
+
+
+def repeated_actuals_error(count: int, sample: pd.DataFrame, path: Place) -> InputError:
+    """The refusal of ``count`` actuals rows that repeat a series and period, naming the
+    ``sample`` rows (keys and period, the first ones)."""
     shown = "; ".join(
         ", ".join(f"{k}={v}" for k, v in row.items() if k != F.PERIOD)
         + f", {row[F.PERIOD]:%Y-%m-%d}"
-        for row in sample.to_dict("records")
+        for row in sample.head(SHOWN).to_dict("records")
     )
-    raise InputError(
-        f"The actuals {path} hold {int(dup.sum())} rows that repeat a series and period "
+    return InputError(
+        f"The actuals {path} hold {count} rows that repeat a series and period "
         f"(e.g. {shown}). Each series needs one actual per period: aggregate them first."
     )
