@@ -69,7 +69,7 @@ def horizon_steps(series: SeriesIndex, forecast: pd.DataFrame, frequency: str,
     The distinct periods are placed (:func:`~accuracy_checks.evaluation.grid.grid_positions`)
     and the rows take their period's place through its code
     (:func:`~accuracy_checks.checks.series_index.date_codes`)."""
-    codes, uniques = date_codes(forecast[PERIOD])
+    codes, uniques = date_codes(forecast[PERIOD], sort=False)
     dated = codes >= 0
     all_dated = bool(dated.all())
     present = np.zeros((series.n, horizon), dtype=bool)
@@ -80,8 +80,9 @@ def horizon_steps(series: SeriesIndex, forecast: pd.DataFrame, frequency: str,
                             np.full(len(forecast), -1, dtype=np.int64),
                             np.zeros(len(forecast), dtype=bool), dated, 0)
     unique_pos, unique_on = grid_positions(uniques, frequency)
-    first = uniques[0]
-    base = int(unique_pos[0])
+    earliest = int(np.argmin(uniques.asi8))
+    first = uniques[earliest]
+    base = int(unique_pos[earliest])
     unique_step = unique_pos - base
     # per distinct period: on the grid and inside the horizon, or on the grid beyond it
     unique_inside = unique_on & (unique_step < horizon)

@@ -140,7 +140,7 @@ def row_codes(frame: pd.DataFrame, columns: Sequence[str]) -> tuple[np.ndarray, 
     for column in columns[n_keys:]:
         values = frame[column]
         if values.dtype.kind == "M":
-            codes, uniques = date_codes(values)
+            codes, uniques = date_codes(values, sort=False)
             size = len(uniques)
             if (codes < 0).any():  # missing dates: a code of their own
                 codes, size = codes + 1, size + 1
