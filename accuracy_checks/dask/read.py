@@ -41,7 +41,8 @@ from accuracy_checks.sources.files import (
     why,
 )
 
-__all__ = ["ORDER", "SHARD", "Piece", "local_files", "pieces", "read_piece", "shard_of"]
+__all__ = ["ORDER", "SHARD", "Piece", "date_forms", "local_files", "pieces", "read_piece",
+           "shard_of", "whole_file_error"]
 
 ORDER = "__order"
 SHARD = "__shard"
@@ -92,7 +93,7 @@ def _dates_in(meta: Any, group: int, column: str | None,
     return any(lo <= pd.Timestamp(w) <= hi for w in wanted)
 
 
-def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int = PIECE_ROWS,
+def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int | None = None,
            column: str | None = None,
            wanted: Sequence[pd.Timestamp] | None = None) -> list[Piece]:
     """The pieces of ``files`` in reading order, numbered from ``start``. With ``column`` and
@@ -100,6 +101,7 @@ def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int = PIEC
     them are left out (never read): the span's filter pushed into the read."""
     import pyarrow.parquet as pq
 
+    rows = PIECE_ROWS if rows is None else rows  # read when called (tests set it smaller)
     out: list[Piece] = []
     for file in files:
         if file.suffix.lower() not in PARQUET:
@@ -149,9 +151,16 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
                          f"{why(exc)}") from None
     first_line = (1 if piece.row_groups is not None else 2) + piece.first_row
     out: dict[str, pd.Series] = {}
-    for c in columns:
-        if c.name not in out:
-            out[c.name] = convert(raw[c.name], piece.file, c, piece.role, first_line)
+    try:
+        for c in columns:
+            if c.name not in out:
+                out[c.name] = convert(raw[c.name], piece.file, c, piece.role, first_line)
+    except InputError:
+        if piece.row_groups is not None:  # part of a file: the whole file's message
+            found = whole_file_error(piece, columns)
+            if found is not None:
+                raise found from None
+        raise
     frame = pd.DataFrame(out).rename(
         columns={c.name: c.canonical for c in columns if c.canonical})
     if rename:
@@ -162,6 +171,69 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
         frame[k] = _text(frame[k])
     frame[ORDER] = (np.int64(piece.ordinal) << _ROW_BITS) + np.arange(len(frame), dtype=np.int64)
     return frame
+
+
+def whole_file_error(piece: Piece, columns: Sequence[Column]) -> InputError | None:
+    """The pandas engine's refusal of the Parquet file ``piece`` belongs to: ``columns``
+    converted in order over every row of the file, one column at a time (the first error:
+    the file's first offending rows and their count in the whole file), or ``None``.
+
+    Run only when a piece is refused (its own message names its rows alone) or when the
+    pieces of a file disagree on a date column's UTC offsets (:func:`date_forms`): it holds
+    one column of the file in memory at a time."""
+    import pyarrow.parquet as pq
+
+    groups = pq.ParquetFile(piece.file).metadata.num_row_groups
+    whole = Piece(piece.file, piece.role, tuple(range(groups)), 0, piece.ordinal)
+    if groups == 0:
+        return None
+    done: set[str] = set()
+    for c in columns:
+        if c.name in done:
+            continue
+        done.add(c.name)
+        raw = _parquet(whole, [c.name], [c.name] if c.kind != "number" else [])
+        try:
+            convert(raw[c.name], piece.file, c, piece.role, 1)
+        except InputError as exc:
+            return exc
+    return None
+
+
+#: a date written with a time and a UTC offset: the offset (``Z``, ``+HH``, ``+HHMM``,
+#: ``+HH:MM``)
+_OFFSET = r"\d{2}:\d{2}(?::\d{2}(?:\.\d+)?)?\s*(Z|[+-]\d{2}(?::?\d{2})?)$"
+
+
+def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[str]]:
+    """For each date column of a Parquet piece stored as text: the UTC offsets its dates carry
+    (``+HH:MM``; ``""``: a date without one). A file whose pieces carry more than one form in
+    a column mixes offsets, which the converters refuse over the whole file
+    (:func:`whole_file_error`) but a piece alone may not show."""
+    import pyarrow as pa
+    import pyarrow.compute as pc
+    import pyarrow.parquet as pq
+
+    if piece.row_groups is None:
+        return {}
+    schema = pq.read_schema(piece.file)
+    text = [c.name for c in columns if c.kind == "date" and c.name in schema.names
+            and (pa.types.is_string(schema.field(c.name).type)
+                 or pa.types.is_large_string(schema.field(c.name).type))]
+    if not text:
+        return {}
+    table = pq.ParquetFile(piece.file).read_row_groups(list(piece.row_groups),
+                                                       columns=list(dict.fromkeys(text)))
+    out: dict[str, frozenset[str]] = {}
+    for name in dict.fromkeys(text):
+        values = pd.Series(pc.unique(table[name]).to_pandas(), dtype="string").str.strip()
+        values = values[values.notna() & (values != "")]
+        found = values.str.extract(_OFFSET, expand=False)
+        hh = found.str.slice(0, 3)
+        mm = found.str.slice(3).str.replace(":", "", regex=False).str.ljust(2, "0")
+        form = (hh + ":" + mm).mask(found.eq("Z").fillna(False), "+00:00").fillna("")
+        out[name] = frozenset(form.unique().tolist())
+    return out
 
 
 def _text(column: pd.Series) -> pd.Series:

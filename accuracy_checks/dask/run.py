@@ -129,6 +129,9 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
     for i, files in enumerate(h_places):
         h_pieces += [(i, p) for p in pieces(files, "history", start=len(h_pieces))]
 
+    _refuse_mixed_offsets(client, [(f_pieces, forecast_columns(config)),
+                                   (every_a, actual_columns(config)),
+                                   ([p for _, p in h_pieces], forecast_columns(config))])
     fsum = P.combine_forecast(client.gather(client.map(P.forecast_summary, f_pieces,
                                                        config=config, pure=False)))
     asums = client.gather(client.map(P.actuals_summary, a_pieces, config=config,
@@ -196,6 +199,48 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
               "older_reader": older, "places": {
             "forecast": {"path": str(forecast_path or config.forecast.place)},
             "actuals": {"path": str(actuals_path or config.actuals.place)}}})
+
+
+def _refuse_mixed_offsets(client: Any, inputs: list[tuple[list[Piece], list[Any]]]) -> None:
+    """The pandas engine's refusal of a Parquet file whose text dates mix UTC offsets across
+    its pieces (each piece alone may carry one): the offsets of each piece's text date
+    columns (:func:`~accuracy_checks.dask.read.date_forms`, on the workers, only for files of
+    several pieces with a text date column), then, for the first file that mixes them, the
+    whole file's conversion on a worker, which raises the converters' message."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    from accuracy_checks.dask.read import date_forms, whole_file_error
+
+    for found, columns in inputs:
+        dated = [c for c in columns if c.kind == "date"]
+        by_file: dict[Path, list[Piece]] = {}
+        for piece in found:
+            if piece.row_groups is not None:
+                by_file.setdefault(piece.file, []).append(piece)
+        wanted = []
+        for file, parts in by_file.items():
+            schema = pq.read_schema(file) if len(parts) > 1 else None
+            if schema is not None and any(
+                    c.name in schema.names and (pa.types.is_string(schema.field(c.name).type)
+                                                or pa.types.is_large_string(
+                                                    schema.field(c.name).type))
+                    for c in dated):
+                wanted += parts
+        if not wanted:
+            continue
+        forms = client.gather(client.map(date_forms, wanted, columns=dated, pure=False))
+        seen: dict[tuple[Path, str], set[str]] = {}
+        for piece, per_column in zip(wanted, forms, strict=True):
+            for name, got in per_column.items():
+                seen.setdefault((piece.file, name), set()).update(got)
+        for (file, _), got in seen.items():
+            if len(got) > 1:
+                first = next(p for p in wanted if p.file == file)
+                error = client.submit(whole_file_error, first, list(columns),
+                                      pure=False).result()
+                if error is not None:
+                    raise error
 
 
 def _segment_columns(config: Config, file: Path, role: str) -> list[Any]:
