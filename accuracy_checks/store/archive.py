@@ -45,6 +45,7 @@ from __future__ import annotations
 import contextlib
 import os
 import re
+import shutil
 import time
 import uuid
 from collections.abc import Mapping, Sequence
@@ -234,7 +235,8 @@ class Archive:
         return self._finish_read(frame, snap, required)
 
     def _exists(self, snap: Snapshot) -> bool:
-        return Path(snap.path).is_file()
+        # a file, or a folder of parts (the dask engine's workers write one part each)
+        return Path(snap.path).exists()
 
     @staticmethod
     def _finish_read(frame: pd.DataFrame, snap: Snapshot,
@@ -336,7 +338,10 @@ class Archive:
         for f in incoming.iterdir():
             try:
                 if f.stat().st_mtime < cutoff:
-                    f.unlink()
+                    if f.is_dir():  # a folder of parts staged by the dask engine
+                        shutil.rmtree(f)
+                    else:
+                        f.unlink()
             except OSError:
                 pass
 

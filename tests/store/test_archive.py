@@ -221,6 +221,26 @@ def test_stage_that_fails_half_way_leaves_no_file(tmp_path: Path,
     assert [p for p in archive.root.rglob("*") if p.is_file()] == []
 
 
+def test_stage_sweeps_stale_debris_files_and_folders(tmp_path: Path) -> None:
+    """Debris of runs killed over an hour ago is removed when the next run stages: a file,
+    and a folder of parts (what the dask engine's workers stage); fresh debris is kept."""
+    archive = Archive(tmp_path / "archive")
+    incoming = archive.root / ".incoming"
+    old_dir = incoming / "killed-dask-run.parquet"
+    old_dir.mkdir(parents=True)
+    (old_dir / "part-0.parquet").write_bytes(b"PAR1")
+    old_file = incoming / "killed-run.parquet"
+    old_file.write_bytes(b"PAR1")
+    fresh = incoming / "running.parquet"
+    fresh.write_bytes(b"PAR1")
+    two_hours_ago = os.stat(old_file).st_mtime - 7200
+    for p in (old_dir, old_file):
+        os.utime(p, (two_hours_ago, two_hours_ago))
+    staged = archive.stage(pd.DataFrame({"x": [1.0]}), CURRENT)
+    assert not old_dir.exists() and not old_file.exists()
+    assert fresh.exists() and staged.path.exists()
+
+
 # ---------------------------------------------------------------- engine: load_inputs notes
 
 
