@@ -127,7 +127,8 @@ def accuracy_partial(plan: AccuracyPlan, earlier: pd.DataFrame,
     ``earlier``/``actuals``: the canonical frames exactly as ``Inputs.earlier`` /
     ``Inputs.actuals`` hold them (sources/load.py), restricted to the series of this shard:
     every row of each of those series, and no other series (rows in the files' order; key and
-    segment categoricals with the run's categories). Returns only per-(lag, segment),
+    segment categoricals with sorted categories: the run's, or the shard's own, in the same
+    relative order; module doc). Returns only per-(lag, segment),
     per-(lag, segment, period) or per-series reductions and top-k candidates (never rows);
     picklable.
     """

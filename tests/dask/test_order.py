@@ -17,18 +17,27 @@ STORES = ["S7", "S10", "S2", "A3", "S1", "Z0", "B9", "S05", "M4", "a1", "S3", "K
 PRODUCTS = ["P3", "P1", "P2"]
 
 
+#: one series of a segment no other series has ("fruit", first in the segments' order): the
+#: shard that holds it numbers the segments apart from the others
+LONE = ("K8", "P4")
+
+
+def _series() -> list[tuple[str, str]]:
+    return [*((s, p) for s in STORES for p in PRODUCTS), LONE]
+
+
 def _forecast(issued: pd.Timestamp) -> pd.DataFrame:
     """Every series forecast 100 each week: the same error everywhere (offender ties)."""
     rows = [{"store": s, "product": p, "week": w.date().isoformat(), "units": 100.0,
              "p10": 80.0, "p90": 120.0, "issued_on": issued.date().isoformat()}
-            for s in STORES for p in PRODUCTS for w in weeks(issued, HORIZON)]
+            for s, p in _series() for w in weeks(issued, HORIZON)]
     return pd.DataFrame(rows)
 
 
 def _actuals() -> pd.DataFrame:
     first = EARLIER[0] - pd.Timedelta(weeks=6)
     rows = [{"store": s, "product": p, "week": w.date().isoformat(), "units_sold": 90.0}
-            for p in PRODUCTS for s in reversed(STORES)
+            for s, p in reversed(_series())
             for w in pd.date_range(first, CURRENT - pd.Timedelta(weeks=1), freq="W-MON")]
     return pd.DataFrame(rows)
 
@@ -48,6 +57,9 @@ def test_ties_and_examples_across_shards(make_project: Callable[..., Project],
     forecast = pd.concat([forecast.drop(index=gaps[::3]), extra], ignore_index=True)
     earlier = pd.concat([_forecast(d) for d in EARLIER], ignore_index=True)
     project = make_project(forecast=forecast, earlier=earlier, actuals=_actuals())
+    project.write("products.csv", pd.DataFrame({"product": ["P1", "P2", "P3", "P4"],
+                                                "category": ["tools", "plants", "plants",
+                                                             "fruit"]}))
     pandas_report, dask_report = both(project.config, cluster)
     by_check = {(r.check, r.segment): r for r in pandas_report.results
                 if r.check != "accuracy" or r.measure == "bias_pct"}
@@ -57,6 +69,7 @@ def test_ties_and_examples_across_shards(make_project: Callable[..., Project],
     # the pandas engine's tie-break: the key labels in sorted order (the categories' order)
     labels = [(e["store"], e["product"]) for e in bias.examples]
     assert labels == sorted(labels) and labels[0] == ("A3", "P1")
+    assert by_check[("accuracy", "fruit")].status == "fail"
     for name in ("coverage.missing_series", "coverage.horizon", "output.invalid_values",
                  "output.negative_values", "output.quantile_order"):
         assert len(by_check[(name, "*")].examples) > 3, name
