@@ -39,6 +39,11 @@ def _dates(config: Config, role: str) -> list[Column]:
     return [c for c in cols if c.name in wanted]
 
 
+def _every(config: Config, role: str) -> list[Column]:
+    """Every configured column of the role's input, in the readers' order."""
+    return forecast_columns(config) if role != "actuals" else actual_columns(config)
+
+
 @dataclass
 class ForecastSummary:
     """Rows per issue date (``NaT`` for a missing one), the earliest period, rows read."""
@@ -50,7 +55,7 @@ class ForecastSummary:
 
 def forecast_summary(piece: Piece, config: Config) -> ForecastSummary:
     """One forecast piece's issue dates and earliest period."""
-    frame = read_piece(piece, _dates(config, "forecast"))
+    frame = read_piece(piece, _dates(config, "forecast"), every=_every(config, "forecast"))
     counts = frame[F.ISSUED].value_counts(dropna=False, sort=False)
     periods = frame[F.PERIOD].dropna()
     first = pd.Timestamp(periods.min()) if len(periods) else None
@@ -80,7 +85,7 @@ class ActualsSummary:
 def actuals_summary(piece: Piece, config: Config,
                     periods: Sequence[pd.Timestamp] | None) -> ActualsSummary:
     """One actuals piece's periods (only the rows of ``periods`` when the run cuts them)."""
-    frame = read_piece(piece, _dates(config, "actuals"))
+    frame = read_piece(piece, _dates(config, "actuals"), every=_every(config, "actuals"))
     if periods is not None:
         frame = frame.loc[frame[F.PERIOD].isin(list(periods))]
     values = frame[F.ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
@@ -92,7 +97,7 @@ def actuals_summary(piece: Piece, config: Config,
 
 def history_starts(piece: Piece, config: Config) -> pd.Series:
     """One history piece's cycles: issue date → first period."""
-    frame = read_piece(piece, _dates(config, "history"))
+    frame = read_piece(piece, _dates(config, "history"), every=_every(config, "history"))
     return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
 
 
@@ -112,8 +117,8 @@ def pruned_starts(piece: Piece, place: int, *, config: Config, plan: object) -> 
     from accuracy_checks.dask.shards import Plan, prune_history_piece
 
     assert isinstance(plan, Plan)
-    frame = prune_history_piece(read_piece(piece, _dates(config, "history")), config, plan,
-                                place)
+    read = read_piece(piece, _dates(config, "history"), every=_every(config, "history"))
+    frame = prune_history_piece(read, config, plan, place)
     return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
 
 

@@ -133,11 +133,14 @@ def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int | None
 
 def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] = (),
                n_shards: int = 0, rename: dict[str, str] | None = None,
-               text: Sequence[str] = (), head: int | None = None) -> pd.DataFrame:
+               text: Sequence[str] = (), head: int | None = None,
+               every: Sequence[Column] | None = None) -> pd.DataFrame:
     """One piece's ``columns`` converted to their canonical dtypes and names (key columns and
     the ``text`` columns present as plain text, so every piece has the same dtypes), with
     ``__order`` and, when ``n_shards``, ``__shard`` of the series (``keys``: canonical key
-    names, after ``rename``)."""
+    names, after ``rename``). ``every``: the input's configured columns, in the readers'
+    order, when ``columns`` are only some of them (a refusal then names the file's first
+    offending column among all of them, as the pandas engine does)."""
     check_header(piece.file, columns, piece.role)
     wanted = list(dict.fromkeys(c.name for c in columns))
     try:
@@ -156,8 +159,9 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
             if c.name not in out:
                 out[c.name] = convert(raw[c.name], piece.file, c, piece.role, first_line)
     except InputError:
-        if piece.row_groups is not None:  # part of a file: the whole file's message
-            found = whole_file_error(piece, columns)
+        # part of a file, or some of its columns: the whole file's message
+        if piece.row_groups is not None or every is not None:
+            found = whole_file_error(piece, every or columns)
             if found is not None:
                 raise found from None
         raise
@@ -174,8 +178,8 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
 
 
 def whole_file_error(piece: Piece, columns: Sequence[Column]) -> InputError | None:
-    """The pandas engine's refusal of the Parquet file ``piece`` belongs to: ``columns``
-    converted in order over every row of the file, one column at a time (the first error:
+    """The pandas engine's refusal of the file ``piece`` belongs to: ``columns`` converted in
+    order over every row of the file, a Parquet file one column at a time (the first error:
     the file's first offending rows and their count in the whole file), or ``None``.
 
     Run only when a piece is refused (its own message names its rows alone) or when the
@@ -183,6 +187,14 @@ def whole_file_error(piece: Piece, columns: Sequence[Column]) -> InputError | No
     one column of the file in memory at a time."""
     import pyarrow.parquet as pq
 
+    if piece.row_groups is None:  # a CSV file: read whole, its lines numbered from 2
+        raw = _csv(piece.file, columns, piece.role)
+        try:
+            for c in columns:
+                convert(raw[c.name], piece.file, c, piece.role, 2)
+        except InputError as exc:
+            return exc
+        return None
     groups = pq.ParquetFile(piece.file).metadata.num_row_groups
     whole = Piece(piece.file, piece.role, tuple(range(groups)), 0, piece.ordinal)
     if groups == 0:

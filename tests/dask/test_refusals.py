@@ -87,3 +87,16 @@ def test_utc_offsets_mixed_across_pieces_are_refused(make_project: Callable[...,
     pandas_message, dask_message = _messages(project.config, cluster)
     assert "different UTC offsets" in pandas_message
     assert dask_message == pandas_message
+
+
+def test_the_first_offending_column_of_the_file_is_named(make_project: Callable[..., Project],
+                                                         cluster: str) -> None:
+    """A missing key in one row and a date that does not parse in an earlier one: the dask
+    engine's first reads (the dates only) name the column the pandas engine names first."""
+    forecast = _many_series(forecast_frame(CURRENT), 3)
+    forecast.loc[2, "week"] = "2026-13-40"
+    forecast.loc[9, "store"] = ""
+    project = make_project(forecast=forecast)
+    pandas_message, dask_message = _messages(project.config, cluster)
+    assert "key column 'store'" in pandas_message and "line 11" in pandas_message
+    assert dask_message == pandas_message
