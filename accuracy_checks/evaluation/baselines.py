@@ -94,7 +94,7 @@ def known_through(issued: pd.Series | Sequence[pd.Timestamp], frequency: str) ->
     return (pos - 1)[codes]
 
 
-def _row_positions(actuals: pd.DataFrame, frequency: str) -> tuple[np.ndarray, np.ndarray]:
+def row_positions(actuals: pd.DataFrame, frequency: str) -> tuple[np.ndarray, np.ndarray]:
     """Grid position of each row's period and whether it is on the grid (computed on the
     distinct periods only: a history repeats each period per series)."""
     period_codes, periods = pd.factorize(actuals[F.PERIOD])
@@ -162,7 +162,7 @@ class ActualsIndex:
             valid &= codes >= 0
             comb = comb * size + np.maximum(codes, 0)
         self._radix = radix
-        pos, on_grid = _row_positions(actuals, frequency)
+        pos, on_grid = row_positions(actuals, frequency)
         valid &= on_grid
         comb = comb[valid]
         pos = pos[valid]
@@ -217,7 +217,7 @@ class ActualsIndex:
                    matrix: np.ndarray | None = None,
                    cells: tuple[np.ndarray, np.ndarray, np.ndarray] | None = None
                    ) -> ActualsIndex:
-        """An index from actuals already reduced (:mod:`accuracy_checks.evaluation.history`):
+        """An index from actuals already reduced (:mod:`accuracy_checks.sources.history`):
         the same answers as the index of every row.
 
         ``levels`` are the sorted distinct values of each key column; ``codes[k][j]`` the

@@ -5,7 +5,7 @@ tracking measure is reported and it is longer; coverage reads ``coverage.active_
 A measure that needs the whole actuals history (MASE's scale, the value-added baselines) or
 comes from a plugin makes the run read every period (docs/checks.md); a run then keeps only
 the :func:`rows_span` most recent periods as rows and reduces the older ones to the actuals
-index while reading, where it can (:mod:`accuracy_checks.evaluation.history`).
+index while reading, where it can (:mod:`accuracy_checks.sources.history`).
 """
 
 from __future__ import annotations
@@ -40,5 +40,5 @@ def actuals_span(config: Config) -> int | None:
 def rows_span(config: Config) -> int:
     """How many of the most recent periods with actuals the checks use as rows (the coverage
     window and the evaluation span); the older periods serve only the long-history measures,
-    through the actuals index (:mod:`accuracy_checks.evaluation.history`)."""
+    through the actuals index (:mod:`accuracy_checks.sources.history`)."""
     return max(config.coverage.active_periods, evaluation_span(config))

@@ -27,7 +27,7 @@ import pandas as pd
 from accuracy_checks.config import Config
 from accuracy_checks.config.places import Url
 from accuracy_checks.evaluation.baselines import ActualsIndex
-from accuracy_checks.evaluation.history import read_reduced
+from accuracy_checks.sources.history import read_reduced
 from accuracy_checks.evaluation.join import cycle_targets, prune_earlier, window_periods
 from accuracy_checks.evaluation.spans import actuals_span, evaluation_span, rows_span
 from accuracy_checks.results import ALL_SERIES, CheckResult
@@ -123,7 +123,7 @@ def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
     config's place of the inputs they give (:mod:`accuracy_checks.sources.memory`).
     ``reduce_history``: when a measure needs the whole actuals history, keep only the recent
     periods as rows and the rest reduced to ``Inputs.history``
-    (:mod:`accuracy_checks.evaluation.history`; the engine's run asks for it).
+    (:mod:`accuracy_checks.sources.history`; the engine's run asks for it).
     """
     given = frames or GivenFrames()
     keys, seg_cols = list(config.forecast.keys), list(config.segments.columns)

@@ -1,5 +1,5 @@
 """The actuals history read a few periods at a time and reduced to the actuals index
-(evaluation/history.py): the same index, the same series and every result of a run the same as
+(sources/history.py): the same index, the same series and every result of a run the same as
 with every row held; any row the reduction would lose makes it read every row instead."""
 
 from __future__ import annotations
@@ -17,9 +17,9 @@ from accuracy_checks.engine import evaluate
 from accuracy_checks.errors import InputError
 from accuracy_checks.evaluation import baselines
 from accuracy_checks.evaluation.baselines import ActualsIndex
-from accuracy_checks.evaluation.history import read_reduced
 from accuracy_checks.evaluation.join import finite_actuals
 from accuracy_checks.measures.catalogue import load_config
+from accuracy_checks.sources.history import read_reduced
 from accuracy_checks.sources.load import load_inputs
 from accuracy_checks.sources.prereads import actual_series
 from accuracy_checks.sources.readers import read_actuals

@@ -33,7 +33,7 @@ import pandas as pd
 from accuracy_checks.config import Config, Place, SqlSource
 from accuracy_checks.errors import InputError
 from accuracy_checks.evaluation import baselines
-from accuracy_checks.evaluation.baselines import ActualsIndex, _row_positions
+from accuracy_checks.evaluation.baselines import ActualsIndex, row_positions
 from accuracy_checks.evaluation.grid import grid_positions
 from accuracy_checks.evaluation.join import finite_actuals
 from accuracy_checks.sources import frames as F
@@ -187,7 +187,7 @@ class _Builder:
              else len(self.values[0])) if len(self.keys) else 0
         if n > self.on_grid.size:
             self.on_grid = np.concatenate([self.on_grid, np.zeros(n - self.on_grid.size, bool)])
-        pos, on_grid = _row_positions(chunk, self.frequency)
+        pos, on_grid = row_positions(chunk, self.frequency)
         use = known & on_grid
         series, col, values = series[use], pos[use] - self.p0, values[use]
         if (col < 0).any() or (col >= self.span).any():
