@@ -43,16 +43,16 @@ from pathlib import Path
 from typing import Any, TypeGuard
 from urllib.parse import unquote, urlsplit
 
-import numpy as np
 import pandas as pd
 
 from accuracy_checks.config import Url
 from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources.columns import Column, convert, refuse_missing
+from accuracy_checks.sources.dataset_filters import DateFilter, PairFilter, choose, row_expression
 
-__all__ = ["CONNECT_TIMEOUT_S", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter", "is_dataset",
-           "open_dataset", "read_dataset_columns"]
+__all__ = ["CONNECT_TIMEOUT_S", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter", "PairFilter",
+           "is_dataset", "open_dataset", "read_dataset_columns"]
 
 #: seconds to reach an object store before the run gives up (exit 2)
 CONNECT_TIMEOUT_S = 5
@@ -64,28 +64,6 @@ _CSV = (".csv", ".csv.gz", ".txt")
 #: cells read as missing in number and date columns of CSV datasets (the files' words)
 _NA_TEXT = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
             "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null"]
-
-
-@dataclass(frozen=True)
-class DateFilter:
-    """Rows whose date column ``column`` is one of ``dates`` (``dates`` set) or on or after
-    ``since`` (``since`` set): pushed into the read (see the module doc)."""
-
-    column: str
-    dates: tuple[pd.Timestamp, ...] | None = None
-    since: pd.Timestamp | None = None
-    fmt: str | None = None
-
-    def keep(self, values: pd.Series) -> np.ndarray:
-        """Which converted dates pass (missing dates pass: the full checks name them)."""
-        ok = values.isna().to_numpy().copy()
-        if self.dates is not None:
-            ok |= values.isin(list(self.dates)).to_numpy()
-            return ok if self.since is None else ok & (values.isna() | (values >= self.since)
-                                                          ).to_numpy()
-        if self.since is not None:
-            ok |= (values >= self.since).to_numpy()
-        return ok
 
 
 @dataclass
@@ -278,23 +256,6 @@ def open_dataset(place: Url | Path, role: str, key: str) -> Dataset:
     return data
 
 
-def _choose(data: Dataset, filters: Sequence[DateFilter], role: str) -> list[str]:
-    """The files whose partition values pass ``filters`` (filters on data columns pass all)."""
-    keep = np.ones(len(data.files), dtype=bool)
-    for flt in filters:
-        values = data.partitions.get(flt.column)
-        if values is None:
-            continue
-        column = Column(flt.column, "date", flt.column, None, flt.fmt)
-        uniques, codes = np.unique(np.asarray(values, dtype=object), return_inverse=True)
-        try:
-            dates = convert(pd.Series(uniques), Path(data.shown), column, role, 1)
-        except InputError:
-            continue  # a partition value that is no date: read all, the full read names it
-        keep &= flt.keep(dates)[codes]
-    return [f for f, k in zip(data.files, keep, strict=True) if k]
-
-
 def dataset_columns(data: Dataset, role: str, key: str, file: str | None = None) -> list[str]:
     """The column names of the dataset: those of ``file`` (default: the newest file), then
     its partition columns."""
@@ -364,19 +325,21 @@ def _distinct(dataset: Any, names: list[str], present: str | None, expression: A
 
 def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: str, key: str,
                          allow_empty: bool = False, filters: Sequence[DateFilter] = (),
-                         distinct: bool = False, present: Column | None = None) -> pd.DataFrame:
+                         distinct: bool = False, present: Column | None = None,
+                         pairs: PairFilter | None = None) -> pd.DataFrame:
     """Read ``columns`` of the dataset at ``place`` (partition columns included), the
     ``filters`` pushed into the read, and convert them as a file's columns are converted.
 
     ``distinct``: only the distinct rows, and only over the rows where the number column
     ``present`` (checked, not returned) holds a value; in Parquet files grouped while
-    scanning (the pre-reads over every file: periods with actuals, the series known)."""
+    scanning (the pre-reads over every file: periods with actuals, the series known).
+    ``pairs``: only the files of its cycles are opened and only its (issue date, period)
+    rows read (a missing date passes); the callers cut the rows again."""
     import pyarrow as pa
-    import pyarrow.compute as pc
     import pyarrow.dataset as pds
 
     data = open_dataset(place, role, key)
-    files = _choose(data, filters, role)
+    files = choose(data.files, data.partitions, data.shown, filters, role, pairs)
     extra = [present] if present is not None else []
     if files:  # the newest file read: one outside the filters is never opened
         refuse_missing([*columns, *extra], dataset_columns(data, role, key, files[-1]),
@@ -396,21 +359,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
             raise InputError(
                 f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
             ) from None
-        expression = None
-        for flt in filters:
-            if flt.column in data.partitions or flt.column not in dataset.schema.names:
-                continue
-            kind = dataset.schema.field(flt.column).type
-            if not (pa.types.is_timestamp(kind) or pa.types.is_date(kind)):
-                continue
-            if flt.dates is not None:
-                values = pa.array([d.to_datetime64() for d in flt.dates]).cast(kind)
-                cond = pc.field(flt.column).isin(values)
-            else:
-                since = pa.scalar(pd.Timestamp(flt.since).to_datetime64()).cast(kind)
-                cond = pc.field(flt.column) >= since
-            cond = cond | pc.field(flt.column).is_null()
-            expression = cond if expression is None else expression & cond
+        expression = row_expression(data.partitions, data.shown, dataset, filters, pairs, role)
         grouped = distinct and data.kind == "parquet" and (present is None or (
             present.name in dataset.schema.names and present.name not in data.partitions
             and pa.types.is_floating(dataset.schema.field(present.name).type)))

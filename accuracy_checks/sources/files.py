@@ -102,7 +102,8 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
     ``pairs`` = (issue-date column, issue date → dates of ``row_filter``'s column): Parquet
     files whose two columns are naive timestamps keep only those (issue date, date) pairs,
     filtered while reading (row groups outside them skipped by their statistics); a table in
-    its WHERE clause; other places ignore it (callers prune the rows anyway).
+    its WHERE clause; a dataset in its read (files of other cycles never opened); CSV files
+    ignore it (callers prune the rows anyway).
     """
     if datasets.is_dataset(path):
         fmts = {c.name: c.fmt for c in columns if c.kind == "date"}
@@ -112,8 +113,12 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
                                                fmt=fmts.get(row_filter[0])))
         if since is not None:
             filters.append(datasets.DateFilter(since[0], since=since[1], fmt=fmts.get(since[0])))
+        cut = (datasets.PairFilter(pairs[0], row_filter[0], pairs[1], fmts.get(pairs[0]),
+                                   fmts.get(row_filter[0]))
+               if pairs is not None and row_filter is not None else None)
         return datasets.read_dataset_columns(path, columns, role=role, key=key,
-                                             allow_empty=allow_empty, filters=filters)
+                                             allow_empty=allow_empty, filters=filters,
+                                             pairs=cut)
     if isinstance(path, SqlSource):
         return sql.read_sql_columns(path, columns, role=role, key=sql_key(key),
                                     allow_empty=allow_empty, row_filter=row_filter, pairs=pairs)
