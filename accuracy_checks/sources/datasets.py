@@ -283,12 +283,17 @@ def _shown_file(data: Dataset, file: str) -> str:
 
 
 def _format(data: Dataset, text_columns: Sequence[str]) -> Any:
+    """The file format: ``text_columns`` read as text (CSV) or as dictionaries (Parquet, when
+    the files store them as text)."""
     import pyarrow as pa
     import pyarrow.csv as pcsv
     import pyarrow.dataset as pds
 
     if data.kind == "parquet":
-        return pds.ParquetFileFormat()
+        # text columns dictionary-encoded as Parquet stores them (categoricals in pandas:
+        # each distinct value converted once, no string object per row)
+        return pds.ParquetFileFormat(read_options=pds.ParquetReadOptions(
+            dictionary_columns=list(text_columns)))
     return pds.CsvFileFormat(convert_options=pcsv.ConvertOptions(
         column_types={n: pa.string() for n in text_columns}, strings_can_be_null=True,
         null_values=[""], quoted_strings_can_be_null=True))
@@ -317,8 +322,11 @@ def _distinct(dataset: Any, names: list[str], present: str | None, expression: A
     nodes = [ac.Declaration("scan", ac.ScanNodeOptions(dataset, columns=scanned, filter=cond))]
     if cond is not None:
         nodes.append(ac.Declaration("filter", ac.FilterNodeOptions(cond)))
-    nodes += [ac.Declaration("project", ac.ProjectNodeOptions([pc.field(n) for n in names],
-                                                             names)),
+    # dictionaries differ from file to file: grouped as plain text
+    keys = [pc.field(n).cast(pa.string())
+            if pa.types.is_dictionary(dataset.schema.field(n).type) else pc.field(n)
+            for n in names]
+    nodes += [ac.Declaration("project", ac.ProjectNodeOptions(keys, names)),
               ac.Declaration("aggregate", ac.AggregateNodeOptions([], keys=names))]
     return ac.Declaration.from_sequence(nodes).to_table()
 
@@ -347,11 +355,17 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
     grouped = False
     wanted = list(dict.fromkeys(c.name for c in [*columns, *extra]))
     if files:
-        fmt = _format(data, [n for n in wanted if n not in data.partitions])
-        # partition values are text, whatever they look like ("07" stays "07"); the
-        # converters make dates and keys of them
+        numbers = {c.name for c in [*columns, *extra] if c.kind == "number"}
+        fmt = _format(data, [n for n in wanted if n not in data.partitions
+                             and (data.kind == "csv" or n not in numbers)])
+        # partition values are text, whatever they look like ("07" stays "07"), as
+        # dictionaries (one copy of each value, a categorical in pandas); the converters
+        # make dates and keys of them
+        text = pa.dictionary(pa.int32(), pa.string())
         partitioning = pds.partitioning(
-            pa.schema([(n, pa.string()) for n in data.partitions]), flavor="hive")
+            pa.schema([(n, text) for n in data.partitions]), flavor="hive",
+            dictionaries={n: pa.array(sorted(set(v)), pa.string())
+                          for n, v in data.partitions.items()})
         try:
             dataset = pds.dataset(files, filesystem=data.filesystem, format=fmt,
                                   partitioning=partitioning, partition_base_dir=data.root)
@@ -374,7 +388,8 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
             raise InputError(
                 f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
             ) from None
-        frame = table.to_pandas()
+        frame = table.to_pandas(split_blocks=True, self_destruct=True)
+        del table
     else:
         frame = pd.DataFrame({n: pd.Series([], dtype=object) for n in wanted})
     if data._tmp is not None:
@@ -392,7 +407,8 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
             continue
         raw = frame[c.name]
         if data.kind == "csv" and c.kind in ("date", "number") and (
-                raw.dtype == object or pd.api.types.is_string_dtype(raw.dtype)):
+                raw.dtype == object or pd.api.types.is_string_dtype(raw.dtype)
+                or isinstance(raw.dtype, pd.CategoricalDtype)):
             raw = raw.where(~raw.isin(_NA_TEXT))
         out[c.name] = convert(raw, shown, c, role, 1)
     result = pd.DataFrame(out)
