@@ -177,6 +177,58 @@ def test_the_columns_come_from_the_newest_file_the_filters_keep(tmp_path: Path) 
         datasets.read_dataset_columns(tmp_path, columns, role="actuals", key="k")
 
 
+@pytest.mark.parametrize("week_kind", ["date", "timestamp"])
+def test_the_pairs_open_only_their_cycles_and_read_only_their_rows(
+        tmp_path: Path, week_kind: str) -> None:
+    """``pairs`` (issue date → periods): the partition of a cycle outside them is never
+    opened (damaged here), and of the cycles inside only the rows of their periods are read
+    (a missing week passes, and the converters name it); without the pairs the damaged file
+    is read and refused (so the test can fail)."""
+    weeks = ["2026-03-02", "2026-03-09", "2026-03-16"]
+    rows = pd.DataFrame({"store": ["S1", "S1", "S1"], "units": ["1", "2", "3"],
+                         "week": weeks})
+
+    def part(frame: pd.DataFrame) -> bytes:
+        sink = io.BytesIO()
+        week = pd.to_datetime(frame["week"])
+        pq.write_table(pa.table({
+            "store": pa.array(frame["store"], pa.string()),
+            "units": pa.array(pd.to_numeric(frame["units"]), pa.float64()),
+            "week": (pa.array(week.dt.date, pa.date32()) if week_kind == "date"
+                     else pa.array(week.astype("datetime64[us]"), pa.timestamp("us")))}), sink)
+        return sink.getvalue()
+
+    write_local(tmp_path, {"issued_on=2026-02-23/x.parquet": part(rows),
+                           "issued_on=2026-03-02/x.parquet": part(rows),
+                           "issued_on=2026-02-16/x.parquet": b"garbage, not Parquet"})
+    columns = [Column("store", "key", "forecast.keys"),
+               Column("week", "date", "forecast.period", "period"),
+               Column("issued_on", "date", "forecast.issued", "issued"),
+               Column("units", "number", "forecast.value", "forecast")]
+    day = pd.Timestamp
+    span = datasets.DateFilter("week", tuple(day(w) for w in weeks))
+    pairs = datasets.PairFilter("issued_on", "week", {
+        day("2026-02-23"): [day("2026-03-02")],
+        day("2026-03-02"): [day("2026-03-09"), day("2026-03-16")]})
+    frame = datasets.read_dataset_columns(tmp_path, columns, role="history", key="history",
+                                          filters=[span], pairs=pairs)
+    got = sorted(zip(frame["issued"].astype(str), frame["period"].astype(str),
+                     frame["forecast"], strict=True))
+    assert got == [("2026-02-23", "2026-03-02", 1.0),
+                   ("2026-03-02", "2026-03-09", 2.0),
+                   ("2026-03-02", "2026-03-16", 3.0)]
+    assert frame["store"].tolist() == ["S1"] * 3
+    with pytest.raises(InputError, match=r"cannot be read"):
+        datasets.read_dataset_columns(tmp_path, columns, role="history", key="history",
+                                      filters=[span])
+    # a missing week in a cycle of the pairs is read, and named
+    write_local(tmp_path, {"issued_on=2026-02-23/x.parquet": part(pd.concat(
+        [rows, pd.DataFrame({"store": ["S1"], "units": ["4"], "week": [None]})]))})
+    with pytest.raises(InputError, match=r"date column 'week' .* is empty in 1 rows"):
+        datasets.read_dataset_columns(tmp_path, columns, role="history", key="history",
+                                      filters=[span], pairs=pairs)
+
+
 def test_actuals_partitioned_by_period_give_the_results_of_the_csv_files(
         breached: tuple[Project, dict[str, Any]], tmp_path: Path) -> None:
     """Actuals in one folder per week (the week only in the folder names): the pre-reads
