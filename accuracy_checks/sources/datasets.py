@@ -299,6 +299,25 @@ def _format(data: Dataset, text_columns: Sequence[str]) -> Any:
         null_values=[""], quoted_strings_can_be_null=True))
 
 
+def _is_number(kind: Any) -> bool:
+    """Whether a column of Arrow type ``kind`` holds a value exactly where it is neither null
+    nor NaN (floats and integers: what the number converter keeps)."""
+    import pyarrow as pa
+
+    return bool(pa.types.is_floating(kind) or pa.types.is_integer(kind))
+
+
+def _any_row(dataset: Any, fragment: Any, column: str, cond: Any) -> bool:
+    """Whether a row of ``fragment`` passes ``cond``: its batches of ``column`` scanned in
+    order until one does (no read ahead: a file whose first rows pass is barely read)."""
+    import pyarrow.dataset as pds
+
+    scanner = pds.Scanner.from_fragment(fragment, schema=dataset.schema, columns=[column],
+                                        filter=cond, batch_readahead=0,
+                                        fragment_readahead=0, use_threads=False)
+    return any(batch.num_rows > 0 for batch in scanner.to_batches())
+
+
 def _distinct(dataset: Any, names: list[str], present: str | None, expression: Any) -> Any:
     """The distinct rows of columns ``names`` (over the rows where column ``present`` holds a
     number that is not NaN), grouped while the files are scanned: never every row in memory."""
@@ -312,9 +331,10 @@ def _distinct(dataset: Any, names: list[str], present: str | None, expression: A
         valid = ~pc.field(present).is_null(nan_is_null=True)
         cond = valid if cond is None else cond & valid
         if set(names) <= set(dataset.partitioning.schema.names):
-            # partition columns only: a file's values are in its path; count its valid rows
+            # partition columns only: a file's values are in its path; scan its column
+            # ``present`` until one valid row is found (one batch at a time)
             found = [pds.get_partition_keys(f.partition_expression)
-                     for f in dataset.get_fragments() if f.count_rows(filter=cond) > 0]
+                     for f in dataset.get_fragments() if _any_row(dataset, f, present, cond)]
             return pa.Table.from_pylist([{n: keys.get(n) for n in names} for keys in found],
                                         schema=pa.schema([(n, pa.string()) for n in names])
                                         ).group_by(names).aggregate([])
@@ -376,7 +396,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
         expression = row_expression(data.partitions, data.shown, dataset, filters, pairs, role)
         grouped = distinct and data.kind == "parquet" and (present is None or (
             present.name in dataset.schema.names and present.name not in data.partitions
-            and pa.types.is_floating(dataset.schema.field(present.name).type)))
+            and _is_number(dataset.schema.field(present.name).type)))
         try:
             if grouped:
                 names = list(dict.fromkeys(c.name for c in columns))
@@ -411,7 +431,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
                 or isinstance(raw.dtype, pd.CategoricalDtype)):
             raw = raw.where(~raw.isin(_NA_TEXT))
         out[c.name] = convert(raw, shown, c, role, 1)
-    result = pd.DataFrame(out)
+    result = pd.DataFrame(out, copy=False)  # (no consolidating copy of every column)
     if distinct:
         if present is not None and not grouped:
             result = result.loc[result[present.name].notna()]
