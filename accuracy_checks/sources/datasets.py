@@ -382,10 +382,12 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
         # dictionaries (one copy of each value, a categorical in pandas); the converters
         # make dates and keys of them
         text = pa.dictionary(pa.int32(), pa.string())
+        chosen = set(files)  # each value once, in the order the files are read
         partitioning = pds.partitioning(
             pa.schema([(n, text) for n in data.partitions]), flavor="hive",
-            dictionaries={n: pa.array(sorted(set(v)), pa.string())
-                          for n, v in data.partitions.items()})
+            dictionaries={n: pa.array(list(dict.fromkeys(
+                v for f, v in zip(data.files, values, strict=True) if f in chosen)), pa.string())
+                for n, values in data.partitions.items()})
         try:
             dataset = pds.dataset(files, filesystem=data.filesystem, format=fmt,
                                   partitioning=partitioning, partition_base_dir=data.root)
@@ -410,6 +412,9 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
             ) from None
         frame = table.to_pandas(split_blocks=True, self_destruct=True)
         del table
+        for n in data.partitions:  # (the values of files whose rows were all filtered out)
+            if n in frame.columns and isinstance(frame[n].dtype, pd.CategoricalDtype):
+                frame[n] = frame[n].cat.remove_unused_categories()
     else:
         frame = pd.DataFrame({n: pd.Series([], dtype=object) for n in wanted})
     if data._tmp is not None:
