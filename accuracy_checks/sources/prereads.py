@@ -24,6 +24,7 @@ import pandas as pd
 from pandas.errors import OutOfBoundsDatetime
 
 from accuracy_checks.config import Config, Place, SqlSource
+from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets, sql
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.columns import Column, to_key
@@ -48,8 +49,14 @@ def cycle_starts(path: Place, config: Config, *, role: str = "history",
         cols = [Column(issued, "date", "forecast.issued", F.ISSUED, fc.date_formats.get(issued)),
                 Column(period, "date", "forecast.period", F.PERIOD, fc.date_formats.get(period))]
         since = issued_since(config, periods)
-        frame = read_columns(path, cols, role=role, key=key, allow_empty=True,
-                             since=(issued, since) if since is not None else None)
+        after = ([datasets.DateFilter(issued, since=since, fmt=fc.date_formats.get(issued))]
+                 if since is not None else [])
+        try:  # the distinct (issue date, period) rows, grouped while scanning
+            frame = datasets.read_dataset_columns(path, cols, role=role, key=key,
+                                                  allow_empty=True, filters=after, distinct=True)
+        except InputError:  # the full read names the rows as it always has
+            frame = read_columns(path, cols, role=role, key=key, allow_empty=True,
+                                 since=(issued, since) if since is not None else None)
         if since is not None:
             frame = frame.loc[frame[F.ISSUED].isna() | (frame[F.ISSUED] >= since)]
         return frame.groupby(F.ISSUED)[F.PERIOD].min().astype("datetime64[ns]")
