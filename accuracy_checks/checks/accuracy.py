@@ -98,9 +98,9 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: Thresholds,
             "no actuals yet" if not window
             else f"no earlier forecast targets the window {span}"
         )
-        return [_no_data(ALL_SERIES, lag, m.id, book, reason) for lag in lags for m in defs]
+        return [no_data_result(ALL_SERIES, lag, m.id, book, reason) for lag in lags for m in defs]
     job = EvaluationGroups(frame, keys, settings, history, frequency)
-    # sums beyond the float64 range are found on the results and judged (_judged), so numpy's
+    # sums beyond the float64 range are found on the results and judged (judged_results), so numpy's
     # overflow warnings would only repeat it
     with np.errstate(over="ignore", invalid="ignore"):
         out = _measure_all(job, defs, window=window, tracking=tracking, book=book,
@@ -112,8 +112,8 @@ def accuracy_results(frame: pd.DataFrame, *, keys: list[str], book: Thresholds,
     for lag in lags:
         for segment in segments:
             if (lag, segment) not in have:
-                out += [_no_data(segment, lag, m.id, book,
-                                 f"no earlier forecast at lag {lag} targets {span}")
+                out += [no_data_result(segment, lag, m.id, book,
+                                       f"no earlier forecast at lag {lag} targets {span}")
                         for m in defs]
     return out
 
@@ -130,7 +130,7 @@ def _measure_all(job: EvaluationGroups, defs: list[Measure], *, window: Sequence
         for grouping in job.groupings:
             data = job.data(measure.window, grouping)
             if missing:
-                out += _not_configured(measure, data, missing, book)
+                out += not_configured_results(measure, data, missing, book)
                 continue
             try:
                 values = _checked(measure, measure.evaluate(data), data)
@@ -139,8 +139,8 @@ def _measure_all(job: EvaluationGroups, defs: list[Measure], *, window: Sequence
                     raise
                 out += _plugin_error(measure, data, exc)
                 continue
-            out += _judged(measure, values, data, job, book, min_obs, measure_span, offenders,
-                           keys)
+            out += judged_results(measure, values, data, job, book, min_obs, measure_span,
+                                  offenders, keys)
     return out
 
 
@@ -164,9 +164,12 @@ def _checked(measure: Measure, values: Any, data: MeasureData) -> pd.DataFrame:
 # --------------------------------------------------------------------------- judging
 
 
-def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: EvaluationGroups,
-            book: Thresholds, min_obs: int, span: str, limit: int,
-            keys: list[str]) -> list[CheckResult]:
+def judged_results(measure: Measure, values: pd.DataFrame, data: MeasureData, job: EvaluationGroups,
+                   book: Thresholds, min_obs: int, span: str, limit: int,
+                   keys: list[str]) -> list[CheckResult]:
+    """One judged result per (lag, segment) group of ``measure``: its ``values`` against
+    ``book``'s levels (skipped below ``min_obs`` observations), with up to ``limit`` offenders
+    named by ``keys``; ``span`` words the evaluation window. Used by both engines."""
     base_n, dropped, negative, series, lags, segments = job.facts(data)
     extras = [c for c in values.columns if c not in NOT_DETAILS]
     columns = {c: values[c].to_numpy() for c in values.columns}
@@ -211,12 +214,14 @@ def _judged(measure: Measure, values: pd.DataFrame, data: MeasureData, job: Eval
         found = worst_offenders(data, keys, breached, limit)
         for g, result in pending:
             examples = found.get(g, [])
-            out.append(_with_offenders(result, examples, measure.bias_type))
+            out.append(with_offenders(result, examples, measure.bias_type))
     return out
 
 
-def _with_offenders(result: CheckResult, examples: list[dict[str, Any]],
-                    bias: bool) -> CheckResult:
+def with_offenders(result: CheckResult, examples: list[dict[str, Any]],
+                   bias: bool) -> CheckResult:
+    """``result`` with its top offenders (``examples``, largest first) in details and message;
+    ``bias`` words them as over/under-forecasts. ``result`` itself when there are none."""
     if not examples:
         return result
     top = examples[0]
@@ -239,8 +244,10 @@ def _who(example: Mapping[str, Any]) -> str:
     return ", ".join(f"{k}={v}" for k, v in example.items() if k not in skip)
 
 
-def _not_configured(measure: Measure, data: MeasureData, missing: list[str],
-                    book: Thresholds) -> list[CheckResult]:
+def not_configured_results(measure: Measure, data: MeasureData, missing: list[str],
+                           book: Thresholds) -> list[CheckResult]:
+    """One skipped result (reason not configured) per group of ``data``: ``measure`` needs the
+    inputs ``missing``; levels from ``book``."""
     need = measure.needs_words(missing)
     out = []
     for g in range(data.n_groups):
@@ -264,8 +271,10 @@ def _plugin_error(measure: Measure, data: MeasureData, exc: Exception) -> list[C
             for g in range(data.n_groups)]
 
 
-def _no_data(segment: str, lag: int, measure: str, book: Thresholds,
-             reason: str) -> CheckResult:
+def no_data_result(segment: str, lag: int, measure: str, book: Thresholds,
+                   reason: str) -> CheckResult:
+    """A skipped result (reason no data) for ``measure`` at ``segment``/``lag``, ``reason``
+    ending its message; levels and unit from ``book``."""
     level = book.level(measure, segment)
     return CheckResult(CHECK, "skipped", segment=segment, lag=lag, measure=measure,
                        unit=book.unit(measure) or None, reason=Reason.NO_DATA, n_obs=0, n_series=0,

@@ -55,28 +55,41 @@ def actuals_checks(actuals: pd.DataFrame, *, keys: list[str], column: str | None
     """
     values = actuals[ACTUAL].to_numpy(dtype=np.float64, na_value=np.nan)
     left_out = ~np.isfinite(values)
-    what = f"`{column}`" if column else "value"
     if not left_out.any():
-        return [CheckResult(INVALID_ACTUALS, Status.PASS, segment=ALL_SERIES, value=0, n_obs=0,
-                            n_series=0, unit="count", details={"infinite": 0, "missing": 0},
-                            message=f"Every actual {what} read is a finite number.")]
+        return invalid_actuals_result(0, 0, 0, 0, [], column)
     missing = np.isnan(values)
     infinite = left_out & ~missing
     n_inf, n_missing = int(np.count_nonzero(infinite)), int(np.count_nonzero(missing))
+    order = np.concatenate([np.flatnonzero(infinite), np.flatnonzero(missing)])
+    examples = invalid_examples(actuals, order[:max(int(max_examples), 0)], keys, values)
+    n_series = count_series(actuals, keys, left_out)
+    n_inf_series = count_series(actuals, keys, infinite) if n_inf else 0
+    return invalid_actuals_result(n_inf, n_missing, n_series, n_inf_series, examples, column)
+
+
+def invalid_actuals_result(n_inf: int, n_missing: int, n_series: int, n_inf_series: int,
+                           examples: list[dict[str, Any]], column: str | None
+                           ) -> list[CheckResult]:
+    """``actuals.invalid_values`` (module doc) from its counts: ``n_inf`` infinite and
+    ``n_missing`` missing actuals in ``n_series`` series (``n_inf_series`` with an infinite
+    one), ``examples`` the first of them (:func:`invalid_examples`, infinite ones first),
+    ``column`` the file's value column for the message. ``fail`` when any actual is infinite,
+    else ``pass`` (missing actuals are only reported). Shared by both engines."""
+    what = f"`{column}`" if column else "value"
+    if not n_inf and not n_missing:
+        return [CheckResult(INVALID_ACTUALS, Status.PASS, segment=ALL_SERIES, value=0, n_obs=0,
+                            n_series=0, unit="count", details={"infinite": 0, "missing": 0},
+                            message=f"Every actual {what} read is a finite number.")]
     n_bad = n_inf + n_missing
     common: dict[str, Any] = dict(segment=ALL_SERIES, value=n_bad, n_obs=n_bad, unit="count",
                                   details={"infinite": n_inf, "missing": n_missing})
-    order = np.concatenate([np.flatnonzero(infinite), np.flatnonzero(missing)])
-    examples = _examples(actuals, order[:max(int(max_examples), 0)], keys, values)
-    n_series = count_series(actuals, keys, left_out)
     missing_text = (f"{plural(n_missing, 'row')} {verb(n_missing, 'has', 'have')} no actual "
                     f"{what} (an empty cell): read as not arrived yet and left out of the "
                     "figures")
     status: Status
     if n_inf:
         rows = verb(n_inf, "that row is", "those rows are")
-        n_inf_series = count_series(actuals, keys, infinite)
-        shown = _first(examples, "infinity", "-infinity")
+        shown = first_examples(examples, "infinity", "-infinity")
         text = (f"{plural(n_inf, 'actual')} {verb(n_inf, 'is', 'are')} infinite in the actuals' "
                 f"{what} column ({plural(n_inf_series, 'series', 'series')}; first: {shown}). "
                 f"An infinite actual cannot be trusted, so {rows} "
@@ -86,14 +99,16 @@ def actuals_checks(actuals: pd.DataFrame, *, keys: list[str], column: str | None
             text += f" Besides, {missing_text}."
         status = Status.FAIL
     else:
-        text = f"{missing_text[0].upper()}{missing_text[1:]} (first: {_first(examples)})."
+        text = f"{missing_text[0].upper()}{missing_text[1:]} (first: {first_examples(examples)})."
         status = Status.PASS
     return [CheckResult(INVALID_ACTUALS, status, n_series=n_series, examples=examples,
                         message=text, **common)]
 
 
-def _examples(actuals: pd.DataFrame, positions: np.ndarray, keys: list[str],
-              values: np.ndarray) -> list[dict[str, Any]]:
+def invalid_examples(actuals: pd.DataFrame, positions: np.ndarray, keys: list[str],
+                     values: np.ndarray) -> list[dict[str, Any]]:
+    """The rows at ``positions`` of ``actuals`` as examples (``keys`` and period), each with its
+    ``actual`` worded from ``values``: "missing", "infinity" or "-infinity"."""
     examples = row_examples(actuals, positions, [*keys, PERIOD])
     for example, position in zip(examples, positions, strict=True):
         example["actual"] = _word(float(values[position]))
@@ -106,7 +121,7 @@ def _word(value: float) -> str:
     return "infinity" if value > 0 else "-infinity"
 
 
-def _first(examples: list[dict[str, Any]], *words: str, n: int = 3) -> str:
+def first_examples(examples: list[dict[str, Any]], *words: str, n: int = 3) -> str:
     """The first ``n`` examples (those whose actual is one of ``words``, if given) as text."""
     chosen = [e for e in examples if not words or e["actual"] in words][:n]
     return "; ".join(", ".join(f"{k}={v}" for k, v in e.items() if k != "actual")

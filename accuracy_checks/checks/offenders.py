@@ -80,22 +80,22 @@ def worst_offenders(data: MeasureData, keys: list[str], breached: dict[int, bool
             example: dict[str, Any] = {k: json_value(v) for k, v in record.items()}
             example.update({
                 "n_obs": int(count[i]),
-                "error": _finite(sum_e[i]),
-                "abs_error": _finite(sum_abs[i]),
-                "share_of_abs_error_pct": _share(sum_abs[i], total_abs[g]),
-                "share_of_bias_pct": _share(sum_e[i], total_e[g]),
+                "error": finite_or_none(sum_e[i]),
+                "abs_error": finite_or_none(sum_abs[i]),
+                "share_of_abs_error_pct": share_pct(sum_abs[i], total_abs[g]),
+                "share_of_bias_pct": share_pct(sum_e[i], total_e[g]),
             })
             examples.append(example)
         out[g] = examples
     return out
 
 
-def _finite(value: float) -> float | None:
+def finite_or_none(value: float) -> float | None:
     """A sum as a float, ``None`` when it exceeds the float64 range."""
     return float(value) if np.isfinite(value) else None
 
 
-def _share(part: float, whole: float) -> float | None:
+def share_pct(part: float, whole: float) -> float | None:
     """``part`` in percent of ``whole``; ``None`` when undefined (a zero or overflowed total, or
     a share itself beyond the float64 range)."""
     if whole == 0 or not (np.isfinite(part) and np.isfinite(whole)):

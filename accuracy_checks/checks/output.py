@@ -125,8 +125,8 @@ def output_checks(
     require_output_columns(forecast, list(keys), quantile_columns, allow_negative)
     failed = output_masks(forecast, keys=keys, quantile_columns=quantile_columns,
                           allow_negative=allow_negative)
-    rows = _Rows(forecast, list(keys), quantile_columns,
-                 _file_names(quantile_columns, quantile_names), max_examples)
+    rows = ForecastRows(forecast, list(keys), quantile_columns,
+                        file_names(quantile_columns, quantile_names), max_examples)
 
     def mask_of(check: str) -> np.ndarray:
         return failed.get(check, np.zeros(len(forecast), dtype=bool))
@@ -137,24 +137,14 @@ def output_checks(
         _negative(rows, mask_of(S.NEGATIVE_VALUES)),
     ]
     if len(quantile_columns) < 2:
-        results.append(
-            CheckResult(
-                check=S.QUANTILE_ORDER,
-                status=Status.SKIPPED,
-                segment=ALL_SERIES,
-                unit=_COUNT,
-                reason=Reason.NO_QUANTILES,
-                message="The forecast has fewer than 2 quantile columns, so there is no "
-                "quantile order to check.",
-            )
-        )
+        results.append(no_quantiles_result())
     else:
         results.append(_crossing(rows, mask_of(S.QUANTILE_ORDER)))
     results.append(_issue_dates(rows, mask_of(S.ISSUE_DATES)))
     return results
 
 
-def _file_names(quantile_columns: list[str], names: Sequence[str] | None) -> dict[str, str]:
+def file_names(quantile_columns: list[str], names: Sequence[str] | None) -> dict[str, str]:
     """Canonical quantile column → the file's own column name (itself when not given)."""
     if names is None:
         return {c: c for c in quantile_columns}
@@ -167,13 +157,13 @@ def _file_names(quantile_columns: list[str], names: Sequence[str] | None) -> dic
 
 
 @dataclass(frozen=True)
-class _Rows:
+class ForecastRows:
     """The forecast frame being checked, and how its results name columns and rows."""
 
     frame: pd.DataFrame
     keys: list[str]
     quantile_columns: list[str]
-    #: canonical quantile column → the file's own name (:func:`_file_names`)
+    #: canonical quantile column → the file's own name (:func:`file_names`)
     names: dict[str, str]
     max_examples: int
 
@@ -205,23 +195,129 @@ class _Rows:
                details: dict[str, Any] | None = None) -> CheckResult:
         """``fail`` with the offending rows counted when ``mask`` holds any, else ``pass``."""
         n_bad = int(np.count_nonzero(mask))
-        return CheckResult(
-            check=check,
-            status=Status.FAIL if n_bad else Status.PASS,
-            segment=ALL_SERIES,
-            value=n_bad,
-            n_obs=n_bad,
-            n_series=count_series(self.frame, self.keys, mask),
-            unit=_COUNT,
-            message=fail_message if n_bad else pass_message,
-            examples=examples if n_bad else [],
-            details=details or {},
+        return rows_result(check, n_bad, count_series(self.frame, self.keys, mask),
+                           fail_message, pass_message, examples, details)
+
+
+def rows_result(check: str, n_bad: int, n_series: int, fail_message: str, pass_message: str,
+                examples: list[dict[str, Any]],
+                details: dict[str, Any] | None = None) -> CheckResult:
+    """An output check's result, segment ``"*"``, unit ``count``: ``fail`` with ``value`` =
+    ``n_obs`` = ``n_bad`` offending rows (in ``n_series`` series), ``fail_message`` and the
+    ``examples``, when ``n_bad`` > 0; else ``pass`` with ``pass_message`` and no example.
+    Shared by both engines."""
+    return CheckResult(
+        check=check,
+        status=Status.FAIL if n_bad else Status.PASS,
+        segment=ALL_SERIES,
+        value=n_bad,
+        n_obs=n_bad,
+        n_series=n_series,
+        unit=_COUNT,
+        message=fail_message if n_bad else pass_message,
+        examples=examples if n_bad else [],
+        details=details or {},
+    )
+
+
+def no_quantiles_result() -> CheckResult:
+    """``output.quantile_order`` skipped (reason ``no_quantiles``): fewer than 2 quantile
+    columns."""
+    return CheckResult(
+        check=S.QUANTILE_ORDER,
+        status=Status.SKIPPED,
+        segment=ALL_SERIES,
+        unit=_COUNT,
+        reason=Reason.NO_QUANTILES,
+        message="The forecast has fewer than 2 quantile columns, so there is no "
+        "quantile order to check.",
+    )
+
+
+def duplicates_messages(n_bad: int, columns: Sequence[str], n_combos: int) -> tuple[str, str]:
+    """(fail, pass) messages of ``output.duplicate_rows``: ``n_bad`` rows repeat one of
+    ``n_combos`` combinations of ``columns``."""
+    combo = f"({', '.join(columns)})"
+    return (
+        f"{n_bad:,} rows repeat a {combo} combination ({plural(n_combos, 'combination')} "
+        "given more than once); each forecast row must be unique, so drop or merge the repeats",
+        f"Every {combo} combination appears once.",
+    )
+
+
+def invalid_messages(n_bad: int, by_column: dict[str, int],
+                     values_listed: str) -> tuple[str, str]:
+    """(fail, pass) messages of ``output.invalid_values``: ``n_bad`` rows, ``by_column`` the
+    non-finite values per column (file names, in column order), ``values_listed`` the value
+    columns as the file names them."""
+    where = ", ".join(f"{c} ({n:,})" for c, n in by_column.items())
+    return (
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a missing (null/NaN) or "
+        f"infinite value in {where}; every forecast and quantile value must be a finite number",
+        f"Every value in {values_listed} is a finite number.",
+    )
+
+
+def negative_messages(n_bad: int, values_listed: str) -> tuple[str, str]:
+    """(fail, pass) messages of ``output.negative_values``: ``n_bad`` rows hold a negative
+    value; ``values_listed`` the value columns as the file names them."""
+    return (
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a negative forecast or quantile; "
+        "forecasts must be 0 or more unless forecast.allow_negative lists the segment",
+        f"No negative value in {values_listed} outside the segments that allow them.",
+    )
+
+
+def crossing_messages(n_bad: int, pairs: list[tuple[str, int]], ordered: str) -> tuple[str, str]:
+    """(fail, pass) messages of ``output.quantile_order``: ``n_bad`` rows cross; ``pairs`` are
+    ("low > high" in file names, rows) in column order (the first 3 shown); ``ordered`` the
+    quantile columns as the file names them."""
+    shown = ", ".join(f"{pair} in {plural(n, 'row')}" for pair, n in pairs[:3])
+    more = f", and {plural(len(pairs) - 3, 'more pair')}" if len(pairs) > 3 else ""
+    return (
+        f"{plural(n_bad, 'row')} {verb(n_bad, 'has', 'have')} crossing quantiles, a lower level "
+        f"above a higher one ({shown}{more}); quantile forecasts must not decrease as the level "
+        f"rises ({ordered})",
+        f"Quantiles rise with their level ({ordered}) in every row.",
+    )
+
+
+def issue_dates_wording(counts: pd.Series, n_rows: int, n_bad: int, max_examples: int
+                        ) -> tuple[str, str, list[dict[str, Any]], dict[str, Any]]:
+    """(fail message, pass message, examples, details) of ``output.issue_dates``: ``counts``
+    are rows per distinct issue date in date order (a missing date last), of ``n_rows`` rows,
+    ``n_bad`` of them off the latest date; up to ``max_examples`` dates as examples."""
+    n_dates = len(counts)
+    dated = counts.index.notna()
+    latest = example_value(counts.index[dated].max()) if dated.any() else None
+    shown_dates = counts.iloc[: max(max_examples, 5)]
+    listed = [
+        {ISSUED: example_value(day), "rows": int(n)}
+        for day, n in zip(shown_dates.index, shown_dates.to_numpy(), strict=True)
+    ]
+    if latest is None:
+        fail_message = (
+            f"No row has an issue date ({plural(n_rows, 'row')}); every row must carry the "
+            "issue date of its cycle"
         )
+    else:
+        shown = "; ".join(
+            f"{d[ISSUED] or 'no date'}: {plural(d['rows'], 'row')}" for d in listed[:5]
+        )
+        more = f"; and {n_dates - 5:,} more" if n_dates > 5 else ""
+        fail_message = (
+            f"The rows carry {n_dates:,} different issue dates ({shown}{more}); a forecast file "
+            f"must hold one cycle, so split it by issue date or drop the {n_bad:,} rows not "
+            f"issued on {latest}"
+        )
+    pass_message = ("Every row has the same issue date (one cycle)." if n_dates
+                    else "The file has no rows, so no issue dates to compare.")
+    return (fail_message, pass_message, listed[:max_examples],
+            {"issue_dates": n_dates, "latest": latest})
 
 
-def _duplicates(rows: _Rows, mask: np.ndarray) -> CheckResult:
+def _duplicates(rows: ForecastRows, mask: np.ndarray) -> CheckResult:
     frame, ident = rows.frame, rows.ident
-    combo = f"({', '.join(ident)})"
     examples: list[dict[str, Any]] = []
     n_bad = int(np.count_nonzero(mask))
     n_combos = 0
@@ -236,18 +332,11 @@ def _duplicates(rows: _Rows, mask: np.ndarray) -> CheckResult:
         examples = row_examples(frame, positions, ident)
         for example, group in zip(examples, groups[shown], strict=True):
             example["rows"] = int(counts[group])
-    return rows.result(
-        S.DUPLICATE_ROWS,
-        mask,
-        f"{n_bad:,} rows repeat a {combo} combination ({plural(n_combos, 'combination')} "
-        "given more than once); each forecast row must be unique, so drop or merge the repeats",
-        f"Every {combo} combination appears once.",
-        examples,
-        {"combinations": n_combos},
-    )
+    return rows.result(S.DUPLICATE_ROWS, mask, *duplicates_messages(n_bad, ident, n_combos),
+                       examples, {"combinations": n_combos})
 
 
-def _invalid(rows: _Rows, mask: np.ndarray) -> CheckResult:
+def _invalid(rows: ForecastRows, mask: np.ndarray) -> CheckResult:
     n_bad = int(np.count_nonzero(mask))
     by_column: dict[str, int] = {}
     if n_bad:
@@ -256,34 +345,28 @@ def _invalid(rows: _Rows, mask: np.ndarray) -> CheckResult:
             n = int(np.count_nonzero(~np.isfinite(as_float(subset, column))))
             if n:
                 by_column[rows.names.get(column, column)] = n
-    where = ", ".join(f"{c} ({n:,})" for c, n in by_column.items())
     return rows.result(
         S.INVALID_VALUES,
         mask,
-        f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a missing (null/NaN) or "
-        f"infinite value in {where}; every forecast and quantile value must be a finite number",
-        f"Every value in {rows.listed(rows.values)} is a finite number.",
+        *invalid_messages(n_bad, by_column, rows.listed(rows.values)),
         rows.examples(mask, [*rows.ident, *rows.values], rows.ident),
         {"by_column": by_column} if by_column else None,
     )
 
 
-def _negative(rows: _Rows, mask: np.ndarray) -> CheckResult:
+def _negative(rows: ForecastRows, mask: np.ndarray) -> CheckResult:
     segment = [SEGMENT] if SEGMENT in rows.frame.columns else []
     shown = [*rows.ident, *segment, *rows.values]
     n_bad = int(np.count_nonzero(mask))
     return rows.result(
         S.NEGATIVE_VALUES,
         mask,
-        f"{plural(n_bad, 'row')} {verb(n_bad, 'holds', 'hold')} a negative forecast or quantile; "
-        "forecasts must be 0 or more unless forecast.allow_negative lists the segment",
-        f"No negative value in {rows.listed(rows.values)} outside the segments that allow "
-        "them.",
+        *negative_messages(n_bad, rows.listed(rows.values)),
         rows.examples(mask, shown, shown),
     )
 
 
-def _crossing_pairs(rows: _Rows, mask: np.ndarray) -> list[tuple[str, str, int]]:
+def crossing_pairs(rows: ForecastRows, mask: np.ndarray) -> list[tuple[str, str, int]]:
     """(lower-level column, higher-level column, rows where the lower is above the higher) for
     every pair of quantile columns that crosses in an offending row, in column order."""
     if not mask.any():
@@ -300,21 +383,15 @@ def _crossing_pairs(rows: _Rows, mask: np.ndarray) -> list[tuple[str, str, int]]
     return pairs
 
 
-def _crossing(rows: _Rows, mask: np.ndarray) -> CheckResult:
+def _crossing(rows: ForecastRows, mask: np.ndarray) -> CheckResult:
     """``output.quantile_order``, worded with the file's own quantile column names."""
     names = rows.names
     n_bad = int(np.count_nonzero(mask))
-    pairs = [(f"{names[low]} > {names[high]}", n) for low, high, n in _crossing_pairs(rows, mask)]
-    shown = ", ".join(f"{pair} in {plural(n, 'row')}" for pair, n in pairs[:3])
-    more = f", and {plural(len(pairs) - 3, 'more pair')}" if len(pairs) > 3 else ""
-    ordered = rows.listed(rows.quantile_columns)
+    pairs = [(f"{names[low]} > {names[high]}", n) for low, high, n in crossing_pairs(rows, mask)]
     return rows.result(
         S.QUANTILE_ORDER,
         mask,
-        f"{plural(n_bad, 'row')} {verb(n_bad, 'has', 'have')} crossing quantiles, a lower level "
-        f"above a higher one ({shown}{more}); quantile forecasts must not decrease as the level "
-        f"rises ({ordered})",
-        f"Quantiles rise with their level ({ordered}) in every row.",
+        *crossing_messages(n_bad, pairs, rows.listed(rows.quantile_columns)),
         rows.examples(mask, [*rows.ident, *rows.quantile_columns], rows.ident),
         {"crossings": dict(pairs)} if pairs else None,
     )
@@ -329,40 +406,8 @@ def _issue_counts(frame: pd.DataFrame, mask: np.ndarray) -> pd.Series:
     return issued.value_counts(dropna=False, sort=False).sort_index(na_position="last")
 
 
-def _issue_dates(rows: _Rows, mask: np.ndarray) -> CheckResult:
-    frame = rows.frame
-    counts = _issue_counts(frame, mask)
-    n_dates = len(counts)
-    dated = counts.index.notna()
-    latest = example_value(counts.index[dated].max()) if dated.any() else None
-    shown_dates = counts.iloc[: max(rows.max_examples, 5)]
-    listed = [
-        {ISSUED: example_value(day), "rows": int(n)}
-        for day, n in zip(shown_dates.index, shown_dates.to_numpy(), strict=True)
-    ]
-    n_bad = int(np.count_nonzero(mask))
-    if latest is None:
-        fail_message = (
-            f"No row has an issue date ({plural(len(frame), 'row')}); every row must carry the "
-            "issue date of its cycle"
-        )
-    else:
-        shown = "; ".join(
-            f"{d[ISSUED] or 'no date'}: {plural(d['rows'], 'row')}" for d in listed[:5]
-        )
-        more = f"; and {n_dates - 5:,} more" if n_dates > 5 else ""
-        fail_message = (
-            f"The rows carry {n_dates:,} different issue dates ({shown}{more}); a forecast file "
-            f"must hold one cycle, so split it by issue date or drop the {n_bad:,} rows not "
-            f"issued on {latest}"
-        )
-    return rows.result(
-        S.ISSUE_DATES,
-        mask,
-        fail_message,
-        "Every row has the same issue date (one cycle)."
-        if n_dates
-        else "The file has no rows, so no issue dates to compare.",
-        listed[:rows.max_examples],
-        {"issue_dates": n_dates, "latest": latest},
-    )
+def _issue_dates(rows: ForecastRows, mask: np.ndarray) -> CheckResult:
+    fail_message, pass_message, examples, details = issue_dates_wording(
+        _issue_counts(rows.frame, mask), len(rows.frame), int(np.count_nonzero(mask)),
+        rows.max_examples)
+    return rows.result(S.ISSUE_DATES, mask, fail_message, pass_message, examples, details)

@@ -19,14 +19,14 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.accuracy import (
-    _judged,
-    _no_data,
-    _not_configured,
-    _with_offenders,
+    judged_results,
+    no_data_result,
+    not_configured_results,
+    with_offenders,
 )
 from accuracy_checks.checks.accuracy_groups import EvaluationGroups
 from accuracy_checks.checks.judge import Thresholds, span_words
-from accuracy_checks.checks.offenders import _finite, _share
+from accuracy_checks.checks.offenders import finite_or_none, share_pct
 from accuracy_checks.dask.accuracy_families import family_figures
 from accuracy_checks.dask.accuracy_shard import LABEL_SEGMENT
 from accuracy_checks.dask.accuracy_tables import (
@@ -36,7 +36,7 @@ from accuracy_checks.dask.accuracy_tables import (
     empty_data,
 )
 from accuracy_checks.evaluation.baselines import known_through
-from accuracy_checks.evaluation.join import _cycles_used
+from accuracy_checks.evaluation.join import cycles_used
 from accuracy_checks.measures.data import MeasureData
 from accuracy_checks.measures.plugins import rejected_plugins
 from accuracy_checks.measures.registry import Measure, get_measure
@@ -126,7 +126,8 @@ def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds) -> li
     if partial.n_rows == 0:
         reason = ("no actuals yet" if not plan.window
                   else f"no earlier forecast targets the window {span}")
-        out = [_no_data(ALL_SERIES, lag, m.id, book, reason) for lag in plan.lags for m in defs]
+        out = [no_data_result(ALL_SERIES, lag, m.id, book, reason)
+               for lag in plan.lags for m in defs]
     else:
         _check_cut(plan, partial)
         merged = merged_view(plan, partial)
@@ -139,8 +140,8 @@ def finish(plan: AccuracyPlan, partial: AccuracyPartial, book: Thresholds) -> li
         for lag in plan.lags:
             for segment in segments:
                 if (lag, segment) not in have:
-                    out += [_no_data(segment, lag, m.id, book,
-                                     f"no earlier forecast at lag {lag} targets {span}")
+                    out += [no_data_result(segment, lag, m.id, book,
+                                           f"no earlier forecast at lag {lag} targets {span}")
                             for m in defs]
     cycles = _cycles_list(partial)
     if cycles:
@@ -177,15 +178,15 @@ def _measure_all(merged: Merged, defs: list[Measure], book: Thresholds) -> list[
                 datas[key] = merged.data(*key)
             data = datas[key]
             if missing:
-                out += _not_configured(measure, data, missing, book)
+                out += not_configured_results(measure, data, missing, book)
                 continue
             if measure.from_stats is not None and measure.compute is None:
                 values = measure.from_stats(data.stats)
             else:
                 values = _figures(measure, merged, measure.window, grouping, data)
             facts = _Facts(merged.facts(measure.window, grouping, data))
-            judged = _judged(measure, values, data, cast(EvaluationGroups, facts), book,
-                             plan.min_obs, measure_span, plan.offenders, plan.keys)
+            judged = judged_results(measure, values, data, cast(EvaluationGroups, facts), book,
+                                    plan.min_obs, measure_span, plan.offenders, plan.keys)
             out += _offenders(judged, measure, merged, measure.window, grouping, data)
     return out
 
@@ -222,7 +223,7 @@ def _figures(measure: Measure, merged: Merged, window: str, grouping: str,
 
 def _offenders(results: list[CheckResult], measure: Measure, merged: Merged, window: str,
                grouping: str, data: MeasureData) -> list[CheckResult]:
-    """``results`` with the worst offenders of each breached one (``_with_offenders``)."""
+    """``results`` with the worst offenders of each breached one (``with_offenders``)."""
     limit = merged.plan.offenders
     if limit <= 0 or not any(r.status in BREACHED for r in results):
         return results
@@ -237,7 +238,7 @@ def _offenders(results: list[CheckResult], measure: Measure, merged: Merged, win
             g = where[(int(result.lag), str(result.segment))]
             examples = _examples(merged, window, grouping, g, measure.bias_type,
                                  float(total_e[g]), float(total_abs[g]))
-            result = _with_offenders(result, examples, measure.bias_type)
+            result = with_offenders(result, examples, measure.bias_type)
         out.append(result)
     return out
 
@@ -271,10 +272,10 @@ def _examples(merged: Merged, window: str, grouping: str, g: int, bias: bool,
                                                                           strict=True)}
         example.update({
             "n_obs": int(rec["count"]),
-            "error": _finite(rec["sum_e"]),
-            "abs_error": _finite(rec["sum_abs"]),
-            "share_of_abs_error_pct": _share(rec["sum_abs"], total_abs),
-            "share_of_bias_pct": _share(rec["sum_e"], total_e),
+            "error": finite_or_none(rec["sum_e"]),
+            "abs_error": finite_or_none(rec["sum_abs"]),
+            "share_of_abs_error_pct": share_pct(rec["sum_abs"], total_abs),
+            "share_of_bias_pct": share_pct(rec["sum_e"], total_e),
         })
         examples.append(example)
     return examples
@@ -291,4 +292,4 @@ def _cycles_list(partial: AccuracyPartial) -> list[dict[str, object]]:
         F.SOURCE: [c[2] for c in rows],
         F.ACTUAL: 1.0,
     })
-    return _cycles_used(frame)
+    return cycles_used(frame)

@@ -32,8 +32,8 @@ from accuracy_checks.measures.data import (
     stack_variants,
 )
 from accuracy_checks.measures.probabilistic import (
-    _interval_rows,
     coverage_from_data,
+    interval_rows,
     mis_from_data,
     msis_from_data,
     pinball_from_data,
@@ -116,7 +116,7 @@ def _msis_cut(data: MeasureData, labels: pd.DataFrame, history: ActualsIndex | N
                                       "n": "n_obs", "crossed": "n_crossed"})
     too_few, zero = [], []
     for interval in data.settings.intervals:  # the skipped series by reason, as msis counts
-        units = cut.units(_interval_rows(cut, interval)[2])
+        units = cut.units(interval_rows(cut, interval)[2])
         why = reason[units.series]
         too_few.append(np.bincount(units.group[why == SCALE_TOO_FEW_ROWS],
                                    minlength=data.n_groups))

@@ -30,8 +30,8 @@ from accuracy_checks.evaluation.join import (
     IN_TRACKING,
     IN_WINDOW,
     SERIES,
-    _exact_join,
     add_lags_for_subset,
+    exact_join,
     finite_actuals,
 )
 from accuracy_checks.measures.data import MeasureData
@@ -90,7 +90,7 @@ def evaluation_rows(plan: AccuracyPlan, earlier: pd.DataFrame, actuals: pd.DataF
     actual = history.values_at(series, position)
     off_grid = position < history.p0 - (1 << 40)
     if off_grid.any():
-        actual[off_grid] = _exact_join(rows.loc[off_grid], actuals, plan.keys)
+        actual[off_grid] = exact_join(rows.loc[off_grid], actuals, plan.keys)
     period = rows[F.PERIOD]
     joined = rows.assign(**{
         F.ACTUAL: actual,

@@ -21,9 +21,20 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.checks.actuals import INVALID_ACTUALS, _examples, _first
-from accuracy_checks.checks.examples import count_series, example_value, plural, verb
-from accuracy_checks.checks.output import _crossing_pairs, _file_names, _Rows
+from accuracy_checks.checks.actuals import invalid_actuals_result, invalid_examples
+from accuracy_checks.checks.examples import count_series
+from accuracy_checks.checks.output import (
+    ForecastRows,
+    crossing_messages,
+    crossing_pairs,
+    duplicates_messages,
+    file_names,
+    invalid_messages,
+    issue_dates_wording,
+    negative_messages,
+    no_quantiles_result,
+    rows_result,
+)
 from accuracy_checks.checks.output_schema import (
     DUPLICATE_ROWS,
     INVALID_VALUES,
@@ -38,14 +49,13 @@ from accuracy_checks.checks.output_schema import (
 )
 from accuracy_checks.dask.read import ORDER
 from accuracy_checks.dask.shards import Plan
-from accuracy_checks.results import ALL_SERIES, CheckResult, Reason, Status
+from accuracy_checks.results import CheckResult
 from accuracy_checks.sources.codes import combined_codes
 from accuracy_checks.sources.frames import ACTUAL, ISSUED, SEGMENT
 
 __all__ = ["RowFindings", "RowsPartial", "actuals_partial", "finish_actuals", "finish_output",
            "merge_rows", "output_partial"]
 
-_COUNT = "count"
 Example = tuple[int, dict[str, Any]]  # (__order, example)
 
 
@@ -100,7 +110,7 @@ def output_partial(forecast: pd.DataFrame, plan: Plan, *, keys: list[str],
                    allow_negative: bool | Collection[str], max_examples: int) -> RowsPartial:
     """One shard's output-check findings (forecast rows in reading order)."""
     qcols = list(quantile_columns)
-    rows = _Rows(forecast, keys, qcols, _file_names(qcols, quantile_names), max_examples)
+    rows = ForecastRows(forecast, keys, qcols, file_names(qcols, quantile_names), max_examples)
     values = rows.values
     out = RowsPartial(rows={"forecast": len(forecast)})
 
@@ -144,7 +154,7 @@ def output_partial(forecast: pd.DataFrame, plan: Plan, *, keys: list[str],
 
     if len(qcols) >= 2:
         cross = crossing_mask(forecast, qcols)
-        pairs = {f"{low}\t{high}": n for low, high, n in _crossing_pairs(rows, cross)}
+        pairs = {f"{low}\t{high}": n for low, high, n in crossing_pairs(rows, cross)}
         out.findings[QUANTILE_ORDER] = _found(
             forecast, keys, cross, rows.examples(cross, [*rows.ident, *qcols], rows.ident),
             first(cross), pairs)
@@ -167,15 +177,11 @@ def _stale(forecast: pd.DataFrame, latest: pd.Timestamp) -> np.ndarray:
 def _result(check: str, found: RowFindings, fail_message: str, pass_message: str,
             k: int, details: dict[str, Any] | None = None,
             examples: list[dict[str, Any]] | None = None) -> CheckResult:
-    """As ``checks.output._Rows.result``: ``fail`` with the offending rows counted, else
-    ``pass``."""
-    n_bad = found.n
+    """``checks.output.rows_result`` of the merged ``found`` (its first ``k`` examples unless
+    ``examples`` are given)."""
     shown = examples if examples is not None else [e for _, e in found.examples[:k]]
-    return CheckResult(
-        check=check, status=Status.FAIL if n_bad else Status.PASS, segment=ALL_SERIES,
-        value=n_bad, n_obs=n_bad, n_series=found.n_series, unit=_COUNT,
-        message=fail_message if n_bad else pass_message, examples=shown if n_bad else [],
-        details=details or {})
+    return rows_result(check, found.n, found.n_series, fail_message, pass_message, shown,
+                       details)
 
 
 def finish_output(partial: RowsPartial, plan: Plan, *, keys: list[str],
@@ -184,7 +190,7 @@ def finish_output(partial: RowsPartial, plan: Plan, *, keys: list[str],
     """The five output results of ``checks.output.output_checks`` on the union of the
     shards (same order, statuses, counts, examples and messages)."""
     qcols = list(quantile_columns)
-    names = _file_names(qcols, quantile_names)
+    names = file_names(qcols, quantile_names)
     k = max_examples
     ident = [*keys, "period", "issued"]
     values = ["forecast", *qcols]
@@ -194,38 +200,22 @@ def finish_output(partial: RowsPartial, plan: Plan, *, keys: list[str],
 
     f = partial.findings
     dup = f[DUPLICATE_ROWS]
-    combo = f"({', '.join(ident)})"
     n_combos = dup.counts.get("combinations", 0)
-    results = [_result(
-        DUPLICATE_ROWS, dup,
-        f"{dup.n:,} rows repeat a {combo} combination ({plural(n_combos, 'combination')} "
-        "given more than once); each forecast row must be unique, so drop or merge the repeats",
-        f"Every {combo} combination appears once.", k, {"combinations": n_combos})]
+    results = [_result(DUPLICATE_ROWS, dup, *duplicates_messages(dup.n, ident, n_combos), k,
+                       {"combinations": n_combos})]
 
     inv = f[INVALID_VALUES]
     by_column = {names.get(c, c): inv.counts[names.get(c, c)] for c in values
                  if inv.counts.get(names.get(c, c), 0)}
-    where = ", ".join(f"{c} ({n:,})" for c, n in by_column.items())
-    results.append(_result(
-        INVALID_VALUES, inv,
-        f"{plural(inv.n, 'row')} {verb(inv.n, 'holds', 'hold')} a missing (null/NaN) or "
-        f"infinite value in {where}; every forecast and quantile value must be a finite number",
-        f"Every value in {listed(values)} is a finite number.", k,
-        {"by_column": by_column} if by_column else None))
+    results.append(_result(INVALID_VALUES, inv,
+                           *invalid_messages(inv.n, by_column, listed(values)), k,
+                           {"by_column": by_column} if by_column else None))
 
     neg = f[NEGATIVE_VALUES]
-    results.append(_result(
-        NEGATIVE_VALUES, neg,
-        f"{plural(neg.n, 'row')} {verb(neg.n, 'holds', 'hold')} a negative forecast or "
-        "quantile; forecasts must be 0 or more unless forecast.allow_negative lists the segment",
-        f"No negative value in {listed(values)} outside the segments that allow them.", k))
+    results.append(_result(NEGATIVE_VALUES, neg, *negative_messages(neg.n, listed(values)), k))
 
     if len(qcols) < 2:
-        results.append(CheckResult(
-            check=QUANTILE_ORDER, status=Status.SKIPPED, segment=ALL_SERIES, unit=_COUNT,
-            reason=Reason.NO_QUANTILES,
-            message="The forecast has fewer than 2 quantile columns, so there is no "
-            "quantile order to check."))
+        results.append(no_quantiles_result())
     else:
         results.append(_crossing_result(f[QUANTILE_ORDER], qcols, names, k))
     results.append(_issue_dates(f[ISSUE_DATES], plan, partial.rows.get("forecast", 0), k))
@@ -242,45 +232,16 @@ def _crossing_result(found: RowFindings, qcols: list[str], names: dict[str, str]
             split.append((low, high, n))
     ordered_pairs = sorted(split, key=lambda t: (index[t[0]], index[t[1]]))
     pairs = [(f"{names[low]} > {names[high]}", n) for low, high, n in ordered_pairs]
-    shown = ", ".join(f"{pair} in {plural(n, 'row')}" for pair, n in pairs[:3])
-    more = f", and {plural(len(pairs) - 3, 'more pair')}" if len(pairs) > 3 else ""
     ordered = ", ".join(names.get(c, c) for c in qcols)
-    n_bad = found.n
-    return _result(
-        QUANTILE_ORDER, found,
-        f"{plural(n_bad, 'row')} {verb(n_bad, 'has', 'have')} crossing quantiles, a lower level "
-        f"above a higher one ({shown}{more}); quantile forecasts must not decrease as the level "
-        f"rises ({ordered})",
-        f"Quantiles rise with their level ({ordered}) in every row.", k,
-        {"crossings": dict(pairs)} if pairs else None)
+    return _result(QUANTILE_ORDER, found, *crossing_messages(found.n, pairs, ordered), k,
+                   {"crossings": dict(pairs)} if pairs else None)
 
 
 def _issue_dates(found: RowFindings, plan: Plan, n_rows: int, k: int) -> CheckResult:
-    counts = plan.issue_counts
-    n_dates = len(counts)
-    dated = counts.index.notna()
-    latest = example_value(counts.index[dated].max()) if dated.any() else None
-    shown_dates = counts.iloc[: max(k, 5)]
-    listed = [{ISSUED: example_value(day), "rows": int(n)}
-              for day, n in zip(shown_dates.index, shown_dates.to_numpy(), strict=True)]
-    n_bad = found.n
-    if latest is None:
-        fail_message = (
-            f"No row has an issue date ({plural(n_rows, 'row')}); every row must carry the "
-            "issue date of its cycle")
-    else:
-        shown = "; ".join(
-            f"{d[ISSUED] or 'no date'}: {plural(d['rows'], 'row')}" for d in listed[:5])
-        more = f"; and {n_dates - 5:,} more" if n_dates > 5 else ""
-        fail_message = (
-            f"The rows carry {n_dates:,} different issue dates ({shown}{more}); a forecast file "
-            f"must hold one cycle, so split it by issue date or drop the {n_bad:,} rows not "
-            f"issued on {latest}")
-    return _result(
-        ISSUE_DATES, found, fail_message,
-        "Every row has the same issue date (one cycle)." if n_dates
-        else "The file has no rows, so no issue dates to compare.",
-        k, {"issue_dates": n_dates, "latest": latest}, examples=listed[:k])
+    fail_message, pass_message, examples, details = issue_dates_wording(
+        plan.issue_counts, n_rows, found.n, k)
+    return _result(ISSUE_DATES, found, fail_message, pass_message, k, details,
+                   examples=examples)
 
 
 # --------------------------------------------------------------------------- actuals
@@ -296,7 +257,7 @@ def actuals_partial(actuals: pd.DataFrame, *, keys: list[str],
     for name, mask in (("infinite", infinite), ("missing", missing)):
         positions = np.flatnonzero(mask)[:max_examples]
         out.findings[name] = _found(actuals, keys, mask,
-                                    _examples(actuals, positions, keys, values), positions)
+                                    invalid_examples(actuals, positions, keys, values), positions)
     either = infinite | missing
     out.findings["left_out"] = RowFindings(int(either.sum()), count_series(actuals, keys, either))
     return out
@@ -305,34 +266,8 @@ def actuals_partial(actuals: pd.DataFrame, *, keys: list[str],
 def finish_actuals(partial: RowsPartial, *, column: str | None,
                    max_examples: int) -> list[CheckResult]:
     """``checks.actuals.actuals_checks`` on the union of the shards."""
-    what = f"`{column}`" if column else "value"
     inf, miss = partial.findings["infinite"], partial.findings["missing"]
-    if not inf.n and not miss.n:
-        return [CheckResult(INVALID_ACTUALS, Status.PASS, segment=ALL_SERIES, value=0, n_obs=0,
-                            n_series=0, unit="count", details={"infinite": 0, "missing": 0},
-                            message=f"Every actual {what} read is a finite number.")]
-    n_inf, n_missing = inf.n, miss.n
-    n_bad = n_inf + n_missing
-    common: dict[str, Any] = dict(segment=ALL_SERIES, value=n_bad, n_obs=n_bad, unit="count",
-                                  details={"infinite": n_inf, "missing": n_missing})
     k = max(int(max_examples), 0)
     examples = [e for _, e in [*inf.examples, *miss.examples]][:k]
-    missing_text = (f"{plural(n_missing, 'row')} {verb(n_missing, 'has', 'have')} no actual "
-                    f"{what} (an empty cell): read as not arrived yet and left out of the "
-                    "figures")
-    if n_inf:
-        rows = verb(n_inf, "that row is", "those rows are")
-        shown = _first(examples, "infinity", "-infinity")
-        text = (f"{plural(n_inf, 'actual')} {verb(n_inf, 'is', 'are')} infinite in the actuals' "
-                f"{what} column ({plural(inf.n_series, 'series', 'series')}; first: {shown}). "
-                f"An infinite actual cannot be trusted, so {rows} "
-                "left out of every accuracy figure; correct the actuals (a finite number, or an "
-                "empty cell for a value not known yet).")
-        if n_missing:
-            text += f" Besides, {missing_text}."
-        status = Status.FAIL
-    else:
-        text = f"{missing_text[0].upper()}{missing_text[1:]} (first: {_first(examples)})."
-        status = Status.PASS
-    return [CheckResult(INVALID_ACTUALS, status, n_series=partial.findings["left_out"].n_series,
-                        examples=examples, message=text, **common)]
+    return invalid_actuals_result(inf.n, miss.n, partial.findings["left_out"].n_series,
+                                  inf.n_series, examples, column)

@@ -91,7 +91,7 @@ def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list
     actual = history.values_at(series, position)
     off_grid = position < history.p0 - (1 << 40)
     if off_grid.any():  # an off-grid date matches only an actual of exactly that date
-        actual[off_grid] = _exact_join(rows.loc[off_grid], actuals, keys)
+        actual[off_grid] = exact_join(rows.loc[off_grid], actuals, keys)
     period = rows[F.PERIOD]
     joined = rows.assign(**{
         F.ACTUAL: actual,
@@ -99,7 +99,7 @@ def evaluation_frame(earlier: pd.DataFrame, actuals: pd.DataFrame, *, keys: list
         IN_WINDOW: period.isin(main).to_numpy(),
         IN_TRACKING: period.isin(tracking).to_numpy() if tracking else False,
     }).reset_index(drop=True)
-    cycles = _cycles_used(joined.loc[joined[IN_WINDOW]])
+    cycles = cycles_used(joined.loc[joined[IN_WINDOW]])
     return Evaluation(joined, main, cycles, tracking=tracking, history=history)
 
 
@@ -115,7 +115,7 @@ def finite_actuals(actuals: pd.DataFrame) -> pd.DataFrame:
     return actuals.assign(**{F.ACTUAL: np.where(infinite, np.nan, values)})
 
 
-def _exact_join(rows: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) -> np.ndarray:
+def exact_join(rows: pd.DataFrame, actuals: pd.DataFrame, keys: list[str]) -> np.ndarray:
     """The actual of each row with the same keys and exactly the same period (NaN if none)."""
     found = rows[[*keys, F.PERIOD]].merge(
         actuals[[*keys, F.PERIOD, F.ACTUAL]], on=[*keys, F.PERIOD], how="left", validate="m:1"
@@ -188,7 +188,9 @@ def add_lags_for_subset(earlier: pd.DataFrame, rows: pd.DataFrame,
     return rows.assign(**{F.LAG: pos - first_of.reindex(rows[F.ISSUED]).to_numpy() + 1})
 
 
-def _cycles_used(joined: pd.DataFrame) -> list[dict[str, object]]:
+def cycles_used(joined: pd.DataFrame) -> list[dict[str, object]]:
+    """The cycles (issue date, with attempt and source when present) whose rows in ``joined``
+    met an actual, oldest first, as JSON-ready records."""
     if len(joined) == 0:
         return []
     cols = [F.ISSUED] + [c for c in (F.ATTEMPT, F.SOURCE) if c in joined.columns]

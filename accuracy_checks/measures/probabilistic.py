@@ -49,8 +49,8 @@ __all__ = [
 ]
 
 
-def _interval_rows(data: MeasureData, interval: Interval
-                   ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
+def interval_rows(data: MeasureData, interval: Interval
+                  ) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray]:
     """(lower, upper, usable rows, crossed rows) of one interval."""
     lower = data.quantile(interval.lower)
     upper = data.quantile(interval.upper)
@@ -68,7 +68,7 @@ def coverage_from_data(data: MeasureData) -> pd.DataFrame:
     frames: dict[str, pd.DataFrame] = {}
     extra: dict[str, dict[str, object]] = {}
     for interval in data.settings.intervals:
-        lower, upper, use, crossed = _interval_rows(data, interval)
+        lower, upper, use, crossed = interval_rows(data, interval)
         with np.errstate(invalid="ignore"):
             inside = use & (lower <= y) & (y <= upper)
         n = data.gsum(mask=use)
@@ -118,7 +118,7 @@ def _interval_score(data: MeasureData, interval: Interval
                     ) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     """Per row: IS = (U − L) + (2/α)(L − y)·1{y < L} + (2/α)(y − U)·1{y > U}; usable rows and
     crossed rows."""
-    lower, upper, use, crossed = _interval_rows(data, interval)
+    lower, upper, use, crossed = interval_rows(data, interval)
     y = data.actual
     penalty = 2.0 / interval.alpha
     with np.errstate(invalid="ignore"):
