@@ -42,9 +42,10 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.examples import example_value, pct_text, plural, require_columns
-from accuracy_checks.checks.horizon import HORIZON, horizon_results
+from accuracy_checks.checks.horizon import HORIZON, horizon_results, no_series_message
 from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.series_index import (
+    SegmentPart,
     Segments,
     SeriesIndex,
     by_segment,
@@ -72,9 +73,9 @@ SERIES_COUNT = "coverage.series_count"
 #: The coverage checks, in the order :func:`coverage_checks` returns them.
 COVERAGE_CHECKS: tuple[str, ...] = (MISSING_SERIES, UNEXPECTED_SERIES, HORIZON, SERIES_COUNT)
 
-_M_MISSING = "missing_series_pct"
-_M_UNEXPECTED = "unexpected_series"
-_M_COUNT = "series_count_change_pct"
+M_MISSING = "missing_series_pct"
+M_UNEXPECTED = "unexpected_series"
+M_COUNT = "series_count_change_pct"
 
 
 # --------------------------------------------------------------------------- missing series
@@ -115,10 +116,8 @@ def _missing_series(series: SeriesIndex, activity: _Activity, segments: Segments
     out = []
     for part in by_segment(segments, activity.active, missing):
         if part.n == 0:
-            out.append(skipped(
-                MISSING_SERIES, _M_MISSING, part.segment, "%",
-                f"No series{part.where} has an actual in the last {active_periods} periods, "
-                "so no series is expected in the forecast"))
+            out.append(skipped(MISSING_SERIES, M_MISSING, part.segment, "%",
+                               no_active_series_message(part, active_periods)))
             continue
         value = 100.0 * part.n_bad / part.n
         ids = np.flatnonzero(part.offending)
@@ -126,25 +125,49 @@ def _missing_series(series: SeriesIndex, activity: _Activity, segments: Segments
         examples = series.examples(actuals, series.a_ids, shown, keys)
         for example, vol in zip(examples, volume[shown], strict=True):
             example["recent_actuals"] = example_value(vol)
-        subject = part.subject("active series")
-        message = (
-            f"{subject} ({pct_text(value)} %) {part.verb('has', 'have')} no forecast; add "
-            "them to the forecast job or end them in the actuals"
-            if part.n_bad else f"{subject} {part.verb('has', 'have')} a forecast"
-        )
         out.append(judged(
-            book, check=MISSING_SERIES, measure=_M_MISSING, segment=part.segment, value=value,
-            unit="%", n_series=part.n_bad, message=message, examples=examples,
+            book, check=MISSING_SERIES, measure=M_MISSING, segment=part.segment, value=value,
+            unit="%", n_series=part.n_bad, message=missing_series_message(part, value),
+            examples=examples,
             details={"active": part.n, "missing": part.n_bad, **window},
         ))
     return out
 
 
+def no_active_series_message(part: SegmentPart, active_periods: int) -> str:
+    """``coverage.missing_series`` skipped in ``part``'s segment: no series has an actual in
+    the last ``active_periods`` periods."""
+    return (f"No series{part.where} has an actual in the last {active_periods} periods, "
+            "so no series is expected in the forecast")
+
+
+def missing_series_message(part: SegmentPart, value: float) -> str:
+    """``coverage.missing_series`` in ``part``'s segment: ``part.n_bad`` of the active series
+    (``value`` % of them) have no forecast, or all have one."""
+    subject = part.subject("active series")
+    return (
+        f"{subject} ({pct_text(value)} %) {part.verb('has', 'have')} no forecast; add "
+        "them to the forecast job or end them in the actuals"
+        if part.n_bad else f"{subject} {part.verb('has', 'have')} a forecast"
+    )
+
+
+def unexpected_series_message(part: SegmentPart, source: str) -> str:
+    """``coverage.unexpected_series`` in ``part``'s segment: ``part.n_bad`` forecast series
+    are unknown to ``source`` ("the actuals", and the table of known series if given), or
+    all are known."""
+    head = f"{part.subject('forecast series')} {part.verb('is', 'are')}"
+    return (
+        f"{head} unknown to {source}; check their keys for typos or add them to the "
+        "mapping of series" if part.n_bad else f"{head} known to {source}"
+    )
+
+
 # --------------------------------------------------------------------------- unexpected series
 
 
-def _known_by_table(series: SeriesIndex, forecast: pd.DataFrame, keys: list[str],
-                    known_series: pd.DataFrame) -> np.ndarray:
+def known_by_table(series: SeriesIndex, forecast: pd.DataFrame, keys: list[str],
+                   known_series: pd.DataFrame) -> np.ndarray:
     """Per series: whether its values in the table's key columns match a row of the table."""
     columns = [k for k in keys if k in known_series.columns]
     if not columns:
@@ -201,14 +224,14 @@ def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.Dat
     tables = ([] if known_series is None else [known_series]
               if isinstance(known_series, pd.DataFrame) else list(known_series))
     for table in tables:
-        known |= _known_by_table(series, forecast, keys, table)
+        known |= known_by_table(series, forecast, keys, table)
     rows = np.zeros(0, dtype=np.int64)  # rows per series, for the examples (counted if needed)
     source = "the actuals" + (" and the table of known series" if tables else "")
     out = []
     for part in by_segment(segments, series.in_forecast, series.in_forecast & ~known):
         if part.n == 0:
-            out.append(skipped(UNEXPECTED_SERIES, _M_UNEXPECTED, part.segment, "count",
-                               f"The forecast has no series{part.where}"))
+            out.append(skipped(UNEXPECTED_SERIES, M_UNEXPECTED, part.segment, "count",
+                               no_series_message(part)))
             continue
         shown = part.shown(max_examples)
         examples = series.examples(forecast, series.f_ids, shown, keys)
@@ -216,14 +239,10 @@ def _unexpected_series(series: SeriesIndex, segments: Segments, forecast: pd.Dat
             rows = np.bincount(series.f_ids, minlength=series.n)
         for example, n in zip(examples, rows[shown] if len(shown) else [], strict=True):
             example["rows"] = int(n)
-        head = f"{part.subject('forecast series')} {part.verb('is', 'are')}"
-        message = (
-            f"{head} unknown to {source}; check their keys for typos or add them to the "
-            "mapping of series" if part.n_bad else f"{head} known to {source}"
-        )
         out.append(judged(
-            book, check=UNEXPECTED_SERIES, measure=_M_UNEXPECTED, segment=part.segment,
-            value=part.n_bad, unit="count", n_series=part.n_bad, message=message,
+            book, check=UNEXPECTED_SERIES, measure=M_UNEXPECTED, segment=part.segment,
+            value=part.n_bad, unit="count", n_series=part.n_bad,
+            message=unexpected_series_message(part, source),
             examples=examples, details={"forecast_series": part.n},
         ))
     return out
@@ -241,9 +260,18 @@ def _series_count(series: SeriesIndex, previous: pd.DataFrame, keys: list[str],
         )
     n_now = int(series.in_forecast.sum())
     n_prev = int(np.unique(combined_codes(previous, keys)).size) if len(previous) else 0
+    return series_count_result(n_now, n_prev, previous_label, book)
+
+
+def series_count_result(n_now: int, n_prev: int, previous_label: str | None,
+                        book: Thresholds) -> CheckResult:
+    """``coverage.series_count`` from the series counts of this forecast (``n_now``) and of
+    the previous cycle's (``n_prev``, named ``previous_label``): the change in percent of
+    ``n_prev``, judged against ``book``; no data when ``n_prev`` is 0. Shared by both
+    engines."""
     label = previous_label or "the previous cycle"
     common: dict[str, Any] = {
-        "check": SERIES_COUNT, "measure": _M_COUNT, "segment": ALL_SERIES, "unit": "%",
+        "check": SERIES_COUNT, "measure": M_COUNT, "segment": ALL_SERIES, "unit": "%",
         "n_series": n_now,
         "details": {"previous_cycle": previous_label, "now": n_now, "previous": n_prev},
     }

@@ -8,7 +8,7 @@ judged per segment; examples name each incomplete series' missing, extra and off
 
 Three jobs, one function each: place every row on the grid (:func:`horizon_steps`, once per
 run: :func:`~accuracy_checks.evaluation.grid.grid_positions`), say what is wrong with a
-handful of series (:func:`_problems`), and judge each segment (:func:`horizon_results`).
+handful of series (:func:`horizon_problems`), and judge each segment (:func:`horizon_results`).
 """
 
 from __future__ import annotations
@@ -38,7 +38,7 @@ from accuracy_checks.sources.frames import PERIOD
 __all__ = ["HORIZON", "HorizonSteps", "horizon_results", "horizon_steps"]
 
 HORIZON = "coverage.horizon"
-_MEASURE = "incomplete_series"
+HORIZON_MEASURE = "incomplete_series"
 # dates listed per problem in a horizon example before "(+n more)"
 _DATES_SHOWN = 4
 
@@ -124,8 +124,8 @@ def _dates_text(label: str, dates: Sequence[Any]) -> str:
     return f"{label} {shown}{more}"
 
 
-def _problems(steps: HorizonSteps, forecast: pd.DataFrame, series: SeriesIndex,
-              ids: np.ndarray, horizon: int) -> list[str]:
+def horizon_problems(steps: HorizonSteps, forecast: pd.DataFrame, series: SeriesIndex,
+                     ids: np.ndarray, horizon: int) -> list[str]:
     """What is wrong with each series in ``ids`` (a handful), with exact dates."""
     if len(ids) == 0:
         return []
@@ -200,7 +200,14 @@ def _details(part: SegmentPart, code: int, totals: dict[str, list[int]], first: 
     }
 
 
-def _message(part: SegmentPart, details: dict[str, Any], grid: str) -> str:
+def no_series_message(part: SegmentPart) -> str:
+    """A per-series check skipped in ``part``'s segment: the forecast has no series there."""
+    return f"The forecast has no series{part.where}"
+
+
+def horizon_message(part: SegmentPart, details: dict[str, Any], grid: str) -> str:
+    """The horizon check's message for one segment ``part``: all series exactly on ``grid``, or
+    how many have gaps, rows beyond the horizon and off-grid dates (counts in ``details``)."""
     if not part.n_bad:
         return f"{part.subject('forecast series')} {part.verb('has', 'have')} exactly {grid}"
     kinds = ", ".join(
@@ -234,13 +241,13 @@ def horizon_results(series: SeriesIndex, segments: Segments, forecast: pd.DataFr
     shown = {part.segment: part.shown(max_examples) for part in parts if part.n}
     # every example series' problems at once (one pass over the forecast's rows)
     wanted = np.unique(np.concatenate([np.zeros(0, dtype=np.int64), *shown.values()]))
-    problems = dict(zip(wanted.tolist(), _problems(steps, forecast, series, wanted, horizon),
-                        strict=True))
+    problems = dict(zip(wanted.tolist(),
+                        horizon_problems(steps, forecast, series, wanted, horizon), strict=True))
     out = []
     for part in parts:
         if part.n == 0:
-            out.append(skipped(HORIZON, _MEASURE, part.segment, "count",
-                               f"The forecast has no series{part.where}"))
+            out.append(skipped(HORIZON, HORIZON_MEASURE, part.segment, "count",
+                               no_series_message(part)))
             continue
         code = -1 if part.where == "" else codes[part.segment]
         details = _details(part, code, totals, first, horizon, frequency)
@@ -250,13 +257,13 @@ def horizon_results(series: SeriesIndex, segments: Segments, forecast: pd.DataFr
         out.append(judged(
             book,
             check=HORIZON,
-            measure=_MEASURE,
+            measure=HORIZON_MEASURE,
             segment=part.segment,
             value=part.n_bad,
             unit="count",
             n_series=part.n_bad,
             n_obs=details["rows_beyond"] + details["off_grid_rows"],
-            message=_message(part, details, grid),
+            message=horizon_message(part, details, grid),
             examples=examples,
             details=details,
         ))

@@ -23,21 +23,24 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.checks.coverage import (
-    _M_COUNT,
-    _M_MISSING,
-    _M_UNEXPECTED,
+    M_MISSING,
+    M_UNEXPECTED,
     MISSING_SERIES,
-    SERIES_COUNT,
     UNEXPECTED_SERIES,
-    _known_by_table,
+    known_by_table,
+    missing_series_message,
+    no_active_series_message,
+    series_count_result,
+    unexpected_series_message,
 )
-from accuracy_checks.checks.examples import example_value, pct_text, plural
+from accuracy_checks.checks.examples import example_value, plural
 from accuracy_checks.checks.horizon import (
-    _MEASURE,
     HORIZON,
+    HORIZON_MEASURE,
     HorizonSteps,
-    _message,
-    _problems,
+    horizon_message,
+    horizon_problems,
+    no_series_message,
 )
 from accuracy_checks.checks.judge import Thresholds
 from accuracy_checks.checks.series_index import (
@@ -51,7 +54,7 @@ from accuracy_checks.checks.series_index import (
 from accuracy_checks.dask.read import ORDER
 from accuracy_checks.dask.shards import Plan
 from accuracy_checks.evaluation.grid import grid_dates, grid_positions
-from accuracy_checks.results import ALL_SERIES, CheckResult, Reason
+from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources.frames import ACTUAL, PERIOD
 
 __all__ = ["CoveragePartial", "coverage_partial", "finish_coverage", "merge_coverage"]
@@ -196,7 +199,7 @@ def coverage_partial(forecast: pd.DataFrame, actuals: pd.DataFrame, plan: Plan, 
 
     known = series.in_actuals.copy()
     for table in known_series:
-        known |= _known_by_table(series, forecast, keys, table)
+        known |= known_by_table(series, forecast, keys, table)
     rows = np.bincount(series.f_ids, minlength=series.n)
     no_sort = np.zeros(series.n)
 
@@ -225,8 +228,8 @@ def coverage_partial(forecast: pd.DataFrame, actuals: pd.DataFrame, plan: Plan, 
 
     def horizon_examples(shown: np.ndarray) -> list[dict[str, Any]]:
         examples = series.examples(forecast, series.f_ids, shown, keys)
-        for example, text in zip(examples, _problems(steps, forecast, series, shown, horizon),
-                                 strict=True):
+        problems = horizon_problems(steps, forecast, series, shown, horizon)
+        for example, text in zip(examples, problems, strict=True):
             example["problem"] = text
         return examples
 
@@ -268,20 +271,13 @@ def finish_coverage(partial: CoveragePartial, plan: Plan, *, frequency: str, hor
         got = partial.parts.get((MISSING_SERIES, seg), Part())
         p = _part(seg, got)
         if p.n == 0:
-            out.append(skipped(
-                MISSING_SERIES, _M_MISSING, seg, "%",
-                f"No series{p.where} has an actual in the last {active_periods} periods, "
-                "so no series is expected in the forecast"))
+            out.append(skipped(MISSING_SERIES, M_MISSING, seg, "%",
+                               no_active_series_message(p, active_periods)))
             continue
         value = 100.0 * p.n_bad / p.n
-        subject = p.subject("active series")
-        message = (
-            f"{subject} ({pct_text(value)} %) {p.verb('has', 'have')} no forecast; add "
-            "them to the forecast job or end them in the actuals"
-            if p.n_bad else f"{subject} {p.verb('has', 'have')} a forecast")
         out.append(judged(
-            book, check=MISSING_SERIES, measure=_M_MISSING, segment=seg, value=value,
-            unit="%", n_series=p.n_bad, message=message,
+            book, check=MISSING_SERIES, measure=M_MISSING, segment=seg, value=value,
+            unit="%", n_series=p.n_bad, message=missing_series_message(p, value),
             examples=[e for _, e in got.shown[:k]],
             details={"active": p.n, "missing": p.n_bad, **window}))
     source = "the actuals" + (" and the table of known series" if known_tables else "")
@@ -289,16 +285,13 @@ def finish_coverage(partial: CoveragePartial, plan: Plan, *, frequency: str, hor
         got = partial.parts.get((UNEXPECTED_SERIES, seg), Part())
         p = _part(seg, got)
         if p.n == 0:
-            out.append(skipped(UNEXPECTED_SERIES, _M_UNEXPECTED, seg, "count",
-                               f"The forecast has no series{p.where}"))
+            out.append(skipped(UNEXPECTED_SERIES, M_UNEXPECTED, seg, "count",
+                               no_series_message(p)))
             continue
-        head = f"{p.subject('forecast series')} {p.verb('is', 'are')}"
-        message = (
-            f"{head} unknown to {source}; check their keys for typos or add them to the "
-            "mapping of series" if p.n_bad else f"{head} known to {source}")
         out.append(judged(
-            book, check=UNEXPECTED_SERIES, measure=_M_UNEXPECTED, segment=seg,
-            value=p.n_bad, unit="count", n_series=p.n_bad, message=message,
+            book, check=UNEXPECTED_SERIES, measure=M_UNEXPECTED, segment=seg,
+            value=p.n_bad, unit="count", n_series=p.n_bad,
+            message=unexpected_series_message(p, source),
             examples=[e for _, e in got.shown[:k]], details={"forecast_series": p.n}))
     first = example_value(plan.first_period) if plan.first_period is not None else None
     grid = f"{plural(horizon, 'period')} from {first} on the {frequency} grid"
@@ -306,47 +299,22 @@ def finish_coverage(partial: CoveragePartial, plan: Plan, *, frequency: str, hor
         got = partial.parts.get((HORIZON, seg), Part())
         p = _part(seg, got)
         if p.n == 0:
-            out.append(skipped(HORIZON, _MEASURE, seg, "count",
-                               f"The forecast has no series{p.where}"))
+            out.append(skipped(HORIZON, HORIZON_MEASURE, seg, "count",
+                               no_series_message(p)))
             continue
         details: dict[str, Any] = {"first_period": first, "horizon": horizon,
                                    "frequency": frequency, "series": p.n}
         details.update({c: got.counts.get(c, 0) for c in _HORIZON_COUNTS})
         out.append(judged(
-            book, check=HORIZON, measure=_MEASURE, segment=seg, value=p.n_bad,
+            book, check=HORIZON, measure=HORIZON_MEASURE, segment=seg, value=p.n_bad,
             unit="count", n_series=p.n_bad,
             n_obs=details["rows_beyond"] + details["off_grid_rows"],
-            message=_message(p, details, grid), examples=[e for _, e in got.shown[:k]],
+            message=horizon_message(p, details, grid), examples=[e for _, e in got.shown[:k]],
             details=details))
     if previous_series is not None:
-        out.append(_series_count(partial.n_forecast_series, previous_series, previous_label,
-                                 book))
+        out.append(series_count_result(partial.n_forecast_series, previous_series,
+                                       previous_label, book))
     return out
-
-
-def _series_count(n_now: int, n_prev: int, previous_label: str | None,
-                  book: Thresholds) -> CheckResult:
-    """``coverage.series_count`` from the two series counts (as ``checks.coverage``)."""
-    label = previous_label or "the previous cycle"
-    common: dict[str, Any] = {
-        "check": SERIES_COUNT, "measure": _M_COUNT, "segment": ALL_SERIES, "unit": "%",
-        "n_series": n_now,
-        "details": {"previous_cycle": previous_label, "now": n_now, "previous": n_prev},
-    }
-    if n_prev == 0:
-        return judged(book, value=None, reason=Reason.NO_DATA,
-                      message=f"The forecast of {label} has no series, so the change in the "
-                      "number of series is undefined", **common)
-    value = 100.0 * (n_now - n_prev) / n_prev
-    if n_now == n_prev:
-        message = f"The forecast has {plural(n_now, 'series', 'series')}, as many as {label}"
-    else:
-        way = "more" if n_now > n_prev else "fewer"
-        message = (
-            f"The forecast has {plural(n_now, 'series', 'series')}, {pct_text(abs(value))} % "
-            f"{way} than the {n_prev:,} of {label}; if the change is not planned, look for "
-            f"{'new' if way == 'more' else 'dropped'} series")
-    return judged(book, value=value, message=message, **common)
 
 
 def resolve_unexpected(partial: CoveragePartial, known: set[tuple[str, ...]], keys: list[str],
