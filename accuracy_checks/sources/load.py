@@ -27,12 +27,12 @@ import pandas as pd
 from accuracy_checks.config import Config
 from accuracy_checks.config.places import Url
 from accuracy_checks.evaluation.baselines import ActualsIndex
-from accuracy_checks.sources.history import read_reduced
 from accuracy_checks.evaluation.join import cycle_targets, prune_earlier, window_periods
 from accuracy_checks.evaluation.spans import actuals_span, evaluation_span, rows_span
 from accuracy_checks.results import ALL_SERIES, CheckResult
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.codes import duplicated_rows, n_distinct
+from accuracy_checks.sources.history import read_reduced
 from accuracy_checks.sources.memory import (
     Given,
     GivenFrames,
