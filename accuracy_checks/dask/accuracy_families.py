@@ -37,7 +37,7 @@ from accuracy_checks.dask.accuracy_intervals import (
 )
 from accuracy_checks.dask.accuracy_tables import series_scales
 from accuracy_checks.evaluation.baselines import ActualsIndex, known_through
-from accuracy_checks.measures.data import MeasureData, result_frame
+from accuracy_checks.measures.data import MeasureData, result_frame, scaled_result
 from accuracy_checks.measures.registry import Measure
 from accuracy_checks.measures.scaled import mase_from_data, smape_from_data
 from accuracy_checks.measures.signals import tracking_signal_from_data, trigg_from_data
@@ -191,13 +191,8 @@ def _mase(data: MeasureData, n: np.ndarray, sums: pd.DataFrame | None) -> pd.Dat
     zero = sums["zero"].to_numpy(dtype=np.float64) if sums is not None else zeros
     mean = np.full(data.n_groups, np.nan)
     np.divide(total, used, out=mean, where=used > 0)
-    none = used == 0
-    return result_frame(
-        data.n_groups, mean,
-        [(n == 0, "no_data"), (none & (too_few >= zero), "too_few_rows"),
-         (none, "zero_scale")],
-        n_obs=n.astype(np.int64), n_series_used=used.astype(np.int64),
-        n_series_skipped=(too_few + zero).astype(np.int64),
+    return scaled_result(
+        data.n_groups, mean, n, used, too_few, zero,
         skipped_too_few_rows=too_few.astype(np.int64),
         skipped_zero_scale=zero.astype(np.int64),
         seasonal_period=np.full(data.n_groups, data.settings.seasonal_period, dtype=np.int64),

@@ -29,6 +29,7 @@ from accuracy_checks.measures.data import (
     MeasureData,
     MeasureSettings,
     result_frame,
+    scaled_result,
     stack_variants,
 )
 from accuracy_checks.measures.probabilistic import (
@@ -178,13 +179,8 @@ def _msis(data: MeasureData, sums: pd.DataFrame) -> pd.DataFrame:
     zero = sums["zero"].to_numpy(dtype=np.float64)
     mean = np.full(data.n_groups, np.nan)
     np.divide(sums["total"].to_numpy(dtype=np.float64), used, out=mean, where=used > 0)
-    none = used == 0
-    return result_frame(
-        data.n_groups, mean,
-        [(n == 0, "no_data"), (none & (too_few >= zero), "too_few_rows"),
-         (none, "zero_scale")],
-        n_obs=n.astype(np.int64), n_series_used=used.astype(np.int64),
-        n_series_skipped=(too_few + zero).astype(np.int64),
+    return scaled_result(
+        data.n_groups, mean, n, used, too_few, zero,
         n_crossed=sums["crossed"].to_numpy().astype(np.int64),
     )
 

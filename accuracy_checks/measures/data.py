@@ -165,6 +165,24 @@ def dense_codes(combined: np.ndarray, cells: int) -> tuple[np.ndarray, np.ndarra
     return raw.astype(np.int64, copy=False), np.asarray(uniques, dtype=np.int64)
 
 
+def scaled_result(n_groups: int, mean: np.ndarray, n: np.ndarray, used: np.ndarray,
+                  too_few: np.ndarray, zero: np.ndarray, **extra: np.ndarray) -> pd.DataFrame:
+    """The answer of a measure scaled per series (MASE, MSIS): ``mean`` over the ``used``
+    series of each group whose scale is defined; where none is, the reason is ``no_data`` (no
+    usable row: ``n`` = 0), else ``too_few_rows`` when at least as many series lacked rows
+    (``too_few``) as had a zero scale (``zero``), else ``zero_scale``. Columns ``n_obs`` = ``n``,
+    ``n_series_used``, ``n_series_skipped`` = ``too_few`` + ``zero``, then ``extra``."""
+    none = used == 0
+    return result_frame(
+        n_groups, mean,
+        [(n == 0, "no_data"), (none & (too_few >= zero), "too_few_rows"),
+         (none, "zero_scale")],
+        n_obs=n.astype(np.int64), n_series_used=used.astype(np.int64),
+        n_series_skipped=(too_few + zero).astype(np.int64),
+        **extra,
+    )
+
+
 def result_frame(
     n_groups: int,
     value: np.ndarray,

@@ -36,6 +36,7 @@ from accuracy_checks.measures.data import (
     MeasureData,
     MeasureSettings,
     result_frame,
+    scaled_result,
     stack_variants,
 )
 from accuracy_checks.measures.registry import Levels, declare
@@ -166,13 +167,8 @@ def msis_from_data(data: MeasureData) -> pd.DataFrame:
         zero = np.bincount(units.group[(reason != SCALE_OK) & (reason != SCALE_TOO_FEW_ROWS)],
                            minlength=data.n_groups)
         n = data.gsum(mask=use)
-        none = used == 0
-        frames[interval.label] = result_frame(
-            data.n_groups, mean,
-            [(n == 0, "no_data"), (none & (too_few >= zero), "too_few_rows"),
-             (none, "zero_scale")],
-            n_obs=n.astype(np.int64), n_series_used=used.astype(np.int64),
-            n_series_skipped=(too_few + zero).astype(np.int64),
+        frames[interval.label] = scaled_result(
+            data.n_groups, mean, n, used, too_few, zero,
             n_crossed=data.gsum(mask=crossed).astype(np.int64),
         )
         extra[interval.label] = {"alpha": interval.alpha,

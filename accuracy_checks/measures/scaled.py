@@ -17,7 +17,13 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
-from accuracy_checks.measures.data import SCALE_OK, SCALE_TOO_FEW_ROWS, MeasureData, result_frame
+from accuracy_checks.measures.data import (
+    SCALE_OK,
+    SCALE_TOO_FEW_ROWS,
+    MeasureData,
+    result_frame,
+    scaled_result,
+)
 from accuracy_checks.measures.registry import declare
 from accuracy_checks.measures.wording import skipped_series_facts
 
@@ -62,13 +68,8 @@ def mase_from_data(data: MeasureData) -> pd.DataFrame:
     zero = np.bincount(units.group[(reason != SCALE_OK) & (reason != SCALE_TOO_FEW_ROWS)],
                        minlength=data.n_groups)
     n = data.gsum(mask=data.usable)
-    none = used == 0
-    return result_frame(
-        data.n_groups, mean,
-        [(n == 0, "no_data"), (none & (too_few >= zero), "too_few_rows"),
-         (none, "zero_scale")],
-        n_obs=n.astype(np.int64), n_series_used=used.astype(np.int64),
-        n_series_skipped=(too_few + zero).astype(np.int64),
+    return scaled_result(
+        data.n_groups, mean, n, used, too_few, zero,
         skipped_too_few_rows=too_few.astype(np.int64),
         skipped_zero_scale=zero.astype(np.int64),
         seasonal_period=np.full(data.n_groups, data.settings.seasonal_period, dtype=np.int64),
