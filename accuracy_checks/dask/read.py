@@ -264,13 +264,25 @@ def _text(column: pd.Series) -> pd.Series:
                      index=column.index, name=column.name)
 
 
+def _text_hash(values: np.ndarray) -> np.ndarray:
+    """``pd.util.hash_array`` of an object array of texts (one algorithm for every dtype: the
+    hash of a pandas string column depends on its storage, so text goes through ``object``)."""
+    return pd.util.hash_array(np.asarray(values, dtype=object))
+
+
 def _column_hash(column: pd.Series) -> np.ndarray:
-    """A uint64 hash of each value's text (a categorical: its categories hashed once)."""
+    """A uint64 hash of each value's text, the same whatever the column's dtype (a
+    categorical: its categories hashed once; a missing value: the hash of a missing value)."""
     if isinstance(column.dtype, pd.CategoricalDtype):
-        cats = pd.util.hash_array(np.asarray(column.cat.categories.astype(str), dtype=object))
-        return cats[column.cat.codes.to_numpy()]
-    return pd.util.hash_pandas_object(column.astype(object).astype("str"),
-                                      index=False).to_numpy()
+        codes = column.cat.codes.to_numpy()
+        cats = _text_hash(np.asarray(column.cat.categories.astype(str), dtype=object))
+        out = cats[np.maximum(codes, 0)] if len(cats) else np.zeros(len(codes), np.uint64)
+        return np.where(codes < 0, _text_hash(np.array([np.nan], dtype=object))[0], out)
+    text = column.astype(object).astype(str).to_numpy(dtype=object)
+    missing = column.isna().to_numpy()
+    if missing.any():
+        text[missing] = np.nan
+    return _text_hash(text)
 
 
 def shard_of(frame: pd.DataFrame, keys: Sequence[str], n_shards: int) -> np.ndarray:
@@ -297,8 +309,11 @@ def _parquet(piece: Piece, wanted: list[str], dictionary: list[str],
     if head is not None:  # the first rows only (the dataframe's dtypes)
         batch = next(handle.iter_batches(batch_size=head, row_groups=[piece.row_groups[0]],
                                          columns=wanted))
-        return batch.to_pandas()
-    return handle.read_row_groups(list(piece.row_groups), columns=wanted).to_pandas()
+        return batch.to_pandas().reset_index(drop=True)
+    # a RangeIndex kept in the file's pandas metadata (a frame written after a cut) would
+    # come back as the index and misalign the converted columns: rows are numbered from 0
+    table = handle.read_row_groups(list(piece.row_groups), columns=wanted)
+    return table.to_pandas().reset_index(drop=True)
 
 
 def _csv(file: Path, columns: Sequence[Column], role: str) -> pd.DataFrame:
