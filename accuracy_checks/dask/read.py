@@ -319,9 +319,9 @@ def _parquet(piece: Piece, wanted: list[str], dictionary: list[str],
 def _csv(file: Path, columns: Sequence[Column], role: str) -> pd.DataFrame:
     """A CSV file's ``columns`` read raw as the readers read them (keys, dates, text as
     strings)."""
-    from accuracy_checks.sources.files import _read_csv_columns
+    from accuracy_checks.sources.files import read_csv_columns
 
-    return _read_csv_columns(file, columns, role)
+    return read_csv_columns(file, columns, role)
 
 
 def actual_period_filter(frame: pd.DataFrame, periods: Sequence[pd.Timestamp] | None

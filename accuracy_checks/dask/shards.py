@@ -24,7 +24,7 @@ from accuracy_checks.evaluation.join import CYCLE_START, prune_earlier
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.codes import duplicated_rows
 from accuracy_checks.sources.columns import SHOWN
-from accuracy_checks.sources.load import _concat, _history_frame, _segments_of_archived, quiet
+from accuracy_checks.sources.load import combine_earlier
 from accuracy_checks.sources.segments import (
     assign_segments,
     attach_segments,
@@ -182,13 +182,7 @@ def shard_inputs(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd
     archived_parts = unified[n + len(history_parts):]
     mapping = got.get("mapping")
     forecast = assign_segments(got["forecast"], config, mapping, role="forecast")
-    history_frame = _history_frame(
-        [assign_segments(h, config, mapping, role="history") for h in history_parts], keys,
-        quiet)
-    archived_frame = _concat([_segments_of_archived(a, config, mapping)
-                              for a in archived_parts])
-    parts = [p for p in (history_frame, archived_frame) if len(p)]
-    earlier = _concat(unify_categories(parts, [F.SEGMENT]) if len(parts) > 1 else parts)
+    _, _, earlier, parts = combine_earlier(history_parts, archived_parts, config, mapping, keys)
     actuals = attach_segments(got["actuals"], config, mapping,
                               lambda: segments_of_series([forecast, *parts], keys))
     return ShardInputs(forecast, actuals, earlier, got.get("older"), mapping)

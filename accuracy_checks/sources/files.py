@@ -146,7 +146,7 @@ def _read_file(file: Path, columns: Sequence[Column], *, role: str,
             frame = _read_parquet(file, wanted, [c.name for c in columns if c.kind != "number"],
                                   row_filter, pairs)
         else:
-            frame = _read_csv_columns(file, columns, role)
+            frame = read_csv_columns(file, columns, role)
     except READ_ERRORS as exc:
         raise InputError(f"The {role} file {file} cannot be read: {why(exc)}") from None
     first_line = 1 if is_parquet else 2  # CSV: line 1 is the header
@@ -218,7 +218,7 @@ def file_header(file: Path, role: str) -> list[str]:
     return [str(v) for v in first.iloc[0].tolist()]
 
 
-def _read_csv_columns(file: Path, columns: Sequence[Column], role: str) -> pd.DataFrame:
+def read_csv_columns(file: Path, columns: Sequence[Column], role: str) -> pd.DataFrame:
     """The configured columns of a CSV file: keys and segments as text (only an empty cell is
     missing), dates as text, numbers as numbers (pandas' missing-value words). A row with more
     fields than the header is refused (trailing empty fields on every line are allowed)."""

@@ -51,7 +51,8 @@ from accuracy_checks.sources.segments import (
     unify_categories,
 )
 
-__all__ = ["ArchiveReader", "ArchivedCycles", "Inputs", "Progress", "load_inputs", "quiet"]
+__all__ = ["ArchiveReader", "ArchivedCycles", "Inputs", "Progress", "combine_earlier",
+           "load_inputs", "quiet"]
 
 Progress = Callable[[str], None]
 #: rows of earlier forecasts → the rows the evaluation can use (configured lags, the span)
@@ -155,11 +156,8 @@ def load_inputs(config: Config, *, forecast_path: Path | Url | None = None,
                                           [*keys, *seg_cols, F.SEGMENT])
     mapping = got.get("mapping")
     forecast = assign_segments(got["forecast"], config, mapping, role="forecast")
-    history_frame = _history_frame(
-        [assign_segments(h, config, mapping, role="history") for h in history], keys, progress)
-    archived_frame = _concat([_segments_of_archived(a, config, mapping) for a in archived_parts])
-    parts = [p for p in (history_frame, archived_frame) if len(p)]
-    earlier = _concat(unify_categories(parts, [F.SEGMENT]) if len(parts) > 1 else parts)
+    history_frame, archived_frame, earlier, parts = combine_earlier(
+        history, archived_parts, config, mapping, keys, progress)
     if history or archived.n_read:
         progress(f"read earlier cycles: {len(earlier):,} rows "
                  f"({len(history_frame):,} from history, {len(archived_frame):,} from the "
@@ -285,6 +283,23 @@ def _unify(singles: dict[str, pd.DataFrame | None], history: list[pd.DataFrame],
     got = dict(zip(present, unified, strict=False))
     n, h = len(present), len(history)
     return got, unified[n:n + h], unified[n + h:]
+
+
+def combine_earlier(history: list[pd.DataFrame], archived: list[pd.DataFrame], config: Config,
+                    mapping: pd.DataFrame | None, keys: list[str], progress: Progress = quiet
+                    ) -> tuple[pd.DataFrame, pd.DataFrame, pd.DataFrame, list[pd.DataFrame]]:
+    """The earlier cycles' canonical rows from the history files' frames and the archived
+    cycles' frames (categories already unified): ``(history rows, archived rows, earlier,
+    parts)``. History rows get their segments and lose rows repeated across files (the last
+    kept); archived rows are re-mapped or keep their stored segments; ``earlier`` stacks the
+    non-empty ``parts`` with one set of segment categories. The dask engine builds each
+    shard's earlier cycles with it too."""
+    history_frame = _history_frame(
+        [assign_segments(h, config, mapping, role="history") for h in history], keys, progress)
+    archived_frame = _concat([_segments_of_archived(a, config, mapping) for a in archived])
+    parts = [p for p in (history_frame, archived_frame) if len(p)]
+    earlier = _concat(unify_categories(parts, [F.SEGMENT]) if len(parts) > 1 else parts)
+    return history_frame, archived_frame, earlier, parts
 
 
 def _history_frame(history: list[pd.DataFrame], keys: list[str],
