@@ -9,7 +9,6 @@ import numpy as np
 import pandas as pd
 import pytest
 
-from accuracy_checks.evaluation import baselines
 from accuracy_checks.evaluation.baselines import (
     ActualsIndex,
     default_seasonal_period,
@@ -47,14 +46,6 @@ def history_of(actuals: pd.DataFrame, store: str, product: str, before: pd.Times
     own = actuals[(actuals["store"] == store) & (actuals["product"] == product)]
     grid = weeks[weeks < before]
     return own.set_index("period")["actual"].reindex(grid).to_numpy(dtype=float)
-
-
-@pytest.fixture(params=["dense", "sorted"])
-def storage(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> str:
-    if request.param == "sorted":  # force the sorted-keys storage
-        monkeypatch.setattr(baselines, "_DENSE_CELLS_PER_ROW", 0)
-        monkeypatch.setattr(baselines, "_DENSE_MIN_CELLS", 0)
-    return str(request.param)
 
 
 @pytest.mark.parametrize("seed", [1, 2])

@@ -15,7 +15,6 @@ import pytest
 
 from accuracy_checks.engine import evaluate
 from accuracy_checks.errors import InputError
-from accuracy_checks.evaluation import baselines
 from accuracy_checks.evaluation.baselines import ActualsIndex
 from accuracy_checks.evaluation.join import finite_actuals
 from accuracy_checks.measures.catalogue import load_config
@@ -83,14 +82,6 @@ def long_project(make_project: Callable[..., Project]) -> Callable[..., Project]
         return project
 
     return make
-
-
-@pytest.fixture(params=["dense", "sorted"])
-def storage(request: pytest.FixtureRequest, monkeypatch: pytest.MonkeyPatch) -> str:
-    if request.param == "sorted":  # force the sorted-keys storage
-        monkeypatch.setattr(baselines, "_DENSE_CELLS_PER_ROW", 0)
-        monkeypatch.setattr(baselines, "_DENSE_MIN_CELLS", 0)
-    return str(request.param)
 
 
 @pytest.mark.parametrize(("layout", "chunk_rows"), [
