@@ -36,7 +36,7 @@ from accuracy_checks.config import Bound, Config, Direction, Level
 from accuracy_checks.measures.catalogue import measure_directions
 from accuracy_checks.measures.data import MeasureSettings
 from accuracy_checks.measures.registry import Measure
-from accuracy_checks.measures.wording import format_bound, value_words
+from accuracy_checks.measures.wording import format_bound, format_number, value_words
 from accuracy_checks.results import BREACHED, CheckResult, Reason, Status, StatusName
 
 __all__ = [
@@ -262,7 +262,7 @@ def _message(result: CheckResult, label: str, span: str, measure: Measure) -> st
         elif result.reason == Reason.ZERO_ACTUAL and result.details.get("mape_nonzero") is not None:
             nz = result.details["mape_nonzero"]
             text = (f"{label} is undefined: {result.details.get('n_zero_actual')} actual(s) are 0 "
-                    f"{basis}; over the non-zero actuals it is {nz:.3g} %.")
+                    f"{basis}; over the non-zero actuals it is {format_number(nz)} %.")
         else:
             text = f"{label} is undefined ({result.reason}) {basis}."
     elif result.status in BREACHED:

@@ -140,8 +140,8 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     ``__order`` and, when ``n_shards``, ``__shard`` of the series (``keys``: canonical key
     names, after ``rename``). ``every``: the input's configured columns, in the readers'
     order, when ``columns`` are only some of them (a refusal then names the file's first
-    offending column among all of them, as the pandas engine does)."""
-    check_header(piece.file, columns, piece.role)
+    offending column among all of them, as the pandas engine does: a missing column too)."""
+    check_header(piece.file, every if every is not None else columns, piece.role)
     wanted = list(dict.fromkeys(c.name for c in columns))
     try:
         if piece.row_groups is not None:

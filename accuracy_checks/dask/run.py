@@ -37,7 +37,7 @@ from accuracy_checks.dask import plan as P
 from accuracy_checks.dask.merge import DaskRun
 from accuracy_checks.dask.read import Piece, PieceReader, local_files, piece_frame, pieces
 from accuracy_checks.dask.shards import Plan
-from accuracy_checks.errors import ConfigError
+from accuracy_checks.errors import ConfigError, InputError, UsageError
 from accuracy_checks.sources.load import ArchiveReader, Progress, quiet
 from accuracy_checks.sources.memory import GivenFrames
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
@@ -90,13 +90,29 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
         job = from_client(config, client, forecast_path=forecast_path,
                           actuals_path=actuals_path, progress=progress, archive=archive,
                           frames=frames, n_workers=n_workers)
-    else:
+        progress(f"dask engine: plan and shards ready in {time.perf_counter() - t0:.1f} s "
+                 f"({job.n_shards} shards on {n_workers} workers)")
+        return M.run_shards(config, client, job, progress=progress, snapshot=snapshot)
+    try:
         job = _from_pieces(config, client, places, forecast_path=forecast_path,
                            actuals_path=actuals_path,
                            progress=progress, archive=archive, n_workers=n_workers)
-    progress(f"dask engine: plan and shards ready in {time.perf_counter() - t0:.1f} s "
-             f"({job.n_shards} shards on {n_workers} workers)")
-    return M.run_shards(config, client, job, progress=progress, snapshot=snapshot)
+        progress(f"dask engine: plan and shards ready in {time.perf_counter() - t0:.1f} s "
+                 f"({job.n_shards} shards on {n_workers} workers)")
+        return M.run_shards(config, client, job, progress=progress, snapshot=snapshot)
+    except InputError as exc:
+        # several broken inputs, or shards failing at once: the pandas engine's refusal
+        from accuracy_checks.dask.first_error import pandas_order_error
+
+        try:
+            columns = forecast_columns(config) + _segment_columns(config, places[0][0],
+                                                                  "forecast")
+        except UsageError as header:
+            raise header from exc
+        first = pandas_order_error(config, client, places[0], columns, exc)
+        if first is exc:
+            raise
+        raise first from exc
 
 
 def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Path],

@@ -56,12 +56,18 @@ def format_number(value: float, sig: int = 3) -> str:
     '0'
     >>> format_number(1.1259e17)
     '1.13e+17'
+    >>> format_number(26.349999999999998), format_number(26.350000000000001)
+    ('26.4', '26.4')
     >>> format_number(float("nan")), format_number(float("-inf"))
     ('undefined', '-infinity')
     """
     value = float(value)
     if not math.isfinite(value):
         return non_finite_words(value)
+    # first to 12 significant digits: a value that differs from another only in its last bits
+    # (sums taken in another order, e.g. by the dask engine) reads the same: 26.349999999999998
+    # and 26.350000000000001 are both "26.4"
+    value = float(f"{value:.12g}")
     if value == 0:
         return "0"
     if abs(value) >= _SCIENTIFIC_FROM:

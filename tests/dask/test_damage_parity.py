@@ -1,0 +1,101 @@
+"""Damaged inputs give the same answer on both engines.
+
+The damage of the robustness tests (tests/support/damage.py: dropped columns, text in number
+columns, garbage or other-format dates, blank and leading-zero keys, repeated, missing and
+shuffled rows, NaN/inf/negative/huge values, crossed quantiles, a second issue date, repeated
+headers, reserved segment names, damaged mappings and earlier cycles) is done to the small
+project's files; then the pandas engine and the dask engine (a real 2-process cluster) must
+both refuse the inputs with the same error type and message, or both give the same report
+(every result's check, status, counts, examples, message, values to 1e-9 relative).
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from accuracy_checks import load_config, run_checks
+from accuracy_checks.errors import AccuracyChecksError
+from accuracy_checks.results import RunReport
+from tests.dask.support import compare
+from tests.support.damage import (
+    ACTUALS_DAMAGE,
+    DAMAGE,
+    damage_actuals,
+    damage_forecast,
+    damaged_by,
+)
+from tests.support.project import CURRENT, EARLIER, PRODUCTS, Project, actuals_frame, forecast_frame
+
+
+def _answer(config: Path, engine: str, scheduler: str | None) -> RunReport | tuple[str, str]:
+    """The engine's report, or its refusal as (error type, message)."""
+    try:
+        cfg = load_config(config)
+        return run_checks(cfg, engine=engine, scheduler=scheduler, snapshot=False)
+    except AccuracyChecksError as exc:
+        return type(exc).__name__, str(exc)
+
+
+def assert_same_answer(project: Project, cluster: str, kinds: list[str]) -> None:
+    pandas = _answer(project.config, "pandas", None)
+    dask = _answer(project.config, "dask", cluster)
+    if isinstance(pandas, tuple) or isinstance(dask, tuple):
+        assert pandas == dask, kinds
+        return
+    compare(pandas, dask)
+
+
+@damaged_by(DAMAGE, examples=12)
+def test_damaged_forecasts_same_answer_on_both_engines(
+        make_project: Callable[..., Project], cluster: str, kinds: list[str],
+        seed: int) -> None:
+    rng = np.random.default_rng(seed)
+    frame = forecast_frame(CURRENT)
+    for kind in kinds:
+        frame = damage_forecast(frame, kind, rng)
+    assert_same_answer(make_project(forecast=frame), cluster, kinds)
+
+
+@damaged_by(ACTUALS_DAMAGE, examples=12)
+def test_damaged_actuals_mappings_and_earlier_cycles_same_answer_on_both_engines(
+        make_project: Callable[..., Project], cluster: str, kinds: list[str],
+        seed: int) -> None:
+    rng = np.random.default_rng(seed)
+    actuals = actuals_frame(CURRENT).astype(object)
+    mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
+    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
+    for kind in kinds:
+        actuals, mapping, earlier = damage_actuals(actuals, mapping, earlier, kind, rng)
+    project = make_project(actuals=actuals, earlier=earlier)
+    project.write("products.csv", mapping)
+    assert_same_answer(project, cluster, kinds)
+
+
+@settings(max_examples=12, deadline=None,
+          suppress_health_check=[HealthCheck.function_scoped_fixture])
+@given(forecast_kinds=st.lists(DAMAGE, min_size=1, max_size=2),
+       actuals_kinds=st.lists(ACTUALS_DAMAGE, min_size=1, max_size=2),
+       seed=st.integers(0, 2**31 - 1))
+def test_several_broken_inputs_get_the_pandas_engines_refusal(
+        make_project: Callable[..., Project], cluster: str, forecast_kinds: list[str],
+        actuals_kinds: list[str], seed: int) -> None:
+    """The forecast and the actuals (or mapping, or earlier cycles) damaged at once: the
+    refusal named is the one the pandas engine meets first (dask/first_error.py)."""
+    rng = np.random.default_rng(seed)
+    frame = forecast_frame(CURRENT)
+    for kind in forecast_kinds:
+        frame = damage_forecast(frame, kind, rng)
+    actuals = actuals_frame(CURRENT).astype(object)
+    mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
+    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
+    for kind in actuals_kinds:
+        actuals, mapping, earlier = damage_actuals(actuals, mapping, earlier, kind, rng)
+    project = make_project(forecast=frame, actuals=actuals, earlier=earlier)
+    project.write("products.csv", mapping)
+    assert_same_answer(project, cluster, [*forecast_kinds, *actuals_kinds])
