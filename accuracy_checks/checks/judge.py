@@ -6,7 +6,9 @@ without judgement (``pass``).
 Segment ``"*"`` (all series) is judged by the defaults unless ``thresholds.segments."*"``
 overrides them.
 
-Judgement (a level is broken when the value is *strictly* beyond it):
+Judgement (a level is broken when the value is *strictly* beyond it, the value taken to 12
+significant digits so that the last-bit error of a floating-point sum never breaks a level the
+exact value only meets):
 
 - ``lower`` is better: ``value > level``;
 - ``higher`` is better: ``value < level``;
@@ -78,7 +80,18 @@ def breaks(value: float, bound: Bound, direction: Direction) -> bool:
     (False, True)
     >>> breaks(-6.0, 5.0, "centered"), breaks(-6.0, (-10.0, 15.0), "centered")
     (True, False)
+
+    The value is compared at 12 significant digits: a figure that is exactly at its level
+    but carries the last-bit error of a floating-point sum (``100 * (0.1 + 0.2) / 3`` is
+    ``10.000000000000002``; another order of summing, as the dask engine's, gives another
+    last bit) is at the level, not beyond it.
+
+    >>> x = 100 * (0.1 + 0.2) / 3
+    >>> x, breaks(x, 10.0, "lower"), breaks(10.0001, 10.0, "lower")
+    (10.000000000000002, False, True)
     """
+    if math.isfinite(value):
+        value = float(f"{value:.12g}")
     if isinstance(bound, tuple):
         return value < bound[0] or value > bound[1]
     if direction == "centered":
