@@ -293,6 +293,8 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
 
 def _still_staged(staged: StagedSnapshot | RemoteStaged) -> bool:
     """Whether a staged snapshot still waits in the staging folder (not placed yet)."""
+    if getattr(staged, "claimed", None) == []:  # the dask engine's parts, not claimed yet
+        return True
     path = getattr(staged, "path", None)
     return isinstance(path, Path) and path.exists()
 
