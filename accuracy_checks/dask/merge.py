@@ -52,7 +52,9 @@ MAX_EXAMPLES = 10
 @dataclass
 class Job:
     """Everything the shard tasks need: the plan, the shard count, the inputs as dask
-    dataframes (with ``__shard``), the archived cycles read on the client, the run's info."""
+    dataframes (with ``__shard``), the archived cycles (a
+    :class:`~accuracy_checks.dask.archived.WorkerArchived`: their pieces, read on the workers;
+    else rows read on the client), the run's info."""
 
     plan: Plan
     n_shards: int

@@ -184,3 +184,25 @@ def test_a_failed_run_leaves_no_parts(make_project: Callable[..., Project], buck
         _cycle(project, config, EARLIER[0], cluster)
     assert finals(bucket) == []
     assert [k for k in keys(bucket) if k.startswith(".incoming/")] == []
+
+
+def test_parts_published_listed_and_retired_as_one_snapshot(bucket: str) -> None:
+    """A snapshot of parts is listed once its manifest is there, read as one table, and
+    moved aside whole (manifest first) when its number was never recorded."""
+    frame = forecast_frame(EARLIER[0]).rename(columns={"units": "forecast"})
+    staged = RemoteParts.start(f"s3://{bucket}/archive", EARLIER[0])
+    staged.write_part(0, frame.iloc[:10])
+    staged.write_part(1, frame.iloc[10:])
+    archive = staged.archive
+    assert archive.snapshots() == []
+    assert staged.place(1, run_id="r1").endswith(f"cycle={FIRST}/attempt-0001.parquet")
+    assert archive.snapshots() == []  # claimed, not published
+    staged.publish()
+    assert [(s.cycle, s.attempt) for s in archive.snapshots()] == [(FIRST, 1)]
+    got = archive.read(archive.snapshots()[0])
+    assert got["forecast"].tolist() == frame["forecast"].tolist()
+    moved = archive.retire_unrecorded(FIRST, 1)
+    assert len(moved) == 1 and ".orphans/" in moved[0]
+    assert archive.snapshots() == [] and finals(bucket) == []
+    assert sorted(k.rsplit("/", 1)[-1] for k in keys(bucket) if k.startswith(".orphans/")) \
+        == ["_parts.json", "part-00000.parquet", "part-00001.parquet"]
