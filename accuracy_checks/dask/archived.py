@@ -28,7 +28,6 @@ URL itself (its credentials come from the storage library's usual chain on the w
 
 from __future__ import annotations
 
-import functools
 from dataclasses import dataclass, field
 from typing import Any
 
@@ -37,6 +36,7 @@ import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.dask.read import ORDER, PIECE_ROWS, SHARD, shard_of
+from accuracy_checks.dask.snapshot import remote_archive
 from accuracy_checks.evaluation.join import CYCLE_START, prune_earlier
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.load import ArchivedCycles, ArchiveReader
@@ -74,20 +74,12 @@ class ArchivedPiece:
     starts: pd.Series | None = None
 
 
-@functools.lru_cache(maxsize=8)
-def _filesystem(url: str) -> Any:
-    """The archive's filesystem, opened once per process from its URL."""
-    from accuracy_checks.store.remote_archive import RemoteArchive
-
-    return RemoteArchive(url).fs
-
-
 def _parquet(file: str, url: str | None) -> Any:
     import pyarrow.parquet as pq
 
     if url is None:
         return pq.ParquetFile(file)
-    return pq.ParquetFile(_filesystem(url).open_input_file(file))
+    return pq.ParquetFile(remote_archive(url).fs.open_input_file(file))
 
 
 def open_snapshot(archive: Any, snap: Snapshot, required: list[str]) -> OpenedSnapshot:

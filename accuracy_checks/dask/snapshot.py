@@ -41,7 +41,7 @@ from accuracy_checks.sources.frames import cycle_label
 from accuracy_checks.store.archive import _INCOMING, StagedSnapshot, archive_url, write_snapshot
 from accuracy_checks.store.remote_archive import RemoteArchive
 
-__all__ = ["RemoteParts", "StagedParts"]
+__all__ = ["RemoteParts", "StagedParts", "remote_archive"]
 
 
 @dataclass(frozen=True)
@@ -84,7 +84,7 @@ class StagedParts(StagedSnapshot):
 
 
 @functools.lru_cache(maxsize=8)
-def _remote(url: str) -> RemoteArchive:
+def remote_archive(url: str) -> RemoteArchive:
     """The archive at ``url``, opened once per process (on each worker, from the URL: its
     credentials come from the storage library's usual chain there)."""
     return RemoteArchive(url)
@@ -103,13 +103,13 @@ class RemoteParts:
 
     @classmethod
     def start(cls, url: str, issued: pd.Timestamp) -> RemoteParts:
-        archive = _remote(url)
+        archive = remote_archive(url)
         archive._sweep_incoming()
         return cls(url, cycle_label(issued), uuid.uuid4().hex)
 
     @property
     def archive(self) -> RemoteArchive:
-        return _remote(self.url)
+        return remote_archive(self.url)
 
     @property
     def root(self) -> str:
