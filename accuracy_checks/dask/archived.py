@@ -36,11 +36,11 @@ import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.dask.read import ORDER, PIECE_ROWS, SHARD, shard_of
-from accuracy_checks.dask.snapshot import remote_archive
+from accuracy_checks.dask.snapshot import in_process, remote_archive
 from accuracy_checks.evaluation.join import CYCLE_START, prune_earlier
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.load import ArchivedCycles, ArchiveReader
-from accuracy_checks.store.archive import Archive, Snapshot, SnapshotUnreadable
+from accuracy_checks.store.archive import Archive, Snapshot, SnapshotUnreadable, archive_url
 
 __all__ = ["ArchivedPiece", "ArchivedReader", "OpenedSnapshot", "PreviousKeys",
            "WorkerArchived", "archived_on_workers", "cycle_pairs", "open_snapshot"]
@@ -230,14 +230,15 @@ def archived_on_workers(client: Any, config: Config, archive: ArchiveReader,
                         span: tuple[pd.Timestamp, ...], *, base: int) -> ArchivedCycles:
     """The archived cycles of the run, their rows left on the workers (module doc); pieces
     numbered from ``base``. A reader that cannot choose without reading (one given by a
-    caller) reads on the client as before."""
+    caller), or an archive in the client's memory (``memory://``), reads on the client."""
     lags = list(config.evaluation.lags)
 
     def prune(frame: pd.DataFrame) -> pd.DataFrame:
         return prune_earlier(frame, periods=list(span), lags=lags, frequency=config.frequency)
 
     choose = getattr(archive, "choose", None)
-    if choose is None:
+    url = archive_url(config.archive)
+    if choose is None or (url is not None and in_process(url)):
         return archive(issued, history_cycles, prune)
     chosen = choose(issued, history_cycles, open_snapshot)
     opened: list[OpenedSnapshot] = list(chosen.frames)  # type: ignore[arg-type]

@@ -41,7 +41,7 @@ from accuracy_checks.sources.frames import cycle_label
 from accuracy_checks.store.archive import _INCOMING, StagedSnapshot, archive_url, write_snapshot
 from accuracy_checks.store.remote_archive import RemoteArchive
 
-__all__ = ["RemoteParts", "StagedParts", "remote_archive"]
+__all__ = ["RemoteParts", "StagedParts", "in_process", "remote_archive"]
 
 
 @dataclass(frozen=True)
@@ -53,6 +53,12 @@ class StagedParts(StagedSnapshot):
         """An empty staging folder for the run's snapshot (on the archive's disk, which the
         workers must reach), or a staging prefix on object storage (:class:`RemoteParts`)."""
         url = archive_url(config.archive)
+        if url is not None and in_process(url):
+            raise ConfigError(
+                f"The archive {remote_archive(url).location} lives in the memory of one "
+                "process, which the dask engine's workers cannot write. Give `archive:` a "
+                "folder or a URL of object storage the workers reach, or run with "
+                "`engine: pandas` (or --no-snapshot).")
         if url is not None:
             return RemoteParts.start(url, issued)
         if not isinstance(config.archive, Path):
@@ -81,6 +87,12 @@ class StagedParts(StagedSnapshot):
     def discard(self) -> None:
         """Remove the staged folder (the run was not recorded)."""
         shutil.rmtree(self.path, ignore_errors=True)
+
+
+def in_process(url: str) -> bool:
+    """Whether the archive at ``url`` lives in one process's memory (``memory://``): the
+    workers can neither read nor write it."""
+    return url.lower().startswith("memory://")
 
 
 @functools.lru_cache(maxsize=8)

@@ -206,3 +206,26 @@ def test_parts_published_listed_and_retired_as_one_snapshot(bucket: str) -> None
     assert archive.snapshots() == [] and finals(bucket) == []
     assert sorted(k.rsplit("/", 1)[-1] for k in keys(bucket) if k.startswith(".orphans/")) \
         == ["_parts.json", "part-00000.parquet", "part-00001.parquet"]
+
+
+def test_an_archive_in_memory_is_read_on_the_client_and_not_written(
+        make_project: Callable[..., Project], tmp_path: Path, cluster: str) -> None:
+    """``memory://`` lives in the client's process: the dask engine reads its cycles there
+    (the same results) and refuses to write its snapshot there (exit 2, saying why)."""
+    from accuracy_checks.errors import ConfigError
+
+    project = make_project()
+    name = f"m{uuid.uuid4().hex[:8]}"
+    text = project.config.read_text().replace("history: data/earlier.csv\n", "")
+    project.config.write_text(text.replace(
+        "archive: archive\n", f"archive: memory://{name}/archive\n"
+        f"store: sqlite:///{tmp_path / 'audit.db'}\n"))
+    config = load_config(project.config)
+    for day in EARLIER:
+        _cycle(project, config, day, None)
+    expected = run_checks(config, engine="pandas", snapshot=False)
+    got = run_checks(config, engine="dask", scheduler=cluster, snapshot=False)
+    compare(expected, got)
+    assert len(got.evaluated_cycles) == 2
+    with pytest.raises(ConfigError, match="memory of one process"):
+        run_checks(config, engine="dask", scheduler=cluster)
