@@ -37,6 +37,7 @@ import pandas as pd
 from accuracy_checks.config import Config
 from accuracy_checks.dask.read import ORDER, PIECE_ROWS, SHARD, shard_of
 from accuracy_checks.dask.snapshot import in_process, remote_archive
+from accuracy_checks.errors import ConfigError
 from accuracy_checks.evaluation.join import CYCLE_START, prune_earlier
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.load import ArchivedCycles, ArchiveReader
@@ -133,10 +134,35 @@ def _read(piece: ArchivedPiece, columns: list[str] | None = None,
     return table.to_pandas().reset_index(drop=True)
 
 
-def cycle_pairs(piece: ArchivedPiece) -> pd.DataFrame:
-    """A piece's distinct (issue date, period) pairs (step 1 of the module doc)."""
-    frame = _read(piece, [F.ISSUED, F.PERIOD])
+def cycle_pairs(piece: ArchivedPiece) -> pd.DataFrame | str:
+    """A piece's distinct (issue date, period) pairs (step 1 of the module doc), or why the
+    worker could not read it (the client then tells an unreadable snapshot from a worker
+    that cannot reach the archive)."""
+    try:
+        frame = _read(piece, [F.ISSUED, F.PERIOD])
+    except Exception as exc:  # pyarrow raises several types for damaged or absent files
+        return " ".join(f"{type(exc).__name__}: {exc}".split())
     return frame.drop_duplicates(ignore_index=True)
+
+
+def _unreadable_on_workers(archive: Any, failed: dict[str, tuple[Snapshot, str]],
+                           opened: dict[str, OpenedSnapshot]) -> Any:
+    """The opener of a second choice, once some snapshots' pieces failed on the workers:
+    those are unreadable with the pandas engine's reason (``archive.read`` on the client
+    fails as quickly); one the client reads whole is a worker that cannot reach the archive
+    (exit 2). The others are as opened the first time."""
+    def opener(_: Any, snap: Snapshot, required: list[str]) -> OpenedSnapshot:
+        if snap.cycle in failed:
+            archive.read(snap, required)  # raises SnapshotUnreadable when it is damaged
+            raise ConfigError(
+                f"The dask engine's workers cannot read the archived snapshot {snap.path} "
+                f"that this process reads ({failed[snap.cycle][1]}). The workers must reach "
+                "the archive at the same path or URL as the client (one machine, a shared "
+                "file system, or object storage with credentials on every worker); or run "
+                "with `engine: pandas`.")
+        return opened[snap.cycle]
+
+    return opener
 
 
 def _text(frame: pd.DataFrame, keys: tuple[str, ...]) -> pd.DataFrame:
@@ -241,18 +267,26 @@ def archived_on_workers(client: Any, config: Config, archive: ArchiveReader,
     if choose is None or (url is not None and in_process(url)):
         return archive(issued, history_cycles, prune)
     chosen = choose(issued, history_cycles, open_snapshot)
-    opened: list[OpenedSnapshot] = list(chosen.frames)  # type: ignore[arg-type]
-    by_snapshot: list[list[ArchivedPiece]] = []
-    for snap in opened:
-        by_snapshot.append(_pieces(snap, base + sum(len(p) for p in by_snapshot)))
-    every = [p for parts in by_snapshot for p in parts]
-    found = client.gather(client.map(cycle_pairs, every, pure=False)) if every else []
+    groups: list[tuple[OpenedSnapshot, list[ArchivedPiece]]] = []
+    for snap in chosen.frames:  # what the opener returned, in the reader's order
+        groups.append((snap, _pieces(snap, base + sum(len(p) for _, p in groups))))
+    every = [p for _, parts in groups for p in parts]
+    found = iter(client.gather(client.map(cycle_pairs, every, pure=False)) if every else [])
+    scanned = [(snap, parts, [next(found) for _ in parts]) for snap, parts in groups]
+    failed = {snap.snapshot.cycle: (snap.snapshot, next(w for w in got if isinstance(w, str)))
+              for snap, _, got in scanned if any(isinstance(w, str) for w in got)}
+    if failed:  # the same choice again, those snapshots unreadable as for the pandas engine
+        from accuracy_checks.store.remote_archive import open_archive
+
+        by_cycle = {snap.snapshot.cycle: snap for snap, _, _ in scanned}
+        if chosen.previous is not None:
+            by_cycle[chosen.previous.snapshot.cycle] = chosen.previous
+        chosen = choose(issued, history_cycles, _unreadable_on_workers(
+            open_archive(config.archive), failed, by_cycle))
+        scanned = [t for t in scanned if t[0].snapshot.cycle not in failed]
     kept: list[ArchivedPiece] = []
     starts: list[pd.Series] = []
-    i = 0
-    for parts in by_snapshot:
-        pairs_of = found[i:i + len(parts)]
-        i += len(parts)
+    for _, parts, pairs_of in scanned:
         if not parts:
             continue
         pairs = pd.concat(pairs_of, ignore_index=True).drop_duplicates(ignore_index=True)
@@ -268,8 +302,7 @@ def archived_on_workers(client: Any, config: Config, archive: ArchiveReader,
                 kept.append(ArchivedPiece(piece.file, piece.url, piece.row_groups,
                                           piece.ordinal, piece.attempt, first))
     previous = chosen.previous
-    prev_pieces = (None if previous is None else
-                   _pieces(previous, 0))  # type: ignore[arg-type]
+    prev_pieces = None if previous is None else _pieces(previous, 0)
     from accuracy_checks.dask.plan import min_starts
 
     keys = tuple(config.forecast.keys)

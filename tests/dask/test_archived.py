@@ -117,3 +117,26 @@ def test_a_lacking_column_is_the_same_warning(make_project: Callable[..., Projec
     compare(expected, got)
     assert [r.details["problem"] for r in got.results
             if r.check == "archive.snapshot"] == ["unreadable"]
+
+
+def test_a_damaged_page_is_the_same_warning(make_project: Callable[..., Project],
+                                            cluster: str) -> None:
+    """A snapshot whose footer reads but whose period column's page does not: the workers
+    fail to read it, and the cycle is left out with the pandas engine's warning."""
+    project = _project(make_project)
+    config = load_config(project.config)
+    for day in ("2026-02-16", "2026-02-23"):
+        path = project.write(f"f_{day}.csv", forecast_frame(pd.Timestamp(day)))
+        run_checks(config, forecast_path=path)
+    snap = project.root / "archive" / "cycle=2026-02-16" / "attempt-0001.parquet"
+    meta = pq.ParquetFile(snap).metadata.row_group(0)
+    names = [meta.column(i).path_in_schema for i in range(meta.num_columns)]
+    offset = meta.column(names.index("period")).data_page_offset
+    data = bytearray(snap.read_bytes())
+    data[offset:offset + 16] = b"\xff" * 16
+    snap.write_bytes(bytes(data))
+    expected = run_checks(config, engine="pandas", snapshot=False)
+    got = run_checks(config, engine="dask", scheduler=cluster, snapshot=False)
+    compare(expected, got)
+    assert [(r.details["cycle"], r.details["problem"]) for r in got.results
+            if r.check == "archive.snapshot"] == [("2026-02-16", "unreadable")]
