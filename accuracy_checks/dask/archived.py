@@ -211,7 +211,8 @@ class PreviousKeys:
     n_shards: int
 
     def __call__(self, piece: ArchivedPiece, head: int | None = None) -> pd.DataFrame:
-        frame = _text(_read(piece, list(self.keys), head=head), self.keys)
+        frame = _read(piece, list(self.keys), head=head).drop_duplicates(ignore_index=True)
+        frame = _text(frame, self.keys)  # each series once a piece: less to shuffle
         frame[SHARD] = shard_of(frame, list(self.keys), self.n_shards)
         return frame
 
