@@ -31,15 +31,20 @@ import os
 import shutil
 import uuid
 from dataclasses import dataclass, field
-from pathlib import Path
 
 import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.errors import ConfigError
 from accuracy_checks.sources.frames import cycle_label
-from accuracy_checks.store.archive import _INCOMING, StagedSnapshot, archive_url, write_snapshot
-from accuracy_checks.store.remote_archive import RemoteArchive
+from accuracy_checks.store.archive import (
+    _INCOMING,
+    Archive,
+    StagedSnapshot,
+    archive_url,
+    write_snapshot,
+)
+from accuracy_checks.store.remote_archive import RemoteArchive, open_archive
 
 __all__ = ["RemoteParts", "StagedParts", "in_process", "remote_archive"]
 
@@ -61,12 +66,13 @@ class StagedParts(StagedSnapshot):
                 "`engine: pandas` (or --no-snapshot).")
         if url is not None:
             return RemoteParts.start(url, issued)
-        if not isinstance(config.archive, Path):
+        local = open_archive(config.archive)  # a folder (a path, or a file:// URL)
+        if not isinstance(local, Archive):
             raise ConfigError(
                 f"The archive {config.archive} is not a folder the workers can write; give "
                 "`archive:` a local or shared folder or a URL of object storage, or run with "
                 "`engine: pandas` (or --no-snapshot).")
-        root = Path(config.archive)
+        root = local.root
         folder = root / _INCOMING / f"{uuid.uuid4().hex}.parquet"
         folder.mkdir(parents=True, exist_ok=False)
         return cls(root, cycle_label(issued), folder)
