@@ -13,10 +13,11 @@ from __future__ import annotations
 import time
 import uuid
 from collections.abc import Callable, Collection, Mapping
+from dataclasses import dataclass
 from datetime import UTC, datetime
 from pathlib import Path
 from types import EllipsisType
-from typing import TYPE_CHECKING, TypeVar
+from typing import TYPE_CHECKING, Any, TypeVar
 
 import pandas as pd
 
@@ -90,21 +91,43 @@ def archived_cycles(config: Config,
     ``Inputs.notes`` says so (if it is the previous cycle, the series count is not compared
     with an older one either).
     """
-    def read(issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
-             prune: Callable[[pd.DataFrame], pd.DataFrame]) -> ArchivedCycles:
-        attempts = recorded
-        if isinstance(attempts, EllipsisType):
+    return _ArchiveReading(config, recorded)
+
+
+@dataclass(frozen=True)
+class _ArchiveReading:
+    """:func:`archived_cycles`' reader; :meth:`choose` makes the same choice of snapshots
+    without reading their rows (the dask engine reads them on its workers)."""
+
+    config: Config
+    recorded: Mapping[str, int] | EllipsisType | None
+
+    def _attempts(self) -> Mapping[str, int] | None:
+        if isinstance(self.recorded, EllipsisType):
             from accuracy_checks.store.core import archived_attempts
 
-            attempts = archived_attempts(config)
-        return _read_archive(config, issued, history_cycles, attempts, prune)
+            return archived_attempts(self.config)
+        return self.recorded
 
-    return read
+    def __call__(self, issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
+                 prune: Callable[[pd.DataFrame], pd.DataFrame]) -> ArchivedCycles:
+        return _read_archive(self.config, issued, history_cycles, self._attempts(), prune)
+
+    def choose(self, issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
+               opener: Callable[[Any, Snapshot, list[str]], Any]) -> ArchivedCycles:
+        """The reader's choice, warnings and previous cycle, with each snapshot used given
+        by ``opener(archive, snapshot, required columns)`` in place of its rows (``frames``
+        and ``previous`` hold what it returns; it raises ``SnapshotUnreadable`` as
+        ``Archive.read`` does)."""
+        return _read_archive(self.config, issued, history_cycles, self._attempts(),
+                             lambda frame: frame, opener)
 
 
 def _read_archive(config: Config, issued: pd.Timestamp, history_cycles: set[pd.Timestamp],
                   recorded: Mapping[str, int] | None,
-                  prune: Callable[[pd.DataFrame], pd.DataFrame]) -> ArchivedCycles:
+                  prune: Callable[[pd.DataFrame], pd.DataFrame],
+                  opener: Callable[[Any, Snapshot, list[str]], Any] | None = None
+                  ) -> ArchivedCycles:
     """The archived earlier cycles the run uses: their pruned rows (the cycles not held by
     the history files), the previous cycle's whole forecast and label (for the series count),
     and a warning for each used cycle whose snapshot cannot be used."""
@@ -116,7 +139,8 @@ def _read_archive(config: Config, issued: pd.Timestamp, history_cycles: set[pd.T
     def frame_of(snap: Snapshot) -> pd.DataFrame | None:
         if snap.cycle not in read:
             try:
-                read[snap.cycle] = archive.read(snap, required)
+                read[snap.cycle] = (archive.read(snap, required) if opener is None
+                                    else opener(archive, snap, required))
             except SnapshotUnreadable as exc:
                 faults.append(SnapshotFault(snap, "unreadable", str(exc)))
                 read[snap.cycle] = None
@@ -269,6 +293,8 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
 
 def _still_staged(staged: StagedSnapshot | RemoteStaged) -> bool:
     """Whether a staged snapshot still waits in the staging folder (not placed yet)."""
+    if getattr(staged, "claimed", None) == []:  # the dask engine's parts, not claimed yet
+        return True
     path = getattr(staged, "path", None)
     return isinstance(path, Path) and path.exists()
 

@@ -13,13 +13,14 @@ from __future__ import annotations
 
 import time
 from collections.abc import Sequence
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Any
 
 import numpy as np
 import pandas as pd
 
 from accuracy_checks.config import Config
+from accuracy_checks.dask.archived import WorkerArchived
 from accuracy_checks.dask.coverage import (
     CoveragePartial,
     coverage_partial,
@@ -51,7 +52,9 @@ MAX_EXAMPLES = 10
 @dataclass
 class Job:
     """Everything the shard tasks need: the plan, the shard count, the inputs as dask
-    dataframes (with ``__shard``), the archived cycles read on the client, the run's info."""
+    dataframes (with ``__shard``), the archived cycles (a
+    :class:`~accuracy_checks.dask.archived.WorkerArchived`: their pieces, read on the workers;
+    else rows read on the client), the run's info."""
 
     plan: Plan
     n_shards: int
@@ -102,10 +105,11 @@ def _segment_names(*frames: pd.DataFrame | None) -> set[str]:
 
 def shard_task(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd.DataFrame,
                history: pd.DataFrame | None, archived: pd.DataFrame | None, *,
-               accuracy_plan: Any, stage: Any, index: int, prepared: bool = False
-               ) -> ShardPartial:
+               accuracy_plan: Any, stage: Any, index: int, prepared: bool = False,
+               previous: pd.DataFrame | None = None) -> ShardPartial:
     """One shard's partial (module doc). ``prepared``: the frames are canonical already
-    (read on the client); else raw pieces' rows."""
+    (read on the client); else raw pieces' rows. ``previous``: the shard's rows of the
+    previous cycle's key columns (its series are counted)."""
     from accuracy_checks.sources.codes import n_distinct
 
     keys = list(config.forecast.keys)
@@ -136,6 +140,8 @@ def shard_task(config: Config, plan: Plan, forecast: pd.DataFrame, actuals: pd.D
         "history": int((earlier[F.SOURCE] == "history").sum()) if len(earlier) else 0,
         "actuals": len(inputs.actuals),
     }
+    if previous is not None:
+        counts["previous_series"] = n_distinct(previous, keys) if len(previous) else 0
     partial = ShardPartial(out, act, cov, None,
                            _segment_names(inputs.forecast, inputs.actuals, earlier), counts)
     e, a = _canonical(earlier), _canonical(inputs.actuals)
@@ -211,8 +217,18 @@ def run_shards(config: Config, client: Any, job: Job, *, progress: Progress,
     plan = job.plan
     archived = job.archived or ArchivedCycles()
     prepared = bool(job.info.get("prepared"))
-    arch_frame = (job.info.get("older") if prepared else
-                  _archived_frame(config, archived, job.ordinal_base, job.n_shards))
+    on_workers = archived if isinstance(archived, WorkerArchived) else None
+    if on_workers is not None:  # the archived rows are read on the workers
+        arch_frame = on_workers.rows(job.n_shards)
+        if on_workers.starts is not None:
+            from accuracy_checks.dask.plan import min_starts
+
+            starts = [s for s in (plan.extra.get("earlier_starts"), on_workers.starts)
+                      if isinstance(s, pd.Series)]
+            plan = replace(plan, extra={**plan.extra, "earlier_starts": min_starts(starts)})
+    else:
+        arch_frame = (job.info.get("older") if prepared else
+                      _archived_frame(config, archived, job.ordinal_base, job.n_shards))
     acc_plan = accuracy_plan_or_none(config, plan, archived)
     if acc_plan is None:
         progress("dask engine: the accuracy stage of this config's measures has no mergeable "
@@ -222,9 +238,12 @@ def run_shards(config: Config, client: Any, job: Job, *, progress: Progress,
     acc_f = client.scatter(acc_plan, broadcast=True) if acc_plan is not None else None
     f, a, h = (_partitions(x, job.n_shards) for x in (job.forecast, job.actuals, job.history))
     arch = _partitions(arch_frame, job.n_shards)
+    prev = _partitions(on_workers.previous_keys(job.n_shards)
+                       if on_workers is not None else None, job.n_shards)
     tasks = [dask.delayed(shard_task)(config, plan_f, f[i], a[i], h[i], arch[i],
                                       accuracy_plan=acc_f, stage=stage, index=i,
-                                      prepared=prepared, dask_key_name=f"shard-{i}")
+                                      prepared=prepared, previous=prev[i],
+                                      dask_key_name=f"shard-{i}")
              for i in range(job.n_shards)]
     try:
         futures = client.compute(tasks)
@@ -256,7 +275,9 @@ def run_shards(config: Config, client: Any, job: Job, *, progress: Progress,
         resolve_unexpected(merged.coverage, found, keys, MAX_EXAMPLES)
     previous = archived.previous
     n_prev = None
-    if previous is not None:
+    if on_workers is not None and on_workers.previous_pieces is not None:
+        n_prev = merged.counts.get("previous_series", 0)
+    elif previous is not None:
         from accuracy_checks.sources.codes import n_distinct
 
         n_prev = n_distinct(previous, keys) if len(previous) else 0

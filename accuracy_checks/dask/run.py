@@ -120,8 +120,8 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
                  actuals_path: Path | Url | None, progress: Progress,
                  archive: ArchiveReader | None, n_workers: int) -> M.Job:
     """Plan and shards of inputs read in pieces on the workers."""
+    from accuracy_checks.dask.archived import archived_on_workers
     from accuracy_checks.dask.shards import HistoryPrune
-    from accuracy_checks.evaluation.join import prune_earlier
     from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
     from accuracy_checks.sources.segments import read_mapping
 
@@ -173,9 +173,9 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
                 mapping=read_mapping(config), cut_actuals=cut)
 
     history_cycles = {pd.Timestamp(t) for s in history_starts for t in s.index}
-    archived = (archive(issued, history_cycles, lambda frame: prune_earlier(
-        frame, periods=list(span), lags=list(config.evaluation.lags),
-        frequency=config.frequency)) if archive is not None else None)
+    # the archive's snapshots chosen on the client, their rows read on the workers
+    archived = (archived_on_workers(client, config, archive, issued, history_cycles, span,
+                                    base=len(h_pieces)) if archive is not None else None)
 
     n_rows = fsum.rows + sum(s.rows for s in asums) * 2
     n_shards = max(2 * n_workers, math.ceil(n_rows / SHARD_ROWS))

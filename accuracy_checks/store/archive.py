@@ -234,6 +234,19 @@ class Archive:
             raise SnapshotUnreadable(f"it is not a readable Parquet file ({reason})") from None
         return self._finish_read(frame, snap, required)
 
+    def snapshot_files(self, snap: Snapshot) -> list[str]:
+        """The Parquet files that hold ``snap``, in the order :meth:`read` reads them: the
+        file itself, or the parts of a folder (its files whose names start with neither
+        ``.`` nor ``_``, by name, as a Parquet dataset reader takes them). Only listed, not
+        read; empty when the snapshot is not there."""
+        path = Path(snap.path)
+        if path.is_file():
+            return [str(path)]
+        if not path.is_dir():
+            return []
+        return sorted(str(f) for f in path.iterdir()
+                      if f.is_file() and not f.name.startswith((".", "_")))
+
     def _exists(self, snap: Snapshot) -> bool:
         # a file, or a folder of parts (the dask engine's workers write one part each)
         return Path(snap.path).exists()

@@ -16,6 +16,13 @@ store records. Object stores have no atomic rename, so the order differs:
    ``cycle=<date>/attempt-<NNNN>.parquet`` (a server-side copy: the final name appears only
    complete, and only after the record exists), then deletes the staged object and its claim.
 
+**A snapshot of parts** (the dask engine's workers write one part each) is staged as
+``.incoming/<random>.parquet/part-NNNNN.parquet`` and published under the final prefix
+``cycle=<date>/attempt-<NNNN>.parquet/`` by copying each part, then writing the manifest
+``_parts.json`` (the parts' names) last: the snapshot exists only once its manifest does, so
+a publish cut half way is never read as a snapshot; its claim names the parts, and the next
+run finishes it as for one object (:meth:`RemoteArchive.publish_parts`).
+
 A run killed before step 3 leaves no record; its staged object and claim are debris, swept
 once they are an hour old. A run killed between steps 3 and 4 leaves a record whose snapshot
 is not there yet: the next run finishes it (:meth:`RemoteArchive.finish_pending`, called by
@@ -67,6 +74,8 @@ if TYPE_CHECKING:
 __all__ = ["RemoteArchive", "RemoteStaged", "display_location", "open_archive"]
 
 _CLAIM = ".claim"
+#: the manifest of a snapshot of parts, written after its parts (see the module doc)
+PARTS_MANIFEST = "_parts.json"
 
 
 def display_location(url: str) -> str:
@@ -164,7 +173,9 @@ class RemoteArchive(Archive):
         out = []
         for info in self._files():
             parts = info.path[len(self.base):].strip("/").split("/")
-            if len(parts) != 2:
+            if len(parts) == 3 and parts[2] == PARTS_MANIFEST:
+                parts = parts[:2]  # a snapshot of parts, complete
+            elif len(parts) != 2:
                 continue
             m, a = _CYCLE_DIR.match(parts[0]), _ATTEMPT_FILE.match(parts[1])
             if m and a:
@@ -175,22 +186,36 @@ class RemoteArchive(Archive):
         return self._shown(self._rel(cycle, attempt))
 
     def _exists(self, snap: Snapshot) -> bool:
+        return bool(self.snapshot_files(snap))
+
+    def snapshot_files(self, snap: Snapshot) -> list[str]:
+        """The objects (keys in :attr:`fs`) that hold ``snap``, in reading order: the object
+        itself, or the parts its manifest names; empty when it is not there (a snapshot of
+        parts without its manifest is not there yet)."""
         import pyarrow.fs as pafs
 
+        key = self._key(self._rel(snap.cycle, snap.attempt))
         try:
-            info = self.fs.get_file_info(self._key(self._rel(snap.cycle, snap.attempt)))
+            info = self.fs.get_file_info([key, f"{key}/{PARTS_MANIFEST}"])
+            if info[0].type == pafs.FileType.File:
+                return [key]
+            if info[1].type != pafs.FileType.File:
+                return []
+            with self.fs.open_input_stream(f"{key}/{PARTS_MANIFEST}") as fh:
+                names = json.loads(fh.read().decode())["parts"]
         except Exception as exc:
             raise self._error("read", exc) from None
-        return bool(info.type == pafs.FileType.File)
+        return [f"{key}/{name}" for name in sorted(names)]
 
     def read(self, snap: Snapshot, required: Sequence[str] = ()) -> pd.DataFrame:
         import pandas as pd
 
-        if not self._exists(snap):
+        files = self.snapshot_files(snap)
+        if not files:
             raise SnapshotUnreadable("the file is missing")
         try:
-            frame = pd.read_parquet(self._key(self._rel(snap.cycle, snap.attempt)),
-                                    filesystem=self.fs)
+            whole = files == [self._key(self._rel(snap.cycle, snap.attempt))]
+            frame = pd.read_parquet(files[0] if whole else files, filesystem=self.fs)
         except Exception as exc:
             raise SnapshotUnreadable(
                 f"it is not a readable Parquet file ({self._scrub(exc)})") from None
@@ -250,11 +275,29 @@ class RemoteArchive(Archive):
         """Move the cycle's final objects numbered ``first`` or above to ``.orphans/``
         (copy, then delete). Under the store's write lock, as on disk."""
         moved = []
-        for info in self._files(f"cycle={cycle}"):
-            name = info.path.rsplit("/", 1)[-1]
-            m = _ATTEMPT_FILE.match(name)
+        folder = self._key(f"cycle={cycle}")
+        found = self._files(f"cycle={cycle}")
+        # a snapshot of parts loses its manifest first: it is never seen half moved
+        found.sort(key=lambda i: not i.path.endswith(f"/{PARTS_MANIFEST}"))
+        tags: dict[str, str] = {}
+        for info in found:
+            rel = info.path[len(folder):].strip("/")
+            top, _, rest = rel.partition("/")
+            m = _ATTEMPT_FILE.match(top)
             if not m or int(m.group(1)) < first:
                 continue
+            if rest:  # a part (or the manifest) of a snapshot of parts
+                tag = tags.setdefault(top, uuid.uuid4().hex[:8])
+                dest = f"{_ORPHANS}/cycle={cycle}/{top[:-8]}.{tag}.parquet"
+                try:
+                    self.fs.copy_file(info.path, self._key(f"{dest}/{rest}"))
+                    self.fs.delete_file(info.path)
+                except Exception as exc:
+                    raise self._error("written", exc) from None
+                if self._shown(dest) not in moved:
+                    moved.append(self._shown(dest))
+                continue
+            name = top
             rel = f"{_ORPHANS}/cycle={cycle}/{name[:-8]}.{uuid.uuid4().hex[:8]}.parquet"
             try:
                 self.fs.copy_file(info.path, self._key(rel))
@@ -283,6 +326,15 @@ class RemoteArchive(Archive):
                 continue
             if not recorded_as(str(claim["run_id"]), cycle, attempt):
                 continue
+            if "parts" in claim:  # a snapshot of parts
+                with contextlib.suppress(Exception):  # its parts gone: "recorded but missing"
+                    done.append(self.publish_parts(str(claim["staged"]),
+                                                   [str(p) for p in claim["parts"]],
+                                                   cycle, attempt))
+                for part in claim["parts"]:
+                    self._delete_quietly(f"{staged}/{part}")
+                self._delete_quietly(info.path)
+                continue
             final = self._key(self._rel(cycle, attempt))
             try:
                 if self.fs.get_file_info(final).type.name != "File":
@@ -293,6 +345,25 @@ class RemoteArchive(Archive):
             self._delete_quietly(staged)
             self._delete_quietly(info.path)
         return done
+
+    def publish_parts(self, staged: str, parts: Sequence[str], cycle: str,
+                      attempt: int) -> str:
+        """Copy the staged parts ``.incoming/<staged>/<part>`` of a snapshot of parts to
+        ``cycle=<cycle>/attempt-<attempt>.parquet/<part>``, then write its manifest (the
+        snapshot exists from then on; see the module doc). A manifest already there: done.
+        Returns the final path as shown; raises :class:`ArchiveError` when a copy fails."""
+        final = self._key(self._rel(cycle, attempt))
+        manifest = f"{final}/{PARTS_MANIFEST}"
+        try:
+            if self.fs.get_file_info(manifest).type.name == "File":
+                return self.path_of(cycle, attempt)
+            for part in parts:
+                self.fs.copy_file(self._key(f"{_INCOMING}/{staged}/{part}"), f"{final}/{part}")
+            with self.fs.open_output_stream(manifest) as out:
+                out.write(json.dumps({"parts": sorted(parts)}).encode())
+        except Exception as exc:
+            raise self._error("written", exc) from None
+        return self.path_of(cycle, attempt)
 
     def _sweep_incoming(self) -> None:
         """Delete staged objects and claims of runs killed more than an hour ago."""
