@@ -41,8 +41,8 @@ from accuracy_checks.sources.files import (
     why,
 )
 
-__all__ = ["ORDER", "SHARD", "Piece", "date_forms", "local_files", "pieces", "read_piece",
-           "shard_of", "whole_file_error"]
+__all__ = ["ORDER", "SHARD", "Piece", "as_text", "date_forms", "local_files", "pieces",
+           "read_piece", "shard_of", "whole_file_error"]
 
 ORDER = "__order"
 SHARD = "__shard"
@@ -141,6 +141,9 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     names, after ``rename``). ``every``: the input's configured columns, in the readers'
     order, when ``columns`` are only some of them (a refusal then names the file's first
     offending column among all of them, as the pandas engine does)."""
+    if not isinstance(piece, Piece):  # a table's partition (dask/sql_parts.py) reads itself
+        return piece.read(columns, keys=keys, n_shards=n_shards,  # type: ignore[attr-defined]
+                          rename=rename, text=text, head=head, every=every)
     check_header(piece.file, columns, piece.role)
     wanted = list(dict.fromkeys(c.name for c in columns))
     try:
@@ -172,7 +175,7 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     if n_shards:
         frame[SHARD] = shard_of(frame, keys, n_shards)
     for k in [*keys, *(t for t in text if t in frame.columns)]:
-        frame[k] = _text(frame[k])
+        frame[k] = as_text(frame[k])
     frame[ORDER] = (np.int64(piece.ordinal) << _ROW_BITS) + np.arange(len(frame), dtype=np.int64)
     return frame
 
@@ -248,7 +251,7 @@ def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[s
     return out
 
 
-def _text(column: pd.Series) -> pd.Series:
+def as_text(column: pd.Series) -> pd.Series:
     """A key or segment column as plain text (the converters give categoricals of text);
     missing stays missing. A categorical's categories are taken by code in Arrow (no Python
     string per row)."""

@@ -83,14 +83,22 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
     t0 = time.perf_counter()
     n_workers = max(len(client.scheduler_info().get("workers", {})), 1)
     places = None if frames is not None else _places(config, forecast_path, actuals_path)
-    if places is None:
+    job = None
+    if places is None and frames is None:  # tables among the inputs: read in partitions
+        from accuracy_checks.dask.sql_run import sql_job
+
+        job = sql_job(config, client, forecast_path=forecast_path, actuals_path=actuals_path,
+                      progress=progress, archive=archive, n_workers=n_workers,
+                      refuse_offsets=_refuse_mixed_offsets)
+    if job is None and places is None:
         from accuracy_checks.dask.client_read import from_client
 
         progress("dask engine: inputs read on the client (not local files), then sharded")
         job = from_client(config, client, forecast_path=forecast_path,
                           actuals_path=actuals_path, progress=progress, archive=archive,
                           frames=frames, n_workers=n_workers)
-    else:
+    elif job is None:
+        assert places is not None
         job = _from_pieces(config, client, places, forecast_path=forecast_path,
                            actuals_path=actuals_path,
                            progress=progress, archive=archive, n_workers=n_workers)

@@ -1,0 +1,193 @@
+"""Tables read in partitions on the workers (:mod:`accuracy_checks.dask.sql_parts`): SQLite,
+DuckDB and PostgreSQL tables give the pandas engine's results, refusals and examples, in runs
+of tables only and mixed with Parquet files, and the client never reads a table's rows."""
+
+from __future__ import annotations
+
+import sqlite3
+from collections.abc import Callable, Iterator
+from pathlib import Path
+from typing import Any
+
+import numpy as np
+import pandas as pd
+import pytest
+import sqlalchemy as sa
+
+from accuracy_checks import load_config, run_checks
+from accuracy_checks.dask import sql_parts, sql_run
+from accuracy_checks.errors import InputError
+from accuracy_checks.sources import sql
+from tests.dask.support import compare
+from tests.support.project import CURRENT, EARLIER, Project, actuals_frame, forecast_frame
+from tests.support.store import pg_url_fixture  # noqa: F401  (fixture)
+
+TABLES = {"forecast": "forecast.csv", "earlier": "earlier.csv", "actuals": "actuals.csv"}
+NUMBERS = ("units", "p10", "p90", "units_sold")
+DATES = ("week", "issued_on")
+
+
+def _frames(project: Project) -> dict[str, pd.DataFrame]:
+    out = {}
+    for table, name in TABLES.items():
+        frame = pd.read_csv(project.data / name, dtype=str, keep_default_na=False)
+        out[table] = frame.assign(**{c: pd.to_numeric(frame[c].mask(frame[c] == ""))
+                                     for c in NUMBERS if c in frame.columns})
+    return out
+
+
+def load_tables(project: Project, kind: str, pg_url: str | None = None) -> str:
+    """The project's forecast, earlier cycles and actuals as tables (SQLite: dates as text;
+    DuckDB and PostgreSQL: DATE columns); the URL."""
+    frames = _frames(project)
+    if kind == "duckdb":
+        import duckdb
+
+        file = project.data / "warehouse.duckdb"
+        con = duckdb.connect(str(file))
+        for table, frame in frames.items():
+            typed = frame.astype(  # noqa: F841  (read by DuckDB by its name)
+                {c: "datetime64[ns]" for c in DATES if c in frame.columns})
+            con.execute(f"CREATE TABLE {table} AS SELECT * REPLACE ("
+                        + ", ".join(f"CAST({c} AS DATE) AS {c}" for c in DATES
+                                    if c in frame.columns) + ") FROM typed")
+        con.close()
+        return f"duckdb:///{file}"
+    if kind == "sqlite":
+        file = project.data / "warehouse.db"
+        with sqlite3.connect(file) as con:
+            for table, frame in frames.items():
+                frame.to_sql(table, con, index=False)
+        return f"sqlite:///{file}"
+    assert pg_url is not None
+    engine = sa.create_engine(pg_url, poolclass=sa.pool.NullPool)
+    with engine.begin() as conn:
+        for table, frame in frames.items():
+            frame.astype({c: "datetime64[ns]" for c in DATES if c in frame.columns}).to_sql(
+                table, conn, index=False,
+                dtype={c: sa.Date() for c in DATES if c in frame.columns})
+    engine.dispose()
+    return pg_url
+
+
+def point_at(project: Project, url: str, inputs: tuple[str, ...] = ("forecast", "actuals",
+                                                                     "earlier")) -> None:
+    """The project's config reading ``inputs`` from tables of ``url``."""
+    text = project.config.read_text()
+    place = "sql: {{url: '{url}', table: {table}}}"
+    lines = {"forecast": "path: data/forecast.csv", "actuals": "path: data/actuals.csv"}
+    for name in inputs:
+        if name == "earlier":
+            text = text.replace("history: data/earlier.csv", "history: {" + place.format(
+                url=url, table="earlier") + "}")
+        else:
+            text = text.replace(lines[name], place.format(url=url, table=name))
+    project.config.write_text(text)
+
+
+@pytest.fixture
+def counted(monkeypatch: pytest.MonkeyPatch) -> Iterator[list[int]]:
+    """Small partitions (a few dates each), their count per table planned; a table's rows read
+    on the client (the pandas reader) fail the test."""
+    monkeypatch.setattr(sql_parts, "PART_ROWS", 20)
+    planned: list[int] = []
+    plan = sql_run.plan_parts
+
+    def spy(*args: Any, **kwargs: Any) -> Any:
+        found = plan(*args, **kwargs)
+        planned.append(len(found[0]))
+        return found
+
+    monkeypatch.setattr(sql_run, "plan_parts", spy)
+    yield planned
+
+
+def _dask(config: Path, cluster: str, monkeypatch: pytest.MonkeyPatch) -> Any:
+    """The dask engine's report; the client may not read a table's rows."""
+    def refuse(*_: Any, **__: Any) -> Any:
+        raise AssertionError("a table's rows were read on the client")
+
+    with monkeypatch.context() as patch:
+        patch.setattr(sql, "read_sql_columns", refuse)
+        return run_checks(load_config(config), engine="dask", scheduler=cluster,
+                          snapshot=False)
+
+
+def _pandas(config: Path) -> Any:
+    return run_checks(load_config(config), engine="pandas", snapshot=False)
+
+
+def _breached() -> dict[str, pd.DataFrame]:
+    """Earlier cycles biased, a series missing, a repeated forecast row, an invalid value:
+    failed results with examples."""
+    forecast = forecast_frame(CURRENT).iloc[4:]
+    forecast = pd.concat([forecast, forecast.iloc[[5, 1]]], ignore_index=True)
+    forecast.loc[7, "units"] = np.nan
+    return {"earlier": pd.concat([forecast_frame(d, bias=0.85) for d in EARLIER]),
+            "forecast": forecast}
+
+
+@pytest.mark.parametrize("kind", ["sqlite", "duckdb"])
+def test_tables_give_the_pandas_results_read_in_partitions_on_the_workers(
+        kind: str, make_project: Callable[..., Project], cluster: str,
+        counted: list[int], monkeypatch: pytest.MonkeyPatch) -> None:
+    project = make_project(**_breached())
+    point_at(project, load_tables(project, kind))
+    expected = _pandas(project.config)
+    got = _dask(project.config, cluster, monkeypatch)
+    compare(expected, got)
+    assert expected.status == "fail"
+    assert counted and max(counted) > 1  # tables read in several partitions
+
+
+def test_postgresql_tables_give_the_pandas_results(
+        make_project: Callable[..., Project], cluster: str, counted: list[int],
+        pg_url: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    project = make_project(**_breached())
+    point_at(project, load_tables(project, "postgresql", pg_url))
+    expected = _pandas(project.config)
+    got = _dask(project.config, cluster, monkeypatch)
+    compare(expected, got)
+    assert counted and max(counted) > 1
+    password = sa.engine.make_url(pg_url).password
+    assert password and password not in str(got.to_dict())
+
+
+def test_parquet_forecast_and_table_actuals(make_project: Callable[..., Project],
+                                            cluster: str, counted: list[int],
+                                            monkeypatch: pytest.MonkeyPatch) -> None:
+    project = make_project(**_breached())
+    url = load_tables(project, "sqlite")
+    frame = _frames(project)["forecast"]
+    frame.to_parquet(project.data / "forecast.parquet", row_group_size=5)
+    point_at(project, url, ("actuals",))
+    text = project.config.read_text().replace("data/forecast.csv", "data/forecast.parquet")
+    project.config.write_text(text)
+    compare(_pandas(project.config), _dask(project.config, cluster, monkeypatch))
+    assert counted and max(counted) > 1  # the actuals' table, in partitions
+
+
+def _refusal(run: Callable[[], Any]) -> str:
+    with pytest.raises(InputError) as caught:
+        run()
+    return str(caught.value)
+
+
+@pytest.mark.parametrize("bad", ["date", "repeated", "offsets"])
+def test_a_table_with_bad_rows_is_refused_with_the_pandas_message(
+        bad: str, make_project: Callable[..., Project], cluster: str, counted: list[int],
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    forecast = forecast_frame(CURRENT)
+    actuals = actuals_frame(CURRENT)
+    if bad == "date":  # in a late partition: the message numbers the rows of the whole read
+        forecast.loc[17, "week"] = "2026-13-45"
+    elif bad == "repeated":
+        actuals = pd.concat([actuals, actuals.iloc[[40, 3]]], ignore_index=True)
+    else:  # each partition alone holds one UTC offset
+        forecast["issued_on"] = "2026-03-02T00:00:00+01:00"
+        forecast.loc[20:, "issued_on"] = "2026-03-02T00:00:00+02:00"
+    project = make_project(forecast=forecast, actuals=actuals)
+    point_at(project, load_tables(project, "sqlite"))
+    expected = _refusal(lambda: _pandas(project.config))
+    assert _refusal(lambda: _dask(project.config, cluster, monkeypatch)) == expected
+    assert "table" in expected
