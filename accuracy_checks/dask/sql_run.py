@@ -28,6 +28,7 @@ from accuracy_checks.dask import plan as P
 from accuracy_checks.dask.read import Piece, PieceReader, local_files, piece_frame, pieces
 from accuracy_checks.dask.shards import Plan
 from accuracy_checks.dask.sql_parts import SqlPart, dates_refused, order_kind, plan_parts
+from accuracy_checks.sources import sql
 from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.files import columns_of, file_header, sql_key
 from accuracy_checks.sources.load import ArchiveReader, Progress
@@ -68,9 +69,12 @@ def _parts(place: Place, role: str, columns: list[Column], *, start: int,
     if isinstance(place, list):
         return pieces(place, role, start=start, column=column, wanted=wanted)
     row_filter = (column, tuple(wanted)) if column is not None and wanted is not None else None
-    found, _ = plan_parts(place.source, columns, role=place.role, key=place.key,
-                          ordinal=start, order=place.order, candidates=candidates,
-                          row_filter=row_filter, pairs=pairs)
+    found, total = plan_parts(place.source, columns, role=place.role, key=place.key,
+                              ordinal=start, order=place.order, candidates=candidates,
+                              row_filter=row_filter, pairs=pairs)
+    if not total and role != "history":  # the pandas reader's refusal of a table without rows
+        sql.read_sql_columns(place.source, columns, role=place.role, key=place.key,
+                             row_filter=row_filter, pairs=pairs)
     return found
 
 

@@ -118,13 +118,16 @@ def _pandas(config: Path) -> Any:
 
 
 def _breached() -> dict[str, pd.DataFrame]:
-    """Earlier cycles biased, a series missing, a repeated forecast row, an invalid value:
-    failed results with examples."""
+    """Earlier cycles biased, a series missing, repeated forecast rows, invalid and negative
+    values: failed results with examples; the forecast's rows written latest week first and
+    the earlier cycles' shuffled, so the reading order (the tables' row ids) is not the
+    partitions' (by date)."""
     forecast = forecast_frame(CURRENT).iloc[4:]
-    forecast = pd.concat([forecast, forecast.iloc[[5, 1]]], ignore_index=True)
-    forecast.loc[7, "units"] = np.nan
-    return {"earlier": pd.concat([forecast_frame(d, bias=0.85) for d in EARLIER]),
-            "forecast": forecast}
+    forecast = pd.concat([forecast, forecast.iloc[[5, 1, 12]]], ignore_index=True)
+    forecast.loc[[7, 2, 15, 16, 8, 1], "units"] = [np.nan, -1.0, np.nan, np.nan, -2.0, np.nan]
+    earlier = pd.concat([forecast_frame(d, bias=0.85) for d in EARLIER], ignore_index=True)
+    return {"earlier": earlier.sample(frac=1.0, random_state=5),
+            "forecast": forecast.sort_values("week", ascending=False, kind="stable")}
 
 
 @pytest.mark.parametrize("kind", ["sqlite", "duckdb"])
@@ -191,3 +194,35 @@ def test_a_table_with_bad_rows_is_refused_with_the_pandas_message(
     expected = _refusal(lambda: _pandas(project.config))
     assert _refusal(lambda: _dask(project.config, cluster, monkeypatch)) == expected
     assert "table" in expected
+
+
+def test_an_empty_table_is_refused_with_the_pandas_message(
+        make_project: Callable[..., Project], cluster: str) -> None:
+    project = make_project(forecast=forecast_frame(CURRENT).iloc[:0])
+    point_at(project, load_tables(project, "sqlite"))
+    cfg = load_config(project.config)
+    expected = _refusal(lambda: run_checks(cfg, engine="pandas", snapshot=False))
+    got = _refusal(lambda: run_checks(cfg, engine="dask", scheduler=cluster, snapshot=False))
+    assert got == expected and "has no rows" in expected
+
+
+def test_a_query_or_a_view_is_read_on_the_client_with_the_same_results(
+        make_project: Callable[..., Project], cluster: str) -> None:
+    """A query has no row ids to order its rows by: the run reads its inputs on the client."""
+    project = make_project(**_breached())
+    url = load_tables(project, "duckdb")
+    import duckdb
+
+    con = duckdb.connect(url.removeprefix("duckdb:///"))
+    con.execute("CREATE VIEW actuals_view AS SELECT * FROM actuals")
+    con.close()
+    point_at(project, url, ("forecast",))
+    text = project.config.read_text().replace("path: data/actuals.csv", (
+        f"sql: {{url: '{url}', table: actuals_view}}")).replace(
+        "history: data/earlier.csv",
+        f"history: {{sql: {{url: '{url}', query: 'select * from earlier'}}}}")
+    project.config.write_text(text)
+    assert sql_parts.order_kind(load_config(project.config).actuals.place,  # type: ignore
+                                "actuals", "actuals.sql") is None
+    compare(_pandas(project.config), run_checks(load_config(project.config), engine="dask",
+                                                scheduler=cluster, snapshot=False))
