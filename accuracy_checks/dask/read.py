@@ -14,9 +14,10 @@ the same exit-2 messages, numbering the file's own lines), and adds two columns:
     the shard of the row's series: a hash of the key columns' text modulo the shard count, the
     same for every input (forecast, actuals, earlier cycles), so a shard holds whole series.
 
-Only local files and folders of files are read in pieces (:func:`local_files`); a table, a
-query, a URL or a Hive-partitioned dataset is read by the pandas readers on the client and then
-split into shards (:mod:`accuracy_checks.dask.run`).
+Only local files and folders of files are read in pieces (:func:`local_files`); a table in
+partitions (:mod:`.sql_parts`, which :func:`read_piece` hands them to); a query, a URL or a
+Hive-partitioned dataset is read by the pandas readers on the client and then split into shards
+(:mod:`accuracy_checks.dask.run`).
 """
 
 from __future__ import annotations
