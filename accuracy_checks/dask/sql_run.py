@@ -78,13 +78,14 @@ def _parts(place: Place, role: str, columns: list[Column], *, start: int,
     return found
 
 
-def _refuse_dates(client: Any, place: Place, columns: list[Column], parts: list[Any],
-                  **filters: Any) -> None:
-    """A table's text date columns refused over their distinct values: the pandas engine's
-    message, from one column of the whole read at a time on a worker."""
+def _refuse_dates(client: Any, place: Place, columns: list[Column], parts: list[Any]) -> None:
+    """A table's text date columns refused over their distinct values (the rows of its
+    filters): the pandas engine's message, from one column of the whole read at a time on a
+    worker."""
     if isinstance(place, list) or not parts:
         return
-    if dates_refused(place.source, columns, role=place.role, key=place.key, **filters):
+    if dates_refused(place.source, columns, role=place.role, key=place.key,
+                     row_filter=parts[0].row_filter, pairs=parts[0].pairs):
         error = client.submit(SqlPart.whole_error, parts[0], columns, pure=False).result()
         if error is not None:
             raise error

@@ -143,13 +143,31 @@ def test_tables_give_the_pandas_results_read_in_partitions_on_the_workers(
     assert counted and max(counted) > 1  # tables read in several partitions
 
 
+@pytest.mark.parametrize("driver", ["adbc", "sqlalchemy"])
 def test_postgresql_tables_give_the_pandas_results(
-        make_project: Callable[..., Project], cluster: str, counted: list[int],
+        driver: str, make_project: Callable[..., Project], cluster: str, counted: list[int],
         pg_url: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    import distributed
+
+    def _without_adbc(on: bool) -> None:
+        """PostgreSQL read through SQLAlchemy (as without ADBC) in this process, or through
+        ADBC again (a nested function: pickled by value for ``Client.run`` on the workers)."""
+        from accuracy_checks.sources import sql as module
+
+        original = module.__dict__.setdefault("_adbc_original", module._adbc)
+        module._adbc = (lambda: None) if on else original  # type: ignore[assignment]
+
     project = make_project(**_breached())
     point_at(project, load_tables(project, "postgresql", pg_url))
-    expected = _pandas(project.config)
-    got = _dask(project.config, cluster, monkeypatch)
+    with distributed.Client(cluster) as client:
+        client.run(_without_adbc, driver == "sqlalchemy")
+        _without_adbc(driver == "sqlalchemy")
+        try:
+            expected = _pandas(project.config)
+            got = _dask(project.config, cluster, monkeypatch)
+        finally:
+            client.run(_without_adbc, False)
+            _without_adbc(False)
     compare(expected, got)
     assert counted and max(counted) > 1
     password = sa.engine.make_url(pg_url).password
