@@ -92,7 +92,9 @@ class SqlPart:
                 stmt = stmt.where(col >= self.low, col < self.high)
         rowid: Any = sa.literal_column(_CTID if self.order == "ctid" else "rowid")
         stmt = stmt.add_columns(rowid.label(_ROWID))
-        return stmt.limit(head) if head is not None else stmt
+        # the dataframe's column types (``head``) come from no row: the converters give every
+        # column its type whatever the rows, and a refusal is never raised on the client
+        return stmt.limit(0) if head is not None else stmt
 
     def read(self, columns: Sequence[Column], *, keys: Sequence[str] = (), n_shards: int = 0,
              rename: dict[str, str] | None = None, text: Sequence[str] = (),

@@ -194,7 +194,7 @@ def _refusal(run: Callable[[], Any]) -> str:
     return str(caught.value)
 
 
-@pytest.mark.parametrize("bad", ["date", "repeated", "offsets"])
+@pytest.mark.parametrize("bad", ["date", "repeated", "offsets", "number"])
 def test_a_table_with_bad_rows_is_refused_with_the_pandas_message(
         bad: str, make_project: Callable[..., Project], cluster: str, counted: list[int],
         monkeypatch: pytest.MonkeyPatch) -> None:
@@ -204,11 +204,14 @@ def test_a_table_with_bad_rows_is_refused_with_the_pandas_message(
         forecast.loc[17, "week"] = "2026-13-45"
     elif bad == "repeated":
         actuals = pd.concat([actuals, actuals.iloc[[40, 3]]], ignore_index=True)
-    else:  # each partition alone holds one UTC offset
+    elif bad == "offsets":  # each partition alone holds one UTC offset
         forecast["issued_on"] = "2026-03-02T00:00:00+01:00"
         forecast.loc[20:, "issued_on"] = "2026-03-02T00:00:00+02:00"
     project = make_project(forecast=forecast, actuals=actuals)
     point_at(project, load_tables(project, "sqlite"))
+    if bad == "number":  # in the first rows (the dataframes' types are taken from no row)
+        with sqlite3.connect(project.data / "warehouse.db") as con:
+            con.execute("UPDATE forecast SET units = 'n/a' WHERE rowid IN (1, 22)")
     expected = _refusal(lambda: _pandas(project.config))
     assert _refusal(lambda: _dask(project.config, cluster, monkeypatch)) == expected
     assert "table" in expected
