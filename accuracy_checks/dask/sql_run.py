@@ -119,6 +119,9 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
     a_cols = actual_columns(config)
     dated = (fc.period, fc.issued)
 
+    # the forecast first, as the pandas engine reads it first (its refusals come first)
+    f_pieces = _parts(f_place, "forecast", f_cols, start=0, candidates=dated)
+    _refuse_dates(client, f_place, f_cols, f_pieces)
     needed = actuals_span(config)
     every_a = _parts(a_place, "actuals", a_cols, start=0, candidates=(ac.period,))
     found = None
@@ -132,8 +135,6 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
     kept = tuple(pd.Timestamp(p) for p in found[-needed:]) if cut and found is not None \
         and needed is not None else None
 
-    f_pieces = _parts(f_place, "forecast", f_cols, start=0, candidates=dated)
-    _refuse_dates(client, f_place, f_cols, f_pieces)
     a_pieces = (_parts(a_place, "actuals", a_cols, start=0, column=ac.period, wanted=kept,
                        candidates=(ac.period,)) if kept is not None else every_a)
     _refuse_dates(client, a_place, a_cols, a_pieces)
