@@ -247,3 +247,22 @@ def test_a_query_or_a_view_is_read_on_the_client_with_the_same_results(
                                 "actuals", "actuals.sql") is None
     compare(_pandas(project.config), run_checks(load_config(project.config), engine="dask",
                                                 scheduler=cluster, snapshot=False))
+
+
+def test_history_from_a_table_and_a_file_rows_repeated_across_them(
+        make_project: Callable[..., Project], cluster: str, counted: list[int],
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    """Two history entries, a table then a Parquet file, sharing a cycle's rows with other
+    values: the pandas engine keeps the last place's row, so must the dask engine (the
+    entries' order in ``__order``)."""
+    project = make_project(**_breached())
+    url = load_tables(project, "duckdb")
+    later = forecast_frame(EARLIER[1], bias=1.1)
+    later.to_parquet(project.data / "later.parquet", row_group_size=7)
+    point_at(project, url, ("forecast", "actuals"))
+    text = project.config.read_text().replace(
+        "history: data/earlier.csv",
+        f"history: [{{sql: {{url: '{url}', table: earlier}}}}, data/later.parquet]")
+    project.config.write_text(text)
+    compare(_pandas(project.config), _dask(project.config, cluster, monkeypatch))
+    assert counted and max(counted) > 1
