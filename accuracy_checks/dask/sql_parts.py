@@ -164,14 +164,16 @@ def order_kind(source: SqlSource, role: str, key: str) -> str | None:
     table = sa.table(name, schema=schema)
     try:
         with sql.connect(source, role, key) as conn:
-            if kind == "ctid":  # (block, line): blocks of the relation below 2**24
+            if kind == "ctid":
+                # a plain table ('r'; a partitioned table's or a parent's rows come from
+                # several relations whose ctids repeat) of fewer than 2**24 blocks
                 quoted = ".".join('"' + p.replace('"', '""') + '"' for p in (schema, name) if p)
-                size = sa.select(sa.func.pg_relation_size(sa.func.to_regclass(quoted))
-                                 / sa.func.current_setting("block_size").cast(sa.BigInteger))
-                blocks = conn.run(size).iloc[0, 0]
-                probe: Any = sa.select(sa.literal_column(_CTID)).select_from(table).limit(1)
-                conn.run(probe)
-                return kind if blocks is not None and int(blocks) < 1 << 24 else None
+                found = conn.run(sa.text(
+                    "SELECT c.relkind = 'r' AND NOT EXISTS (SELECT 1 FROM pg_inherits i WHERE "
+                    "i.inhparent = c.oid) AND pg_relation_size(c.oid) / "
+                    "current_setting('block_size')::bigint < 16777216 FROM pg_class c "
+                    "WHERE c.oid = to_regclass(:t)").bindparams(t=quoted))
+                return kind if len(found) and bool(found.iloc[0, 0]) else None
             rowid: Any = sa.literal_column("rowid")
             bounds = conn.run(sa.select(sa.func.min(rowid), sa.func.max(rowid))
                               .select_from(table))

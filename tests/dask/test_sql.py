@@ -266,3 +266,25 @@ def test_history_from_a_table_and_a_file_rows_repeated_across_them(
     project.config.write_text(text)
     compare(_pandas(project.config), _dask(project.config, cluster, monkeypatch))
     assert counted and max(counted) > 1
+
+
+def test_only_plain_postgresql_tables_are_read_in_partitions(pg_url: str) -> None:
+    """A partitioned table's (or a parent's) rows come from several relations whose ctids
+    repeat: no reading order to give them, so they are read on the client."""
+    from accuracy_checks.config import SqlSource
+
+    engine = sa.create_engine(pg_url, poolclass=sa.pool.NullPool)
+    with engine.begin() as conn:
+        conn.execute(sa.text("CREATE TABLE plain (week DATE, units FLOAT)"))
+        conn.execute(sa.text("CREATE TABLE split (week DATE, units FLOAT) PARTITION BY RANGE "
+                             "(week)"))
+        conn.execute(sa.text("CREATE TABLE split_a PARTITION OF split FOR VALUES FROM "
+                             "('2026-01-01') TO ('2027-01-01')"))
+        conn.execute(sa.text("CREATE TABLE parent (week DATE)"))
+        conn.execute(sa.text("CREATE TABLE child () INHERITS (parent)"))
+        conn.execute(sa.text("CREATE VIEW shown AS SELECT * FROM plain"))
+    engine.dispose()
+    kinds = {t: sql_parts.order_kind(SqlSource(url=pg_url, table=t), "forecast", "forecast.sql")
+             for t in ("plain", "split", "split_a", "parent", "child", "shown")}
+    assert kinds == {"plain": "ctid", "split": None, "split_a": "ctid", "parent": None,
+                     "child": "ctid", "shown": None}
