@@ -1,6 +1,7 @@
-"""Inputs that are not local files, read on the client by the pandas readers, then sharded.
+"""Inputs neither local files nor tables, read on the client by the pandas readers, then sharded.
 
-A table or query (``sql:``), a URL or Hive-partitioned dataset, or frames given in memory are
+A query (``sql:``), a table :mod:`.sql_parts` cannot order (a view, another database), a URL
+or Hive-partitioned dataset, or frames given in memory are
 read by :func:`~accuracy_checks.sources.load.load_inputs` exactly as the pandas engine reads
 them (same rules, same messages), on the client; the canonical frames are then split into the
 shards by the same hash of the series keys and checked on the workers like pieces read there.

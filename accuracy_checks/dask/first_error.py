@@ -8,7 +8,8 @@ several inputs are broken the first refusal it meets may be another one, and whe
 fail, which one is met first is a race. :func:`pandas_order_error` settles it: when the run is
 refused, the inputs the pandas engine reads before the actuals are checked in its order (the
 mapping on the client, each forecast file on a worker, one column at a time:
-:func:`~accuracy_checks.dask.read.whole_file_error`), and the first refusal found wins; when
+:func:`~accuracy_checks.dask.read.whole_file_error`; then a forecast without a data row),
+and the first refusal found wins; when
 they are usable, the refusal met stands (the actuals' and earlier cycles' refusals are met in
 the pandas engine's order: the actuals' pre-reads run before the earlier cycles' reads).
 This runs only on a refused run.
@@ -23,28 +24,37 @@ from typing import Any
 from accuracy_checks.config import Config
 from accuracy_checks.dask.read import Piece, pieces, whole_file_error
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.columns import Column
-from accuracy_checks.sources.files import check_header
+from accuracy_checks.sources.columns import Column, no_rows
+from accuracy_checks.sources.files import check_header, read_csv_columns
 
 __all__ = ["pandas_order_error"]
 
 
-def file_error(piece: Piece, columns: Sequence[Column]) -> InputError | None:
+def file_error(piece: Piece, columns: Sequence[Column]) -> tuple[InputError | None, bool]:
     """The pandas engine's refusal of ``piece``'s whole file (its header, then its columns
-    converted in order), or ``None`` (on a worker)."""
+    converted in order), or ``None``; and whether the file holds a data row (on a worker)."""
     try:
         check_header(piece.file, columns, piece.role)
     except InputError as exc:
-        return exc
-    return whole_file_error(piece, columns)
+        return exc, True
+    error = whole_file_error(piece, columns)
+    if error is not None:
+        return error, True
+    if piece.row_groups is not None:
+        import pyarrow.parquet as pq
+
+        return None, bool(pq.ParquetFile(piece.file).metadata.num_rows)
+    return None, len(read_csv_columns(piece.file, list(columns[:1]), piece.role)) > 0
 
 
 def pandas_order_error(config: Config, client: Any, forecast_files: Sequence[Path],
-                       columns: Sequence[Column], met: InputError) -> InputError:
+                       columns: Sequence[Column], met: InputError,
+                       forecast: object = None) -> InputError:
     """The refusal the pandas engine gives the run: the mapping's or the first forecast
     file's, when they are refused, else ``met`` (the refusal this engine met first).
     ``columns``: the forecast's columns as the readers convert them (configured columns,
-    then the segment columns the files hold)."""
+    then the segment columns the files hold); ``forecast``: the forecast's place when the
+    command line gave it."""
     from accuracy_checks.sources.segments import read_mapping
 
     try:
@@ -57,4 +67,11 @@ def pandas_order_error(config: Config, client: Any, forecast_files: Sequence[Pat
         return exc
     found = client.gather(client.map(file_error, [p for p in firsts if p is not None],
                                      columns=list(columns), pure=False))
-    return next((e for e in found if e is not None), met)
+    first = next((e for e, _ in found if e is not None), None)
+    if first is not None:
+        return first
+    if not any(rows for _, rows in found):  # the readers' refusal of an empty forecast
+        place = forecast or config.forecast.place
+        return no_rows(f"The forecast {place} (config key `forecast.path`)", header=True)
+    return met
+

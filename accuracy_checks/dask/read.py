@@ -14,9 +14,10 @@ the same exit-2 messages, numbering the file's own lines), and adds two columns:
     the shard of the row's series: a hash of the key columns' text modulo the shard count, the
     same for every input (forecast, actuals, earlier cycles), so a shard holds whole series.
 
-Only local files and folders of files are read in pieces (:func:`local_files`); a table, a
-query, a URL or a Hive-partitioned dataset is read by the pandas readers on the client and then
-split into shards (:mod:`accuracy_checks.dask.run`).
+Only local files and folders of files are read in pieces (:func:`local_files`); a table in
+partitions (:mod:`.sql_parts`, which :func:`read_piece` hands them to); a query, a URL or a
+Hive-partitioned dataset is read by the pandas readers on the client and then split into shards
+(:mod:`accuracy_checks.dask.run`).
 """
 
 from __future__ import annotations
@@ -41,8 +42,8 @@ from accuracy_checks.sources.files import (
     why,
 )
 
-__all__ = ["ORDER", "SHARD", "Piece", "date_forms", "local_files", "pieces", "read_piece",
-           "shard_of", "whole_file_error"]
+__all__ = ["ORDER", "SHARD", "Piece", "as_text", "date_forms", "local_files", "pieces",
+           "read_piece", "shard_of", "whole_file_error"]
 
 ORDER = "__order"
 SHARD = "__shard"
@@ -141,6 +142,9 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     names, after ``rename``). ``every``: the input's configured columns, in the readers'
     order, when ``columns`` are only some of them (a refusal then names the file's first
     offending column among all of them, as the pandas engine does: a missing column too)."""
+    if not isinstance(piece, Piece):  # a table's partition (dask/sql_parts.py) reads itself
+        return piece.read(columns, keys=keys, n_shards=n_shards,  # type: ignore[attr-defined]
+                          rename=rename, text=text, head=head, every=every)
     check_header(piece.file, every if every is not None else columns, piece.role)
     wanted = list(dict.fromkeys(c.name for c in columns))
     try:
@@ -172,7 +176,7 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     if n_shards:
         frame[SHARD] = shard_of(frame, keys, n_shards)
     for k in [*keys, *(t for t in text if t in frame.columns)]:
-        frame[k] = _text(frame[k])
+        frame[k] = as_text(frame[k])
     frame[ORDER] = (np.int64(piece.ordinal) << _ROW_BITS) + np.arange(len(frame), dtype=np.int64)
     return frame
 
@@ -248,7 +252,7 @@ def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[s
     return out
 
 
-def _text(column: pd.Series) -> pd.Series:
+def as_text(column: pd.Series) -> pd.Series:
     """A key or segment column as plain text (the converters give categoricals of text);
     missing stays missing. A categorical's categories are taken by code in Arrow (no Python
     string per row)."""

@@ -4,13 +4,15 @@
 (:mod:`accuracy_checks.engine`); drift, waivers and the store record stay the engine's. The
 steps:
 
-1. **pieces** of every local input file (:mod:`.read`); an input that is not a local file or
-   folder (a table, a query, a URL, a Hive-partitioned dataset, a frame given in memory) makes
-   the run read its inputs with the pandas readers on the client, then shard them the same way
-   (:func:`_from_client`);
+1. **pieces** of every local input file (:mod:`.read`); with tables among the inputs, the
+   tables in partitions and the files in pieces (:mod:`.sql_run`); an input that is neither
+   (a query, a URL, a Hive-partitioned dataset, a frame given in memory) makes the run read
+   its inputs with the pandas readers on the client, then shard them the same way
+   (:mod:`.client_read`);
 2. **plan** (:mod:`.plan`): small reductions of every piece on the workers → the run's issue
-   date, the periods read, the windows, each cycle's first period; the archived cycles and the
-   mapping are read on the client;
+   date, the periods read, the windows, each cycle's first period; the mapping is read on the
+   client, the archived cycles' snapshots are chosen there and read in pieces on the workers
+   (:mod:`.archived`);
 3. **shards**: every input as a dask dataframe with ``__shard`` (a hash of the series keys),
    shuffled into the same number of partitions by it, so partition *i* of each input holds
    the same whole series;
@@ -18,6 +20,8 @@ steps:
    and coverage checks (:mod:`.rows`, :mod:`.coverage`), the accuracy stage
    (:mod:`.accuracy`), the segment names, and the snapshot's part (:mod:`.snapshot`);
 5. **merge** as a tree reduction, **finish** on the client: the pandas engine's results.
+
+A refused run gets the pandas engine's refusal (:mod:`.first_error`).
 """
 
 from __future__ import annotations
@@ -38,6 +42,7 @@ from accuracy_checks.dask.merge import DaskRun
 from accuracy_checks.dask.read import Piece, PieceReader, local_files, piece_frame, pieces
 from accuracy_checks.dask.shards import Plan
 from accuracy_checks.errors import ConfigError, InputError, UsageError
+from accuracy_checks.sources.columns import no_rows
 from accuracy_checks.sources.load import ArchiveReader, Progress, quiet
 from accuracy_checks.sources.memory import GivenFrames
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
@@ -83,16 +88,25 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
     t0 = time.perf_counter()
     n_workers = max(len(client.scheduler_info().get("workers", {})), 1)
     places = None if frames is not None else _places(config, forecast_path, actuals_path)
-    if places is None:
+    job = None
+    if places is None and frames is None:  # tables among the inputs: read in partitions
+        from accuracy_checks.dask.sql_run import sql_job
+
+        job = sql_job(config, client, forecast_path=forecast_path, actuals_path=actuals_path,
+                      progress=progress, archive=archive, n_workers=n_workers,
+                      refuse_offsets=_refuse_mixed_offsets)
+    if job is None and places is None:
         from accuracy_checks.dask.client_read import from_client
 
         progress("dask engine: inputs read on the client (not local files), then sharded")
         job = from_client(config, client, forecast_path=forecast_path,
                           actuals_path=actuals_path, progress=progress, archive=archive,
                           frames=frames, n_workers=n_workers)
+    if job is not None:
         progress(f"dask engine: plan and shards ready in {time.perf_counter() - t0:.1f} s "
                  f"({job.n_shards} shards on {n_workers} workers)")
         return M.run_shards(config, client, job, progress=progress, snapshot=snapshot)
+    assert places is not None
     try:
         job = _from_pieces(config, client, places, forecast_path=forecast_path,
                            actuals_path=actuals_path,
@@ -109,7 +123,8 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
                                                                   "forecast")
         except UsageError as header:
             raise header from exc
-        first = pandas_order_error(config, client, places[0], columns, exc)
+        first = pandas_order_error(config, client, places[0], columns, exc,
+                                   forecast=forecast_path)
         if first is exc:
             raise
         raise first from exc
@@ -150,8 +165,14 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
                                    ([p for _, p in h_pieces], forecast_columns(config))])
     fsum = P.combine_forecast(client.gather(client.map(P.forecast_summary, f_pieces,
                                                        config=config, pure=False)))
+    if fsum.rows == 0:  # the readers' refusal (sources/files.py)
+        raise no_rows(f"The forecast {forecast_path or config.forecast.place} "
+                      "(config key `forecast.path`)", header=True)
     asums = client.gather(client.map(P.actuals_summary, a_pieces, config=config,
                                      periods=kept, pure=False))
+    if not cut and sum(s.rows for s in asums) == 0:
+        raise no_rows(f"The actuals {actuals_path or config.actuals.place} "
+                      "(config key `actuals.path`)", header=True)
     starts_parts = client.gather(client.map(P.history_starts, [p for _, p in h_pieces],
                                             config=config, pure=False))
     with_value = pd.unique(pd.concat([pd.Series(s.with_value) for s in asums]).to_numpy()) \

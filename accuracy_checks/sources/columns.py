@@ -69,6 +69,13 @@ class Column:
     fmt: str | None = None  # dates: the strftime format (None: ISO 8601)
 
 
+def no_rows(where: str, *, header: bool = False) -> InputError:
+    """The refusal of an input without a data row; ``where`` names it as the messages do
+    (``The actuals data/actuals.csv (config key `actuals.path`)``)."""
+    has = "has a header but no rows" if header else "has no rows"
+    return InputError(f"{where} {has}; an input without data cannot be checked.")
+
+
 def refuse_missing(columns: Sequence[Column], present: Sequence[object], where: str,
                    fix: str) -> None:
     """Refuse an input (``where``: "forecast file x.csv", "mapping table t …") whose columns

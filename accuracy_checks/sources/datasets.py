@@ -48,7 +48,7 @@ import pandas as pd
 from accuracy_checks.config import Url
 from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.columns import Column, convert, refuse_missing
+from accuracy_checks.sources.columns import Column, convert, no_rows, refuse_missing
 from accuracy_checks.sources.dataset_filters import DateFilter, PairFilter, choose, row_expression
 
 __all__ = ["CONNECT_TIMEOUT_S", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter", "PairFilter",
@@ -421,10 +421,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
         data._tmp()  # the downloaded file is read: remove it now
     # (grouped over the rows with a value, none is no error: the full read names an empty one)
     if len(frame) == 0 and not allow_empty and not (grouped and present is not None):
-        raise InputError(
-            f"The {role} {data.shown} (config key `{key}`) has no rows; "
-            f"a {role} with no data cannot be checked."
-        )
+        raise no_rows(f"The {role} {data.shown} (config key `{key}`)")
     out: dict[str, pd.Series] = {}
     shown = Path(data.shown)
     for c in [*columns, *([] if grouped else extra)]:

@@ -38,7 +38,7 @@ import pandas as pd
 from accuracy_checks.config import Place, SqlSource, Url
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets, sql
-from accuracy_checks.sources.columns import SHOWN, Column, convert, refuse_missing
+from accuracy_checks.sources.columns import SHOWN, Column, convert, no_rows, refuse_missing
 
 __all__ = ["PARQUET", "READ_ERRORS", "check_header", "columns_of", "file_header", "is_timestamp",
            "list_files", "read_columns", "sql_key"]
@@ -126,10 +126,7 @@ def read_columns(path: Place, columns: Sequence[Column], *, role: str, key: str,
              for f in list_files(path, role, key)]
     frame = parts[0] if len(parts) == 1 else pd.concat(parts, ignore_index=True)
     if len(frame) == 0 and not allow_empty:
-        raise InputError(
-            f"The {role} {path} (config key `{key}`) has a header but no rows; "
-            f"a {role} with no data cannot be checked."
-        )
+        raise no_rows(f"The {role} {path} (config key `{key}`)", header=True)
     return frame.rename(columns={c.name: c.canonical for c in columns if c.canonical})
 
 

@@ -40,7 +40,7 @@ import pandas as pd
 from accuracy_checks.config import Config
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import frames as F
-from accuracy_checks.sources.columns import Column, convert, refuse_missing, to_key
+from accuracy_checks.sources.columns import Column, convert, no_rows, refuse_missing, to_key
 from accuracy_checks.sources.readers import (
     actual_columns,
     forecast_columns,
@@ -145,8 +145,7 @@ class Given:
 
     def refuse_empty(self, frame: pd.DataFrame) -> None:
         if len(frame) == 0:
-            raise InputError(f"The {self.label} has no rows; a {self.role} with no data "
-                             "cannot be checked.")
+            raise no_rows(f"The {self.label}")
 
     def info(self, columns: Sequence[str]) -> dict[str, object]:
         """The frame's entry in a run's ``info`` (module docstring: fingerprints)."""

@@ -47,11 +47,12 @@ from pandas.errors import OutOfBoundsDatetime
 from accuracy_checks.config import SqlSource
 from accuracy_checks.config.urls import expand_env, mask_secrets
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.columns import Column, convert, refuse_missing
+from accuracy_checks.sources.columns import Column, convert, no_rows, refuse_missing
 from accuracy_checks.sources.sql_arrow import arrow_column, libpq_uri
 
-__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "cycle_starts", "distinct_rows",
-           "read_sql_columns", "sql_columns"]
+__all__ = ["CONNECT_TIMEOUT_S", "actual_periods", "check_columns", "connect", "converted",
+           "cycle_starts", "date_kind", "distinct_rows", "read_sql_columns", "sql_columns",
+           "statement"]
 
 #: seconds a connection to a database may take before the run gives up (exit 2)
 CONNECT_TIMEOUT_S = 10
@@ -251,7 +252,7 @@ class _Connection:
 
 
 @contextmanager
-def _connect(source: SqlSource, role: str, key: str) -> Iterator[_Connection]:
+def connect(source: SqlSource, role: str, key: str) -> Iterator[_Connection]:
     conn = _Connection(source, role, key)
     conn.open()
     try:
@@ -293,7 +294,7 @@ def _header(conn: _Connection) -> list[str]:
     return [str(c) for c in conn.run(stmt).columns]
 
 
-def _check_columns(conn: _Connection, columns: Sequence[Column]) -> list[str]:
+def check_columns(conn: _Connection, columns: Sequence[Column]) -> list[str]:
     present = _header(conn)
     refuse_missing(columns, present, f"{conn.role} {conn.source} (config key `{conn.key}`)",
                    "Fix the column name in the config or in the table (names are matched as "
@@ -301,7 +302,7 @@ def _check_columns(conn: _Connection, columns: Sequence[Column]) -> list[str]:
     return present
 
 
-def _date_kind(conn: _Connection, name: str) -> type | None:
+def date_kind(conn: _Connection, name: str) -> type | None:
     """``dt.date`` or ``dt.datetime`` when column ``name`` holds dates or naive timestamps
     (so a filter on it can be pushed into the WHERE clause), else ``None``."""
     import sqlalchemy as sa
@@ -339,7 +340,7 @@ def _params(kind: type, dates: Sequence[pd.Timestamp]) -> list[Any]:
 
 def sql_columns(source: SqlSource, role: str, key: str) -> list[str]:
     """The column names of a table or query."""
-    with _connect(source, role, key) as conn:
+    with connect(source, role, key) as conn:
         return _header(conn)
 
 
@@ -354,44 +355,55 @@ def read_sql_columns(source: SqlSource, columns: Sequence[Column], *, role: str,
     only the rows on those dates are read (``column IN (…)``, bound parameters). ``pairs`` =
     (issue-date column, issue date → dates of ``row_filter``'s column): when both columns are
     dates, only those pairs too (``issued = … AND column IN (…) OR …``)."""
+    with connect(source, role, key) as conn:
+        check_columns(conn, columns)
+        raw = conn.run(statement(conn, columns, row_filter, pairs),
+                       {c.name: c.kind for c in reversed(columns)})
+    if len(raw) == 0 and not allow_empty:
+        raise no_rows(f"The {role} {source} (config key `{key}`)")
+    return converted(raw, source, columns, role)
+
+
+def statement(conn: _Connection, columns: Sequence[Column],
+              row_filter: tuple[str, Sequence[pd.Timestamp]] | None = None,
+              pairs: tuple[str, Mapping[pd.Timestamp, Sequence[pd.Timestamp]]] | None = None
+              ) -> Any:
+    """The Core ``SELECT`` of :func:`read_sql_columns` (its filters as bound parameters)."""
     import sqlalchemy as sa
 
     names = list(dict.fromkeys(c.name for c in columns))
-    with _connect(source, role, key) as conn:
-        _check_columns(conn, columns)
-        src = _from(source, names)
-        stmt = sa.select(*[src.c[n] for n in names])
-        if row_filter is not None:
-            kind = _date_kind(conn, row_filter[0])
-            if kind is not None:
-                col = src.c[row_filter[0]]
-                stmt = stmt.where(col.in_(_params(kind, row_filter[1])))
-                issued = _date_kind(conn, pairs[0]) if pairs and any(pairs[1].values()) else None
-                if pairs is not None and issued is not None:
-                    stmt = stmt.where(sa.or_(*[
-                        sa.and_(src.c[pairs[0]] == _params(issued, [i])[0],
-                                col.in_(_params(kind, dates)))
-                        for i, dates in pairs[1].items() if len(dates)]))
-        raw = conn.run(stmt, {c.name: c.kind for c in reversed(columns)})
-    if len(raw) == 0 and not allow_empty:
-        raise InputError(
-            f"The {role} {source} (config key `{key}`) has no rows; a {role} with no data "
-            "cannot be checked."
-        )
+    src = _from(conn.source, [*names, *(f[0] for f in (row_filter, pairs) if f is not None)])
+    stmt = sa.select(*[src.c[n] for n in names])
+    if row_filter is not None:
+        kind = date_kind(conn, row_filter[0])
+        if kind is not None:
+            col = src.c[row_filter[0]]
+            stmt = stmt.where(col.in_(_params(kind, row_filter[1])))
+            issued = date_kind(conn, pairs[0]) if pairs and any(pairs[1].values()) else None
+            if pairs is not None and issued is not None:
+                stmt = stmt.where(sa.or_(*[
+                    sa.and_(src.c[pairs[0]] == _params(issued, [i])[0],
+                            col.in_(_params(kind, dates)))
+                    for i, dates in pairs[1].items() if len(dates)]))
+    return stmt
+
+
+def converted(raw: pd.DataFrame, source: SqlSource, columns: Sequence[Column],
+              role: str) -> pd.DataFrame:
+    """Rows read by :func:`statement` converted by the files' converters, canonical names."""
     shown: Any = source  # messages name it by its str(): the table or query, password masked
     out: dict[str, pd.Series] = {}
     for c in columns:
         if c.name not in out:
             out[c.name] = convert(raw[c.name], shown, c, role, 1)
-    frame = pd.DataFrame(out)
-    return frame.rename(columns={c.name: c.canonical for c in columns if c.canonical})
+    return pd.DataFrame(out).rename(columns={c.name: c.canonical for c in columns if c.canonical})
 
 
 def _grouped(source: SqlSource, role: str, key: str, names: Sequence[str],
              build: Callable[[Any, _Connection], Any | None]) -> pd.DataFrame | None:
     """Run the statement ``build(selectable, conn)`` makes (``None``: give up) when every
     column of ``names`` exists; ``None`` otherwise (the full read reports the problem)."""
-    with _connect(source, role, key) as conn:
+    with connect(source, role, key) as conn:
         if not set(names) <= set(_header(conn)):
             return None
         stmt = build(_from(source, names), conn)
@@ -405,7 +417,7 @@ def cycle_starts(source: SqlSource, issued: str, period: str, *, role: str = "hi
     import sqlalchemy as sa
 
     def build(src: Any, conn: _Connection) -> Any | None:
-        if _date_kind(conn, issued) is None or _date_kind(conn, period) is None:
+        if date_kind(conn, issued) is None or date_kind(conn, period) is None:
             return None
         return sa.select(src.c[issued].label("i"), sa.func.min(src.c[period]).label("p")
                          ).group_by(src.c[issued])
@@ -453,7 +465,7 @@ def actual_periods(source: SqlSource, period: str, value: str) -> pd.DatetimeInd
     import sqlalchemy as sa
 
     def build(src: Any, conn: _Connection) -> Any | None:
-        if _date_kind(conn, period) is None:
+        if date_kind(conn, period) is None:
             return None
         skip = _index_skip(conn, period, value)
         if skip is not None:

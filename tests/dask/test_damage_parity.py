@@ -16,6 +16,7 @@ from pathlib import Path
 
 import numpy as np
 import pandas as pd
+import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
@@ -99,3 +100,21 @@ def test_several_broken_inputs_get_the_pandas_engines_refusal(
     project = make_project(forecast=frame, actuals=actuals, earlier=earlier)
     project.write("products.csv", mapping)
     assert_same_answer(project, cluster, [*forecast_kinds, *actuals_kinds])
+
+
+@pytest.mark.parametrize("empty", ["forecast", "actuals", "earlier", "forecast+actuals"])
+def test_an_input_with_a_header_and_no_rows_gets_the_same_answer(
+        make_project: Callable[..., Project], cluster: str, empty: str) -> None:
+    """An empty forecast or actuals file is refused alike (the dask engine once crashed on
+    the one and passed the other); empty earlier cycles are no error on either engine."""
+    frames = {"forecast": forecast_frame(CURRENT), "actuals": actuals_frame(CURRENT),
+              "earlier": pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)}
+    for name in empty.split("+"):
+        frames[name] = frames[name].iloc[:0]
+    project = make_project(**frames)
+    answer = _answer(project.config, "pandas", None)
+    assert_same_answer(project, cluster, [empty])
+    assert isinstance(answer, tuple) == (empty != "earlier")
+    if isinstance(answer, tuple):
+        first = empty.split("+")[0]
+        assert answer[1].startswith(f"The {first} ") and "has a header but no rows" in answer[1]
