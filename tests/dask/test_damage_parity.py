@@ -17,7 +17,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, assume, given, settings
 from hypothesis import strategies as st
 
 from accuracy_checks import load_config, run_checks
@@ -41,6 +41,14 @@ def _answer(config: Path, engine: str, scheduler: str | None) -> RunReport | tup
         return run_checks(cfg, engine=engine, scheduler=scheduler, snapshot=False)
     except AccuracyChecksError as exc:
         return type(exc).__name__, str(exc)
+
+
+def one_known_order(kinds: list[str]) -> bool:
+    """Whether the engines meet the damage in one order: a segment column missing from the
+    mapping is met by the dask engine in the shards, before repeated actuals or a broken
+    earlier cycle it would name first on the pandas engine (docs/engines.md, "Not
+    distributed yet"), so that damage is drawn alone."""
+    return "mapping_without_segment" not in kinds or len(set(kinds)) == 1
 
 
 def assert_same_answer(project: Project, cluster: str, kinds: list[str]) -> None:
@@ -67,6 +75,7 @@ def test_damaged_forecasts_same_answer_on_both_engines(
 def test_damaged_actuals_mappings_and_earlier_cycles_same_answer_on_both_engines(
         make_project: Callable[..., Project], cluster: str, kinds: list[str],
         seed: int) -> None:
+    assume(one_known_order(kinds))
     rng = np.random.default_rng(seed)
     actuals = actuals_frame(CURRENT).astype(object)
     mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
@@ -88,6 +97,7 @@ def test_several_broken_inputs_get_the_pandas_engines_refusal(
         actuals_kinds: list[str], seed: int) -> None:
     """The forecast and the actuals (or mapping, or earlier cycles) damaged at once: the
     refusal named is the one the pandas engine meets first (dask/first_error.py)."""
+    assume(one_known_order(actuals_kinds))
     rng = np.random.default_rng(seed)
     frame = forecast_frame(CURRENT)
     for kind in forecast_kinds:
