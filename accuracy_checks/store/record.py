@@ -92,12 +92,13 @@ _ENCODER = json.JSONEncoder(sort_keys=True, separators=(",", ":"), allow_nan=Fal
                             ensure_ascii=False, default=str)
 
 
-def _c_encoder() -> Callable[[Any], str] | None:
+def _c_chunks() -> Callable[[Any, int], Sequence[str]] | None:
     """``_ENCODER.encode`` without its per-call set-up: the C encoder that ``encode`` builds on
     every call (same default, separators, key order and float repr, so the same text), built
-    once. No check for circular containers (they end in ``RecursionError`` either way).
-    ``None`` where the C accelerator is missing or its private signature differs; the
-    self-check below makes any difference fall back to ``_ENCODER.encode``."""
+    once; it returns the text in chunks. No check for circular containers (they end in
+    ``RecursionError`` either way). ``None`` where the C accelerator is missing or its
+    private signature differs; the self-check makes any difference fall back to
+    ``_ENCODER.encode``."""
     from json import encoder as E
 
     make = getattr(E, "c_make_encoder", None)
@@ -106,17 +107,23 @@ def _c_encoder() -> Callable[[Any], str] | None:
     try:
         step = make(None, _ENCODER.default, E.encode_basestring, None, ":", ",", True, False,
                     False)
-
-        def encode(value: Any) -> str:
-            return "".join(step(value, 0))
-
         probe = {"b": [1, 2.5, -0.0, 1e16, None, True, "é\"\n"], "a": {"2": (3,)}}
-        return encode if encode(probe) == _ENCODER.encode(probe) else None
+        return step if "".join(step(probe, 0)) == _ENCODER.encode(probe) else None
     except Exception:
         return None
 
 
-_encode: Callable[[Any], str] = _c_encoder() or _ENCODER.encode
+def _one_chunk(value: Any, _level: int = 0) -> Sequence[str]:
+    return (_ENCODER.encode(value),)
+
+
+#: the canonical JSON of a value in chunks (call with the value and 0)
+_chunks: Callable[[Any, int], Sequence[str]] = _c_chunks() or _one_chunk
+
+
+def _encode(value: Any) -> str:
+    """The canonical JSON of ``value``; ``ValueError`` for NaN or an infinity."""
+    return "".join(_chunks(value, 0))
 
 
 def _finite(value: Any) -> Any:
@@ -283,9 +290,10 @@ def chain_digest(previous: str | None, run: dict[str, Any],
     # row is another kind of sequence (e.g. a database row)
     if not isinstance(rows, list) or not set(map(type, rows)) <= {tuple, list}:
         rows = [r if isinstance(r, tuple | list) else list(r) for r in rows]
-    body = _encode(rows)
-    payload = f"{previous or ''}\n{head}\n{body}"
-    return hashlib.sha256(payload.encode("utf-8")).hexdigest()
+    digest = hashlib.sha256(f"{previous or ''}\n{head}\n".encode())
+    for chunk in _chunks(rows, 0):  # the body hashed as encoded, never copied whole
+        digest.update(chunk.encode("utf-8"))
+    return digest.hexdigest()
 
 
 def _canon(value: Any) -> Any:
