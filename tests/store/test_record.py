@@ -137,3 +137,25 @@ def test_a_store_written_before_and_after_verifies(store_url: str) -> None:
         assert store.verify() == []
         stored = store.results_of("golden")
     assert [r["segment"] for r in stored] == [r[3] for r in OLD_ROWS]
+
+
+def test_none_is_bound_as_null_through_a_registered_adapter(
+        tmp_path: Any, monkeypatch: pytest.MonkeyPatch) -> None:
+    import sqlite3
+
+    from accuracy_checks.store.database import _bind_none_directly
+
+    key = (type(None), sqlite3.PrepareProtocol)
+    mine = {}.get
+    monkeypatch.setitem(sqlite3.adapters, key, mine)
+    _bind_none_directly()  # someone else's adapter of None stays
+    assert sqlite3.adapters[key] is mine
+    monkeypatch.delitem(sqlite3.adapters, key)
+    with open_store(f"sqlite:///{tmp_path / 'audit.db'}") as store:
+        assert key in sqlite3.adapters
+        store.record_run(make_report(n=2))
+        with store.db.read() as conn:
+            nulls = conn.exec_driver_sql(
+                "SELECT COUNT(*) FROM results WHERE reason IS NULL AND waiver_id IS NULL "
+                "AND typeof(reason) = 'null'").scalar()
+    assert nulls == 2
