@@ -3,7 +3,7 @@
 Not part of the test suite (speed is measured here, never in timed unit tests). Usage, from
 the repository root::
 
-    .venv/bin/python bench/record_bench.py                      # SQLite, 50 000 results
+    .venv/bin/python bench/record_bench.py                      # SQLite, both kinds
     .venv/bin/python bench/record_bench.py --results 50000 --repeat 5 --kind examples
     .venv/bin/python bench/record_bench.py --url postgresql+psycopg://user:pw@127.0.0.1:5432/db
 
@@ -14,10 +14,11 @@ It prints the best and the median wall time of ``record_run`` and of its parts: 
 results into rows (``result_rows``), the digest of the chain (``chain_digest``) and the insert
 itself (the rest of the transaction, commit included).
 
-``--kind plain`` (default) records results as the store tests write them (a measure, a value,
-two levels, a short message, small details on every other one); ``--kind examples`` gives each
+``--kind plain`` records results as the store tests write them (a measure, a value, two
+levels, a short message, small details on every other one); ``--kind examples`` gives each
 result three worst-offender examples and a details dict with the cycles used, as accuracy
-results carry them.
+results carry them. By default both kinds are timed, one after the other, each in a store of
+its own.
 """
 
 from __future__ import annotations
@@ -66,21 +67,24 @@ def main() -> int:
     parser = argparse.ArgumentParser(description=__doc__.split("\n\n")[0])
     parser.add_argument("--results", type=int, default=50_000)
     parser.add_argument("--repeat", type=int, default=5)
-    parser.add_argument("--kind", choices=("plain", "examples"), default="plain")
+    parser.add_argument("--kind", choices=("plain", "examples"), nargs="+",
+                        default=["plain", "examples"])
     parser.add_argument("--url", help="a PostgreSQL URL (default: a temporary SQLite file)")
     args = parser.parse_args()
-    found = results(args.results, args.kind)
-    with tempfile.TemporaryDirectory() as tmp:
-        url, drop = _store_url(args.url, Path(tmp))
-        try:
-            times = _measure(url, found, args.repeat)
-        finally:
-            drop()
     where = "PostgreSQL" if args.url else "SQLite"
-    print(f"record_run of {args.results:,} results ({args.kind}) on {where}, "
-          f"{args.repeat} runs:")
-    for part, values in times.items():
-        print(f"  {part:<13} best {min(values):.3f} s   median {statistics.median(values):.3f} s")
+    for kind in args.kind:
+        found = results(args.results, kind)
+        with tempfile.TemporaryDirectory() as tmp:
+            url, drop = _store_url(args.url, Path(tmp))
+            try:
+                times = _measure(url, found, args.repeat)
+            finally:
+                drop()
+        print(f"record_run of {args.results:,} results ({kind}) on {where}, "
+              f"{args.repeat} runs:")
+        for part, values in times.items():
+            print(f"  {part:<14} best {min(values):.3f} s   "
+                  f"median {statistics.median(values):.3f} s")
     return 0
 
 
@@ -96,7 +100,7 @@ def _measure(url: str, found: list[CheckResult], repeat: int) -> dict[str, list[
             t0 = time.perf_counter()
             rows = result_rows(report.results)
             t1 = time.perf_counter()
-            run = run_row(report, config=None, fingerprints=None, recorded_at=_now())
+            run = run_row(report, config=None, fingerprints=None, recorded_at=_now(), rows=rows)
             chain_digest(None, run, rows)
             t2 = time.perf_counter()
             c2 = time.process_time()

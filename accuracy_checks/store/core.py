@@ -163,9 +163,9 @@ class Store:
         (:meth:`finish_snapshots`).
         """
         recorded_at = datetime.now(UTC)
-        run = run_row(report, config=config, fingerprints=fingerprints,
-                      recorded_at=recorded_at)
         rows = result_rows(report.results)
+        run = run_row(report, config=config, fingerprints=fingerprints,
+                      recorded_at=recorded_at, rows=rows)
         root = archive if archive is not None else (
             config.archive if config is not None else
             snapshot.root if snapshot is not None else None)
