@@ -227,7 +227,7 @@ class Store:
                              "copy")
         if progress and retired:
             progress(f"moved {len(retired)} unrecorded snapshot(s) of cycle {report.cycle} "
-                     f"(left by interrupted runs) to {retired[0].parent}")
+                     f"(left by interrupted runs) to {_folder_of(retired[0])}")
         return RecordedRun(report.run_id, report.cycle, attempt, placed, tuple(retired))
 
     def archived_attempts(self) -> dict[str, int]:
@@ -420,3 +420,9 @@ def _normal(row: Any) -> tuple[Any, ...]:
     if out[_VALUE] is not None:
         out[_VALUE] = float(out[_VALUE])
     return tuple(out)
+
+
+def _folder_of(moved: Path | str) -> str:
+    """The folder of a moved snapshot: a local path's parent, or a URL's prefix (object
+    storage gives the moved objects as URLs, as shown)."""
+    return str(moved.parent) if isinstance(moved, Path) else str(moved).rsplit("/", 1)[0]

@@ -363,3 +363,24 @@ def test_check_usable_refuses_an_object_in_place_of_a_prefix(
         out.write(b"not a prefix")
     with pytest.raises(ArchiveError, match="names an object, not a prefix"):
         memory_archive.check_usable(write=False)
+
+
+def test_record_run_says_where_unrecorded_remote_snapshots_went(
+        memory_archive: RemoteArchive, tmp_path: Path) -> None:
+    """A snapshot left on object storage by an interrupted run is moved aside when its
+    number is given to a new run, and the progress line names the folder (a URL prefix)."""
+    from accuracy_checks.results import RunReport
+
+    frame = forecast_frame(EARLIER[0]).rename(columns={"week": F.PERIOD})
+    staged = memory_archive.stage(frame, pd.Timestamp(FIRST))
+    staged.place(1, run_id="interrupted")
+    staged.publish()  # a final object the store never recorded
+    said: list[str] = []
+    report = RunReport(run_id="r1", cycle=FIRST, attempt=None, results=[],
+                       started_at="2026-03-02T06:00:00+00:00",
+                       finished_at="2026-03-02T06:01:00+00:00")
+    with open_store(f"sqlite:///{tmp_path / 'audit.db'}") as store:
+        store.record_run(report, archive=memory_archive.location, progress=said.append)
+    assert report.attempt == 1
+    assert len(said) == 1 and said[0].startswith(f"moved 1 unrecorded snapshot(s) of cycle {FIRST}")
+    assert said[0].endswith(f"to {memory_archive.location}/.orphans/cycle={FIRST}")
