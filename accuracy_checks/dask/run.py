@@ -4,10 +4,11 @@
 (:mod:`accuracy_checks.engine`); drift, waivers and the store record stay the engine's. The
 steps:
 
-1. **pieces** of every local input file (:mod:`.read`); an input that is not a local file or
-   folder (a table, a query, a URL, a Hive-partitioned dataset, a frame given in memory) makes
-   the run read its inputs with the pandas readers on the client, then shard them the same way
-   (:func:`_from_client`);
+1. **pieces** of every input file, local or of a dataset (a Hive-partitioned folder, object
+   storage: :mod:`.places`, :mod:`.stores`, :mod:`.read`); an input the workers cannot read (a
+   table, a query, a ``memory://`` or ``https://`` URL, a frame given in memory) makes the run
+   read its inputs with the pandas readers on the client, then shard them the same way
+   (:mod:`.client_read`);
 2. **plan** (:mod:`.plan`): small reductions of every piece on the workers → the run's issue
    date, the periods read, the windows, each cycle's first period; the archived cycles and the
    mapping are read on the client;
