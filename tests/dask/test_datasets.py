@@ -58,21 +58,23 @@ def part(frame: pd.DataFrame, kind: str = "parquet", row_group: int = 200) -> by
 
 
 def lake(forecast: pd.DataFrame, history: pd.DataFrame, actuals: pd.DataFrame,
-         kind: str = "parquet", row_group: int = 200, split: int = 2) -> dict[str, bytes]:
-    """The inputs as a lake (relative path → bytes): the forecast and the earlier cycles
-    partitioned by issue date, the actuals by period (the partition column only in the
-    folder names), each partition in ``split`` files; a damaged file in a partition of a
-    cycle issued long before the span."""
+         kind: str = "parquet", row_group: int = 200, split: int = 2,
+         forecast_by: tuple[str, ...] = ("issued_on",)) -> dict[str, bytes]:
+    """The inputs as a lake (relative path → bytes): the forecast partitioned by
+    ``forecast_by`` (issue date, and a key column too), the earlier cycles by issue date, the
+    actuals by period (the partition columns only in the folder names), each partition in
+    ``split`` files; a damaged file in a partition of a cycle issued long before the span."""
     ext = "csv" if kind == "csv" else "parquet"
     files: dict[str, bytes] = {}
-    for name, frame, by in (("forecast", forecast, "issued_on"),
-                            ("history", history, "issued_on"), ("actuals", actuals, "week")):
-        for value, rows in frame.groupby(by, sort=False):
+    for name, frame, by in (("forecast", forecast, list(forecast_by)),
+                            ("history", history, ["issued_on"]), ("actuals", actuals, ["week"])):
+        for values, rows in frame.groupby(by, sort=False):
+            folder = "/".join(f"{n}={v}" for n, v in zip(by, values, strict=True))
             rows = rows.drop(columns=by)
             cuts = [len(rows) * i // split for i in range(split + 1)]
             for i, chunk in enumerate(rows.iloc[a:b] for a, b in itertools.pairwise(cuts)):
                 if len(chunk):
-                    files[f"{name}/{by}={value}/part-{i}.{ext}"] = part(chunk, kind, row_group)
+                    files[f"{name}/{folder}/part-{i}.{ext}"] = part(chunk, kind, row_group)
     files[f"history/issued_on={OLD}/part-0.{ext}"] = GARBAGE
     return files
 
@@ -152,10 +154,14 @@ def test_the_demo_as_a_partitioned_lake(demo: Path, cluster: str,
 @pytest.mark.parametrize("kind", ["parquet", "csv"])
 def test_the_test_project_as_a_lake(make_project: Callable[..., Project], cluster: str,
                                     kind: str) -> None:
+    """The forecast partitioned by issue date and store (a key read from the folder names, as
+    text), in files of several pieces."""
     project = make_project(**BREACHED)
     data = project.data
     write(project.root / "lake", lake(_csv(data / "forecast.csv"), _csv(data / "earlier.csv"),
-                                      _csv(data / "actuals.csv"), kind, row_group=3))
+                                      _csv(data / "actuals.csv"), kind, row_group=3,
+                                      forecast_by=("issued_on", "store")))
+    assert (project.root / "lake/forecast/issued_on=2026-03-02/store=S1").is_dir()
     config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
     pandas_report, dask_report = both(config, cluster)
     assert pandas_report.status == "fail"
@@ -217,3 +223,51 @@ def test_a_bad_value_is_refused_with_the_dataset_readers_message(
     pandas_message, dask_message = _messages(config, cluster)
     assert "twelve" in pandas_message
     assert dask_message == pandas_message
+
+
+def test_mixed_utc_offsets_across_the_files_of_a_dataset(
+        make_project: Callable[..., Project], cluster: str) -> None:
+    """A CSV dataset whose files each carry one UTC offset in the period column, but not the
+    same one: the pandas engine converts the dataset's column as one and refuses it; so does
+    the dask engine, with the same message."""
+    project = make_project(**BREACHED)
+    data = project.data
+    forecast = _csv(data / "forecast.csv")
+    files = lake(forecast, _csv(data / "earlier.csv"), _csv(data / "actuals.csv"), "csv")
+    first = forecast.iloc[: len(forecast) // 2].drop(columns="issued_on")
+    rest = forecast.iloc[len(forecast) // 2:].drop(columns="issued_on")
+    issued = forecast["issued_on"].iloc[0]
+    files[f"forecast/issued_on={issued}/part-0.csv"] = part(
+        first.assign(week=first["week"] + "T00:00:00+01:00"), "csv")
+    files[f"forecast/issued_on={issued}/part-1.csv"] = part(
+        rest.assign(week=rest["week"] + "T00:00:00+02:00"), "csv")
+    write(project.root / "lake", files)
+    config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
+    pandas_message, dask_message = _messages(config, cluster)
+    assert "offset" in pandas_message, pandas_message
+    assert dask_message == pandas_message
+
+
+def test_a_memory_url_stays_on_the_client(make_project: Callable[..., Project],
+                                          cluster: str) -> None:
+    """A memory file system lives in one process: its inputs are read on the client (the
+    progress says so), with the same results."""
+    import fsspec
+
+    project = make_project(**BREACHED)
+    data = project.data
+    memory = fsspec.filesystem("memory")
+    base = f"lake-{id(project)}"
+    for rel, blob in lake(_csv(data / "forecast.csv"), _csv(data / "earlier.csv"),
+                          _csv(data / "actuals.csv")).items():
+        memory.pipe(f"/{base}/{rel}", blob)
+    try:
+        config = point(project.config, PROJECT_PATHS, f"memory://{base}")
+        lines: list[str] = []
+        pandas_report = run_checks(load_config(config), engine="pandas", snapshot=False)
+        dask_report = run_checks(load_config(config), engine="dask", scheduler=cluster,
+                                 snapshot=False, progress=lines.append)
+        compare(pandas_report, dask_report)
+        assert any("inputs read on the client" in line for line in lines)
+    finally:
+        memory.rm(f"/{base}", recursive=True)
