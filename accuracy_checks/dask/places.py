@@ -29,6 +29,8 @@ from accuracy_checks.sources.dataset_filters import DateFilter, PairFilter, choo
 
 __all__ = ["Explain", "Source", "no_rows", "source_of", "source_pieces"]
 
+#: footers read at once on the client
+_FOOTER_THREADS = 8
 #: asks for the pandas engine's refusal of a dataset read (on a worker), ``None`` if none
 Explain = Callable[[DatasetRead, Sequence[Column]], InputError | None]
 
@@ -130,13 +132,14 @@ def source_pieces(source: Source, columns: Sequence[Column], *, start: int = 0,
         if data.kind == "parquet":
             schema = _schema(data, files, columns, names, chosen)
         store = Store(read, data.root, data.shown, data.kind, names, schema)
-        for f in files:
+        footers = _footers(data, files) if data.kind == "parquet" else [None] * len(files)
+        for f, meta in zip(files, footers, strict=True):
             values = tuple(data.partitions[n][at[f]] for n in names)
-            if data.kind != "parquet":
+            if meta is None:
                 out.append(Piece(f, role, None, 0, start + len(out), store, values))
                 continue
             out += [Piece(f, role, groups, first, start + len(out) + i, store, values)
-                    for i, (groups, first) in enumerate(row_group_runs(_footer(data, f)))]
+                    for i, (groups, first) in enumerate(row_group_runs(meta))]
     except (OSError, ValueError) as exc:
         found = explain(read, columns) if explain is not None else None
         raise (found or InputError(
@@ -157,9 +160,19 @@ def _schema(data: datasets.Dataset, files: list[str], columns: Sequence[Column],
                        partition_base_dir=data.root).schema
 
 
-def _footer(data: datasets.Dataset, file: str) -> Any:
-    """A Parquet file's metadata (its footer: row groups and their statistics)."""
+def _footers(data: datasets.Dataset, files: list[str]) -> list[Any]:
+    """The Parquet files' metadata (their footers: row groups and their statistics), read a
+    few at a time (each a round trip on object storage); the first failure in file order is
+    raised."""
+    from concurrent.futures import ThreadPoolExecutor
+
     import pyarrow.parquet as pq
 
-    with data.filesystem.open_input_file(file) as handle:
-        return pq.ParquetFile(handle).metadata
+    def footer(file: str) -> Any:
+        with data.filesystem.open_input_file(file) as handle:
+            return pq.ParquetFile(handle).metadata
+
+    if len(files) < 2:
+        return [footer(f) for f in files]
+    with ThreadPoolExecutor(max_workers=min(_FOOTER_THREADS, len(files))) as pool:
+        return list(pool.map(footer, files))

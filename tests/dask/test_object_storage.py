@@ -17,6 +17,7 @@ from moto.server import ThreadedMotoServer
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.dask import client_read
+from accuracy_checks.dask import read as R
 from accuracy_checks.demo.scenario import generate_scenario
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets
@@ -28,6 +29,7 @@ from tests.dask.test_datasets import (
     _csv,
     demo_lake,
     lake,
+    part,
     point,
 )
 from tests.sources.test_sql import BREACHED
@@ -116,6 +118,7 @@ def _both(config: Path, cluster: str, monkeypatch: pytest.MonkeyPatch) -> None:
 @pytest.mark.parametrize("kind", ["parquet", "csv"])
 def test_the_test_project_on_s3(make_project: Callable[..., Project], cluster: str,
                                 kind: str, monkeypatch: pytest.MonkeyPatch) -> None:
+    monkeypatch.setattr(R, "PIECE_ROWS", 6)  # (several pieces per file)
     project = make_project(**BREACHED)
     data = project.data
     upload(f"project-{kind}", lake(_csv(data / "forecast.csv"), _csv(data / "earlier.csv"),
@@ -148,3 +151,24 @@ def test_a_damaged_file_in_the_span_on_s3(make_project: Callable[..., Project],
             messages.append(str(err.value))
         assert damaged in messages[0] and SECRET not in messages[0], messages[0]
         assert messages[1] == messages[0]
+
+
+def test_single_objects_and_a_flat_prefix_on_s3(make_project: Callable[..., Project],
+                                                cluster: str,
+                                                monkeypatch: pytest.MonkeyPatch) -> None:
+    """No partitions: the forecast one Parquet object (several pieces), the actuals a prefix
+    of two objects, the earlier cycles one CSV object."""
+    monkeypatch.setattr(R, "PIECE_ROWS", 6)  # (several pieces per file)
+    project = make_project(**BREACHED)
+    data = project.data
+    actuals = _csv(data / "actuals.csv")
+    half = len(actuals) // 2
+    upload("flat", {"forecast.parquet": part(_csv(data / "forecast.csv"), row_group=3),
+                    "actuals/part-0.parquet": part(actuals.iloc[:half], row_group=3),
+                    "actuals/part-1.parquet": part(actuals.iloc[half:], row_group=3),
+                    "earlier.csv": part(_csv(data / "earlier.csv"), "csv")})
+    config = point(project.config, {"data/forecast.csv": "forecast.parquet",
+                                    "data/actuals.csv": "actuals/",
+                                    "data/earlier.csv": "earlier.csv"},
+                   "s3://${LAKE_BUCKET}/flat")
+    _both(config, cluster, monkeypatch)
