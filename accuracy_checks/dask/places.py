@@ -8,7 +8,9 @@ source's pieces in the pandas engine's reading order. For a dataset the client l
 keeps those the pandas engine's filters keep (:func:`~accuracy_checks.sources.dataset_filters.
 choose`: a partition outside the span is never opened), checks the configured columns against
 the newest kept file as the dataset reader does, and reads the Parquet footers (row groups);
-the rows are read on the workers.
+the rows are read on the workers. A dataset's Parquet files of fewer rows than
+:data:`~accuracy_checks.dask.read.PIECE_ROWS` are read whole, several to a piece (a lake of
+many small files is then a few tasks, not one a file); a larger file is split by row groups.
 """
 
 from __future__ import annotations
@@ -19,6 +21,7 @@ from pathlib import Path
 from typing import Any
 
 from accuracy_checks.config.places import Url
+from accuracy_checks.dask import read as R
 from accuracy_checks.dask.read import Piece, local_files, pieces, row_group_runs
 from accuracy_checks.dask.stores import DatasetRead, Store, partitioning, text_columns
 from accuracy_checks.dask.stores import worker_readable as worker_readable
@@ -133,18 +136,37 @@ def source_pieces(source: Source, columns: Sequence[Column], *, start: int = 0,
             schema = _schema(data, files, columns, names, chosen)
         store = Store(read, data.root, data.shown, data.kind, names, schema)
         footers = _footers(data, files) if data.kind == "parquet" else [None] * len(files)
-        for f, meta in zip(files, footers, strict=True):
-            values = tuple(data.partitions[n][at[f]] for n in names)
-            if meta is None:
-                out.append(Piece(f, role, None, 0, start + len(out), store, values))
-                continue
-            out += [Piece(f, role, groups, first, start + len(out) + i, store, values)
-                    for i, (groups, first) in enumerate(row_group_runs(meta))]
     except (OSError, ValueError) as exc:
         found = explain(read, columns) if explain is not None else None
         raise (found or InputError(
             f"The {role} {data.shown} (config key `{key}`) cannot be read: "
             f"{datasets.why_masked(exc)}")) from None
+    small: list[tuple[str, tuple[str, ...]]] = []  # whole small Parquet files, grouped
+    n_small = 0
+
+    def flush() -> None:
+        nonlocal small, n_small
+        if small:
+            (first, values), more = small[0], tuple(small[1:])
+            out.append(Piece(first, role, None, 0, start + len(out), store, values, more))
+        small, n_small = [], 0
+
+    limit = R.PIECE_ROWS  # (read when called: tests set it smaller)
+    for f, meta in zip(files, footers, strict=True):
+        values = tuple(data.partitions[n][at[f]] for n in names)
+        if meta is None:  # a CSV file: one piece
+            out.append(Piece(f, role, None, 0, start + len(out), store, values))
+            continue
+        if 0 < meta.num_rows <= limit:  # read whole, with the small files around it
+            if n_small + meta.num_rows > limit:
+                flush()
+            small.append((f, values))
+            n_small += meta.num_rows
+            continue
+        flush()
+        out += [Piece(f, role, groups, first, start + len(out) + i, store, values)
+                for i, (groups, first) in enumerate(row_group_runs(meta))]
+    flush()
     return out
 
 

@@ -165,7 +165,7 @@ def _dataset_periods(piece: Piece, config: Config) -> np.ndarray:
     assert piece.store is not None
     cols = {c.name: c for c in actual_columns(config)}
     period, value = cols[config.actuals.period], cols[config.actuals.value]
-    raw = read_dataset_piece(piece.store, str(piece.file), piece.values, piece.row_groups,
+    raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
                              [period, value])
     try:
         values = raw[value.name]

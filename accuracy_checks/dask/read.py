@@ -73,6 +73,13 @@ class Piece:
     store: Store | None = None
     #: the file's partition values, one per ``store.partitions`` (text)
     values: tuple[str, ...] = ()
+    #: more whole files of the same dataset read after ``file`` (small files grouped into one
+    #: piece), each with its partition values
+    more: tuple[tuple[str, tuple[str, ...]], ...] = ()
+
+    def dataset_files(self) -> list[tuple[str, tuple[str, ...]]]:
+        """A dataset piece's files in reading order, each with its partition values."""
+        return [(str(self.file), self.values), *self.more]
 
     @property
     def path(self) -> Path:
@@ -170,7 +177,7 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     order, when ``columns`` are only some of them (a refusal then names the file's first
     offending column among all of them, as the pandas engine does)."""
     if piece.store is not None:
-        raw = read_dataset_piece(piece.store, str(piece.file), piece.values, piece.row_groups,
+        raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
                                  columns, head)
         return _finish(piece, raw, columns, keys=keys, n_shards=n_shards, rename=rename,
                        text=text, every=every)
@@ -278,7 +285,7 @@ def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[s
 
     if piece.store is not None:
         dated = [c for c in columns if c.kind == "date"]
-        raw = read_dataset_piece(piece.store, str(piece.file), piece.values, piece.row_groups,
+        raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
                                  dated)
         return {n: _forms(pd.Series(_distinct(raw[n]), dtype="string"))
                 for n in dict.fromkeys(c.name for c in dated)

@@ -110,32 +110,37 @@ def text_columns(kind: str, columns: Sequence[Column], partitions: Sequence[str]
     return [n for n in wanted if n not in partitions and (kind == "csv" or n not in numbers)]
 
 
-def read_dataset_piece(store: Store, file: str, values: tuple[str, ...],
+def read_dataset_piece(store: Store, files: Sequence[tuple[str, tuple[str, ...]]],
                        row_groups: tuple[int, ...] | None, columns: Sequence[Column],
                        head: int | None = None) -> pd.DataFrame:
-    """The raw ``columns`` of one piece of a dataset (a run of a Parquet file's row groups,
-    or a whole file), its partition ``values`` as text columns and the read's filters pushed
-    into the scan, as the pandas engine's scan gives them (not converted yet)."""
+    """The raw ``columns`` of one piece of a dataset (a run of one Parquet file's
+    ``row_groups``, or whole ``files``, each with its partition values), the partition values
+    as text columns and the read's filters pushed into the scan, as the pandas engine's scan
+    gives them (rows in file order; not converted yet)."""
     import pyarrow as pa
     import pyarrow.dataset as pds
 
     read = store.read
     fs = filesystem(read.place, read.key)
-    parts = {n: [v] for n, v in zip(store.partitions, values, strict=True)}
-    data = datasets.Dataset(store.shown, fs, store.root, [file], store.kind, parts)
+    paths = [f for f, _ in files]
+    parts = {n: [v[i] for _, v in files] for i, n in enumerate(store.partitions)}
+    data = datasets.Dataset(store.shown, fs, store.root, paths, store.kind, parts)
     wanted = list(dict.fromkeys(c.name for c in columns))
     fmt = datasets.dataset_format(data, text_columns(store.kind, columns, store.partitions))
     try:
-        dataset = pds.dataset([file], filesystem=fs, format=fmt,
+        dataset = pds.dataset(paths, filesystem=fs, format=fmt,
                               partitioning=partitioning(store.partitions, parts),
                               partition_base_dir=store.root, schema=store.schema)
         expression = row_expression(parts, store.shown, dataset, read.filters, read.pairs,
                                     read.role)
-        fragment = next(iter(dataset.get_fragments()))
-        if row_groups is not None:
-            fragment = fragment.subset(row_group_ids=list(row_groups))
-        scanner = pds.Scanner.from_fragment(fragment, schema=dataset.schema, columns=wanted,
-                                            filter=expression, use_threads=False)
+        if row_groups is not None:  # (a run of one file's row groups)
+            fragment = next(iter(dataset.get_fragments())).subset(
+                row_group_ids=list(row_groups))
+            scanner = pds.Scanner.from_fragment(fragment, schema=dataset.schema,
+                                                columns=wanted, filter=expression,
+                                                use_threads=False)
+        else:
+            scanner = dataset.scanner(columns=wanted, filter=expression, use_threads=False)
         table = scanner.head(head) if head is not None else scanner.to_table()
     except (OSError, ValueError, pa.ArrowInvalid) as exc:
         raise InputError(
@@ -143,7 +148,7 @@ def read_dataset_piece(store: Store, file: str, values: tuple[str, ...],
             f"{datasets.why_masked(exc)}"
         ) from None
     frame = table.to_pandas(split_blocks=True, self_destruct=True)
-    for n in store.partitions:  # (one value, or none when every row was filtered out)
+    for n in store.partitions:  # (the values of files whose rows were all filtered out)
         if n in frame.columns and isinstance(frame[n].dtype, pd.CategoricalDtype):
             frame[n] = frame[n].cat.remove_unused_categories()
     if store.kind == "csv":
