@@ -25,6 +25,7 @@ from __future__ import annotations
 
 import math
 import time
+from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -36,11 +37,19 @@ from accuracy_checks.config.places import Url
 from accuracy_checks.dask import merge as M
 from accuracy_checks.dask import plan as P
 from accuracy_checks.dask.merge import DaskRun
-from accuracy_checks.dask.places import Source, date_filters, no_rows, source_of, source_pieces
+from accuracy_checks.dask.places import (
+    Explain,
+    Source,
+    date_filters,
+    no_rows,
+    source_of,
+    source_pieces,
+)
 from accuracy_checks.dask.read import Piece, PieceReader, piece_frame
 from accuracy_checks.dask.shards import Plan
 from accuracy_checks.dask.stores import DatasetRead
-from accuracy_checks.errors import ConfigError
+from accuracy_checks.errors import ConfigError, InputError
+from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.load import ArchiveReader, Progress, quiet
 from accuracy_checks.sources.memory import GivenFrames
 from accuracy_checks.sources.readers import actual_columns, forecast_columns, issued_since
@@ -168,8 +177,7 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     span = tuple(pd.Timestamp(p) for p in sorted(finite)[-span_n:]) if span_n > 0 else ()
     issued = pd.Timestamp(fsum.issue_counts.index.dropna().max()) \
         if fsum.issue_counts.index.notna().any() else pd.NaT
-    h_pieces += _dataset_history(config, client, h_srcs, span, start=len(h_pieces),
-                                 explain=explain)
+    h_pieces += _dataset_history(config, h_srcs, span, start=len(h_pieces), explain=explain)
     since = issued_since(config, list(span))
     starts_parts = client.gather(client.map(
         P.history_starts, [p for _, p in h_pieces],
@@ -235,24 +243,24 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
             "actuals": {"path": str(actuals_path or config.actuals.place)}}})
 
 
-def _explainer(client: Any) -> Any:
+def _explainer(client: Any) -> Explain:
     """The pandas engine's refusal of a dataset read, asked of a worker (it reads the dataset
     one column at a time: :func:`~accuracy_checks.dask.stores.dataset_error`)."""
     from accuracy_checks.dask.stores import dataset_error
 
-    def explain(read: DatasetRead, columns: Any) -> Any:
-        return client.submit(dataset_error, read, list(columns), pure=False).result()
+    def explain(read: DatasetRead, columns: Sequence[Column]) -> InputError | None:
+        found: InputError | None = client.submit(dataset_error, read, list(columns),
+                                                 pure=False).result()
+        return found
 
     return explain
 
 
-def _dataset_history(config: Config, client: Any, h_srcs: list[Source],
-                     span: tuple[pd.Timestamp, ...], *, start: int,
-                     explain: Any) -> list[tuple[int, Piece]]:
+def _dataset_history(config: Config, h_srcs: list[Source], span: tuple[pd.Timestamp, ...], *,
+                     start: int, explain: Explain) -> list[tuple[int, Piece]]:
     """The pieces of the history datasets the pandas engine's pre-read of the cycles reads:
     the cycles issued since :func:`~accuracy_checks.sources.readers.issued_since` (older
     partitions never opened)."""
-    del client
     fc = config.forecast
     dates = [c for c in forecast_columns(config) if c.name in (fc.issued, fc.period)]
     dates.sort(key=lambda c: c.name != fc.issued)  # (the pre-read's order)
