@@ -210,8 +210,9 @@ def test_a_damaged_file_in_the_span_is_refused_with_the_same_message(
 
 def test_a_bad_value_is_refused_with_the_dataset_readers_message(
         project_lake: tuple[Project, Path, Path], cluster: str) -> None:
-    """A text value in a number column and a key missing, in a file of several pieces: the
-    pandas engine's message numbering the rows of its whole scan."""
+    """A number column stored as text in one file of several pieces, with a value that is no
+    number: the dataset's scan (the first file's schema) refuses the cast, with the same
+    message on both engines."""
     _, root, config = project_lake
     file = root / "forecast/issued_on=2026-03-02/part-1.parquet"
     table = pq.read_table(file)
@@ -271,3 +272,20 @@ def test_a_memory_url_stays_on_the_client(make_project: Callable[..., Project],
         assert any("inputs read on the client" in line for line in lines)
     finally:
         memory.rm(f"/{base}", recursive=True)
+
+
+def test_a_bad_actual_in_a_csv_dataset_is_refused_with_the_same_message(
+        make_project: Callable[..., Project], cluster: str) -> None:
+    """A text value among the actuals of a CSV dataset partitioned by period: refused by the
+    pandas engine's pre-read of the periods, numbering the rows of its whole scan; the dask
+    engine's piece asks a worker for that message."""
+    project = make_project(**BREACHED)
+    data = project.data
+    actuals = _csv(data / "actuals.csv")
+    actuals.loc[len(actuals) - 3, "units_sold"] = "twelve"
+    write(project.root / "lake", lake(_csv(data / "forecast.csv"), _csv(data / "earlier.csv"),
+                                      actuals, "csv"))
+    config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
+    pandas_message, dask_message = _messages(config, cluster)
+    assert "twelve" in pandas_message, pandas_message
+    assert dask_message == pandas_message
