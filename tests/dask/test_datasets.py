@@ -289,3 +289,21 @@ def test_a_bad_actual_in_a_csv_dataset_is_refused_with_the_same_message(
     pandas_message, dask_message = _messages(config, cluster)
     assert "twelve" in pandas_message, pandas_message
     assert dask_message == pandas_message
+
+
+def test_a_missing_key_is_refused_naming_the_rows_of_the_whole_scan(
+        project_lake: tuple[Project, Path, Path], cluster: str) -> None:
+    """A missing key in the second file of a partition (a piece of several): the pandas
+    engine's message numbers the rows of its scan of every file; the dask engine's piece asks
+    a worker for it."""
+    _, root, config = project_lake
+    file = root / "forecast/issued_on=2026-03-02/part-1.parquet"
+    table = pq.read_table(file)
+    product = table["product"].to_pylist()
+    product[-2] = None
+    at = table.schema.get_field_index("product")
+    pq.write_table(table.set_column(at, "product", pa.array(product, pa.string())), file,
+                   row_group_size=3)
+    pandas_message, dask_message = _messages(config, cluster)
+    assert "row " in pandas_message and "product" in pandas_message, pandas_message
+    assert dask_message == pandas_message
