@@ -283,14 +283,20 @@ def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[s
     import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
-    if piece.store is not None:
-        dated = [c for c in columns if c.kind == "date"]
-        raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
-                                 dated)
-        return {n: _forms(pd.Series(_distinct(raw[n]), dtype="string"))
-                for n in dict.fromkeys(c.name for c in dated)
-                if raw[n].dtype == object or pd.api.types.is_string_dtype(raw[n].dtype)
-                or isinstance(raw[n].dtype, pd.CategoricalDtype)}
+    if piece.store is not None:  # partition values: from the piece itself, no read
+        names = piece.store.partitions
+        out = {c.name: _forms(pd.Series([v[names.index(c.name)]
+                                         for _, v in piece.dataset_files()], dtype="string"))
+               for c in columns if c.kind == "date" and c.name in names}
+        dated = [c for c in columns if c.name in text_date_columns(piece, columns)]
+        if dated:
+            raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
+                                     dated)
+            out.update({n: _forms(pd.Series(_distinct(raw[n]), dtype="string"))
+                        for n in dict.fromkeys(c.name for c in dated)
+                        if raw[n].dtype == object or pd.api.types.is_string_dtype(raw[n].dtype)
+                        or isinstance(raw[n].dtype, pd.CategoricalDtype)})
+        return out
     if piece.row_groups is None:
         return {}
     schema = pq.read_schema(piece.path)
@@ -303,6 +309,24 @@ def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[s
                                                        columns=list(dict.fromkeys(text)))
     return {name: _forms(pd.Series(pc.unique(table[name]).to_pandas(), dtype="string"))
             for name in dict.fromkeys(text)}
+
+
+def text_date_columns(piece: Piece, columns: Sequence[Column]) -> list[str]:
+    """The date columns of ``columns`` a dataset piece's files may store as text (partition
+    columns aside): every one in CSV, those of a text type in a Parquet dataset's schema."""
+    import pyarrow as pa
+
+    assert piece.store is not None
+    schema = piece.store.schema
+
+    def text(kind: Any) -> bool:
+        if pa.types.is_dictionary(kind):
+            kind = kind.value_type
+        return bool(pa.types.is_string(kind) or pa.types.is_large_string(kind))
+
+    return [c.name for c in columns if c.kind == "date" and c.name not in piece.store.partitions
+            and (schema is None or (c.name in schema.names
+                                    and text(schema.field(c.name).type)))]
 
 
 def _distinct(column: pd.Series) -> np.ndarray:

@@ -313,13 +313,17 @@ def _refuse_mixed_offsets(client: Any, inputs: list[tuple[list[Piece], list[Any]
         for piece in found:
             if piece.row_groups is not None or piece.store is not None:
                 by_file.setdefault(_unit(piece), []).append(piece)
-        wanted = []
+        wanted, here = [], []
         for parts in by_file.values():
             if len(parts) > 1 and _text_dates(parts[0], dated):
                 wanted += parts
-        if not wanted:
+            elif len(parts) > 1 and parts[0].store is not None:
+                here += parts  # only partition dates: their forms from the listed values
+        if not wanted and not here:
             continue
         forms = client.gather(client.map(date_forms, wanted, columns=dated, pure=False))
+        forms += [date_forms(p, dated) for p in here]
+        wanted += here
         seen: dict[tuple[Any, str], set[str]] = {}
         for piece, per_column in zip(wanted, forms, strict=True):
             for name, got in per_column.items():
@@ -339,23 +343,19 @@ def _unit(piece: Piece) -> Any:
 
 
 def _text_dates(piece: Piece, dated: list[Any]) -> bool:
-    """Whether a date column of ``piece``'s file (dataset) may be stored as text."""
+    """Whether a date column of ``piece``'s file (a dataset's files, partitions aside) may be
+    stored as text."""
     import pyarrow as pa
     import pyarrow.parquet as pq
 
+    from accuracy_checks.dask.read import text_date_columns
+
     if piece.store is not None:
-        schema = piece.store.schema
-        if schema is None:  # CSV: text
-            return True
-    else:
-        schema = pq.read_schema(piece.path)
-
-    def text(kind: Any) -> bool:
-        if pa.types.is_dictionary(kind):
-            kind = kind.value_type
-        return bool(pa.types.is_string(kind) or pa.types.is_large_string(kind))
-
-    return any(c.name in schema.names and text(schema.field(c.name).type) for c in dated)
+        return bool(text_date_columns(piece, dated))
+    schema = pq.read_schema(piece.path)
+    return any(c.name in schema.names and (pa.types.is_string(schema.field(c.name).type)
+                                           or pa.types.is_large_string(
+                                               schema.field(c.name).type)) for c in dated)
 
 
 def _segment_columns(config: Config, source: Source) -> list[Any]:
