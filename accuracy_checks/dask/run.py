@@ -178,6 +178,8 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     issued = pd.Timestamp(fsum.issue_counts.index.dropna().max()) \
         if fsum.issue_counts.index.notna().any() else pd.NaT
     h_pieces += _dataset_history(config, h_srcs, span, start=len(h_pieces), explain=explain)
+    _refuse_mixed_offsets(client, [([p for i, p in h_pieces if h_srcs[i].is_dataset],
+                                    _history_dates(config))])
     since = issued_since(config, list(span))
     starts_parts = client.gather(client.map(
         P.history_starts, [p for _, p in h_pieces],
@@ -262,8 +264,7 @@ def _dataset_history(config: Config, h_srcs: list[Source], span: tuple[pd.Timest
     the cycles issued since :func:`~accuracy_checks.sources.readers.issued_since` (older
     partitions never opened)."""
     fc = config.forecast
-    dates = [c for c in forecast_columns(config) if c.name in (fc.issued, fc.period)]
-    dates.sort(key=lambda c: c.name != fc.issued)  # (the pre-read's order)
+    dates = _history_dates(config)
     since = issued_since(config, list(span))
     filters = date_filters(dates, since=(fc.issued, since) if since is not None else None)
     out: list[tuple[int, Piece]] = []
@@ -273,6 +274,14 @@ def _dataset_history(config: Config, h_srcs: list[Source], span: tuple[pd.Timest
                                                   filters=filters, allow_empty=True,
                                                   explain=explain)]
     return out
+
+
+def _history_dates(config: Config) -> list[Column]:
+    """The issue date and period columns, in the order the pandas engine's pre-read of a
+    history dataset's cycles converts them."""
+    fc = config.forecast
+    dates = [c for c in forecast_columns(config) if c.name in (fc.issued, fc.period)]
+    return sorted(dates, key=lambda c: c.name != fc.issued)
 
 
 def _history_filters(config: Config, src: Source, span: tuple[pd.Timestamp, ...],

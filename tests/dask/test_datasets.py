@@ -245,7 +245,7 @@ def test_mixed_utc_offsets_across_the_files_of_a_dataset(
     write(project.root / "lake", files)
     config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
     pandas_message, dask_message = _messages(config, cluster)
-    assert "offset" in pandas_message, pandas_message
+    assert "mixes time zones" in pandas_message, pandas_message
     assert dask_message == pandas_message
 
 
@@ -306,4 +306,24 @@ def test_a_missing_key_is_refused_naming_the_rows_of_the_whole_scan(
                    row_group_size=3)
     pandas_message, dask_message = _messages(config, cluster)
     assert "row " in pandas_message and "product" in pandas_message, pandas_message
+    assert dask_message == pandas_message
+
+
+def test_mixed_utc_offsets_across_the_partitions_of_a_history_dataset(
+        make_project: Callable[..., Project], cluster: str) -> None:
+    """Earlier cycles partitioned by an issue date written with a time and a UTC offset, not
+    the same in every partition: refused by both engines with the same message (each
+    partition alone converts)."""
+    project = make_project(**BREACHED)
+    data = project.data
+    earlier = _csv(data / "earlier.csv")
+    offsets = {d: f"{d}T00:00:00+0{i + 1}:00"
+               for i, d in enumerate(sorted(earlier["issued_on"].unique()))}
+    earlier["issued_on"] = earlier["issued_on"].map(offsets)
+    files = lake(_csv(data / "forecast.csv"), earlier, _csv(data / "actuals.csv"))
+    del files[f"history/issued_on={OLD}/part-0.parquet"]  # (a date without offset)
+    write(project.root / "lake", files)
+    config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
+    pandas_message, dask_message = _messages(config, cluster)
+    assert "mixes time zones" in pandas_message, pandas_message
     assert dask_message == pandas_message
