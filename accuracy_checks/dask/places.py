@@ -23,8 +23,13 @@ from typing import Any
 from accuracy_checks.config.places import Url
 from accuracy_checks.dask import read as R
 from accuracy_checks.dask.read import Piece, local_files, pieces, row_group_runs
-from accuracy_checks.dask.stores import DatasetRead, Store, partitioning, text_columns
-from accuracy_checks.dask.stores import worker_readable as worker_readable
+from accuracy_checks.dask.stores import (
+    DatasetRead,
+    Store,
+    partitioning,
+    text_columns,
+    worker_readable,
+)
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets
 from accuracy_checks.sources.columns import Column, refuse_missing
@@ -92,15 +97,10 @@ def date_filters(columns: Sequence[Column], periods: tuple[str, Sequence[Any]] |
 
 
 def no_rows(source: Source) -> InputError:
-    """The pandas engine's refusal of an input with no rows."""
-    if source.is_dataset:
-        return InputError(
-            f"The {source.role} {source.place} (config key `{source.key}`) has no rows; "
-            f"a {source.role} with no data cannot be checked."
-        )
+    """The dataset reader's refusal of a dataset with no rows (the pandas engine's)."""
     return InputError(
-        f"The {source.role} {source.place} (config key `{source.key}`) has a header but no "
-        f"rows; a {source.role} with no data cannot be checked."
+        f"The {source.role} {source.place} (config key `{source.key}`) has no rows; "
+        f"a {source.role} with no data cannot be checked."
     )
 
 

@@ -160,6 +160,8 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     _refuse_mixed_offsets(client, [(f_pieces, forecast_columns(config)),
                                    (every_a, a_cols),
                                    ([p for _, p in h_pieces], forecast_columns(config))])
+    if f_src.is_dataset and not f_pieces:
+        raise no_rows(f_src)
     fsum = P.combine_forecast(client.gather(client.map(P.forecast_summary, f_pieces,
                                                        config=config, pure=False)))
     if f_src.is_dataset and fsum.rows == 0:

@@ -327,3 +327,14 @@ def test_mixed_utc_offsets_across_the_partitions_of_a_history_dataset(
     pandas_message, dask_message = _messages(config, cluster)
     assert "mixes time zones" in pandas_message, pandas_message
     assert dask_message == pandas_message
+
+
+def test_a_dataset_without_rows_is_refused_with_the_same_message(
+        project_lake: tuple[Project, Path, Path], cluster: str) -> None:
+    _, root, config = project_lake
+    for file in (root / "forecast").rglob("*.parquet"):
+        table = pq.read_table(file)
+        pq.write_table(table.slice(0, 0), file)
+    pandas_message, dask_message = _messages(config, cluster)
+    assert "has no rows" in pandas_message, pandas_message
+    assert dask_message == pandas_message
