@@ -108,7 +108,6 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
                           actuals_path=actuals_path, progress=progress, archive=archive,
                           frames=frames, n_workers=n_workers)
     else:
-        progress("dask engine: inputs read in pieces on the workers")
         job = _from_pieces(config, client, places, forecast_path=forecast_path,
                            actuals_path=actuals_path,
                            progress=progress, archive=archive, n_workers=n_workers)
@@ -128,6 +127,7 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
     from accuracy_checks.sources.segments import read_mapping
 
+    progress("dask engine: inputs read in pieces on the workers")
     keys = list(config.forecast.keys)
     f_src, a_src, h_srcs = places
     explain = _explainer(client)
