@@ -1,9 +1,10 @@
-"""Inputs neither local files nor tables, read on the client by the pandas readers, then sharded.
+"""Inputs the workers cannot read, read on the client by the pandas readers, then sharded.
 
-A query (``sql:``), a table :mod:`.sql_parts` cannot order (a view, another database), a URL
-or Hive-partitioned dataset, or frames given in memory are
-read by :func:`~accuracy_checks.sources.load.load_inputs` exactly as the pandas engine reads
-them (same rules, same messages), on the client; the canonical frames are then split into the
+A query (``sql:``), a table :mod:`.sql_parts` cannot order (a view, another database), a
+``memory://`` URL (a memory file system lives in one process), an ``https://`` file
+(downloaded by the reader) or frames given in memory are read by
+:func:`~accuracy_checks.sources.load.load_inputs` exactly as the pandas engine reads them
+(same rules, same messages), on the client; the canonical frames are then split into the
 shards by the same hash of the series keys and checked on the workers like pieces read there.
 Reading is then not distributed (the memory of the client bounds the run); the checks are.
 """

@@ -18,13 +18,14 @@ This runs only on a refused run.
 from __future__ import annotations
 
 from collections.abc import Sequence
-from pathlib import Path
 from typing import Any
 
 from accuracy_checks.config import Config
+from accuracy_checks.dask.places import Source, no_rows
 from accuracy_checks.dask.read import Piece, pieces, whole_file_error
+from accuracy_checks.dask.stores import DatasetRead, dataset_error
 from accuracy_checks.errors import InputError
-from accuracy_checks.sources.columns import Column, no_rows
+from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.files import check_header, read_csv_columns
 
 __all__ = ["pandas_order_error"]
@@ -34,7 +35,7 @@ def file_error(piece: Piece, columns: Sequence[Column]) -> tuple[InputError | No
     """The pandas engine's refusal of ``piece``'s whole file (its header, then its columns
     converted in order), or ``None``; and whether the file holds a data row (on a worker)."""
     try:
-        check_header(piece.file, columns, piece.role)
+        check_header(piece.path, columns, piece.role)
     except InputError as exc:
         return exc, True
     error = whole_file_error(piece, columns)
@@ -43,35 +44,35 @@ def file_error(piece: Piece, columns: Sequence[Column]) -> tuple[InputError | No
     if piece.row_groups is not None:
         import pyarrow.parquet as pq
 
-        return None, bool(pq.ParquetFile(piece.file).metadata.num_rows)
-    return None, len(read_csv_columns(piece.file, list(columns[:1]), piece.role)) > 0
+        return None, bool(pq.ParquetFile(piece.path).metadata.num_rows)
+    return None, len(read_csv_columns(piece.path, list(columns[:1]), piece.role)) > 0
 
 
-def pandas_order_error(config: Config, client: Any, forecast_files: Sequence[Path],
-                       columns: Sequence[Column], met: InputError,
-                       forecast: object = None) -> InputError:
-    """The refusal the pandas engine gives the run: the mapping's or the first forecast
-    file's, when they are refused, else ``met`` (the refusal this engine met first).
-    ``columns``: the forecast's columns as the readers convert them (configured columns,
-    then the segment columns the files hold); ``forecast``: the forecast's place when the
-    command line gave it."""
+def pandas_order_error(config: Config, client: Any, forecast: Source,
+                       columns: Sequence[Column], met: InputError) -> InputError:
+    """The refusal the pandas engine gives the run: the mapping's or the forecast's, when
+    they are refused, else ``met`` (the refusal this engine met first). ``columns``: the
+    forecast's columns as the readers convert them (configured columns, then the segment
+    columns the files hold)."""
     from accuracy_checks.sources.segments import read_mapping
 
     try:
         read_mapping(config)
     except InputError as exc:
         return exc
+    if forecast.files is None:  # a dataset: its reader's refusal, one column at a time
+        read = DatasetRead(forecast.place, forecast.role, forecast.key)
+        found = client.submit(dataset_error, read, list(columns), pure=False).result()
+        return found if found is not None else met
     try:
-        firsts = [next(iter(pieces([f], "forecast")), None) for f in forecast_files]
+        firsts = [next(iter(pieces([f], "forecast")), None) for f in forecast.files]
     except InputError as exc:  # a file that cannot be opened
         return exc
-    found = client.gather(client.map(file_error, [p for p in firsts if p is not None],
-                                     columns=list(columns), pure=False))
-    first = next((e for e, _ in found if e is not None), None)
+    checked = client.gather(client.map(file_error, [p for p in firsts if p is not None],
+                                       columns=list(columns), pure=False))
+    first = next((e for e, _ in checked if e is not None), None)
     if first is not None:
         return first
-    if not any(rows for _, rows in found):  # the readers' refusal of an empty forecast
-        place = forecast or config.forecast.place
-        return no_rows(f"The forecast {place} (config key `forecast.path`)", header=True)
+    if not any(rows for _, rows in checked):  # the readers' refusal of an empty forecast
+        return no_rows(forecast)
     return met
-

@@ -17,12 +17,15 @@ from __future__ import annotations
 
 from collections.abc import Sequence
 from dataclasses import dataclass
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
 
 from accuracy_checks.config import Config
 from accuracy_checks.dask.read import Piece, read_piece
+from accuracy_checks.dask.stores import read_dataset_piece
+from accuracy_checks.errors import InputError
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
@@ -95,9 +98,13 @@ def actuals_summary(piece: Piece, config: Config,
                           pd.unique(dates[np.isfinite(values) & ~np.isnat(dates)]), len(frame))
 
 
-def history_starts(piece: Piece, config: Config) -> pd.Series:
-    """One history piece's cycles: issue date → first period."""
+def history_starts(piece: Piece, since: pd.Timestamp | None = None, *,
+                   config: Config) -> pd.Series:
+    """One history piece's cycles: issue date → first period (with ``since``, only the cycles
+    issued since then, as the pandas engine's pre-read of a dataset keeps them)."""
     frame = read_piece(piece, _dates(config, "history"), every=_every(config, "history"))
+    if since is not None:
+        frame = frame.loc[frame[F.ISSUED] >= since]
     return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
 
 
@@ -133,9 +140,11 @@ def actual_periods_piece(piece: Piece, config: Config) -> np.ndarray | None:
     from accuracy_checks.sources.files import is_timestamp
 
     ac = config.actuals
+    if piece.store is not None:
+        return _dataset_periods(piece, config)
     if piece.row_groups is None:
         return None
-    handle = pq.ParquetFile(piece.file)
+    handle = pq.ParquetFile(piece.path)
     schema = handle.schema_arrow
     if (not is_timestamp(schema, ac.period)
             or len(schema.get_all_field_indices(ac.value)) != 1):
@@ -143,6 +152,32 @@ def actual_periods_piece(piece: Piece, config: Config) -> np.ndarray | None:
     table = handle.read_row_groups(list(piece.row_groups), columns=[ac.period, ac.value])
     present = pc.unique(pc.filter(table[ac.period], pc.is_valid(table[ac.value])))
     return np.asarray(present.to_pandas())
+
+
+def _dataset_periods(piece: Piece, config: Config) -> np.ndarray:
+    """The distinct periods holding an actual in one dataset piece (the dataset reader's
+    pre-read: a value that is neither missing nor NaN; never ``None``, as that pre-read
+    reads CSV datasets too). A refusal: the pandas engine's pre-read over the dataset, for
+    its message."""
+    from accuracy_checks.sources.columns import convert
+    from accuracy_checks.sources.prereads import actual_periods
+
+    assert piece.store is not None
+    cols = {c.name: c for c in actual_columns(config)}
+    period, value = cols[config.actuals.period], cols[config.actuals.value]
+    raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
+                             [period, value])
+    try:
+        values = raw[value.name]
+        if not pd.api.types.is_numeric_dtype(values.dtype):
+            values = convert(values, Path(piece.store.shown), value, "actuals", 1)
+        present = values.notna().to_numpy()
+        dates = convert(raw[period.name], Path(piece.store.shown), period, "actuals", 1)
+    except InputError:
+        actual_periods(config, piece.store.read.place)  # raises the pandas engine's message
+        raise
+    found = dates[present].dropna()
+    return np.asarray(pd.unique(found.to_numpy(dtype="datetime64[ns]")))
 
 
 def combine_periods(parts: Sequence[np.ndarray | None]) -> pd.DatetimeIndex | None:

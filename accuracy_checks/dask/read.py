@@ -1,11 +1,14 @@
 """Reading the inputs in pieces on the workers, with the sources' own reading rules.
 
 A :class:`Piece` is a part of one input file: a group of a Parquet file's row groups, or a
-whole CSV file. :func:`read_piece` reads it with the readers' column declarations
+whole CSV file; a local file, or a file of a dataset (a Hive-partitioned folder, object
+storage: its :class:`~accuracy_checks.dask.stores.Store` and the file's partition values).
+:func:`read_piece` reads it with the readers' column declarations
 (:func:`~accuracy_checks.sources.readers.forecast_columns`,
 :func:`~accuracy_checks.sources.readers.actual_columns`) and converters
 (:func:`~accuracy_checks.sources.columns.convert`: keys as text, one date format, numbers;
-the same exit-2 messages, numbering the file's own lines), and adds two columns:
+the same exit-2 messages, numbering the file's own lines, or for a dataset the dataset
+reader's), and adds two columns:
 
 ``__order``
     the row's position in the run's reading order (piece number · 2**40 + row in the piece):
@@ -14,10 +17,11 @@ the same exit-2 messages, numbering the file's own lines), and adds two columns:
     the shard of the row's series: a hash of the key columns' text modulo the shard count, the
     same for every input (forecast, actuals, earlier cycles), so a shard holds whole series.
 
-Only local files and folders of files are read in pieces (:func:`local_files`); a table in
-partitions (:mod:`.sql_parts`, which :func:`read_piece` hands them to); a query, a URL or a
-Hive-partitioned dataset is read by the pandas readers on the client and then split into shards
-(:mod:`accuracy_checks.dask.run`).
+Local files and folders of files (:func:`local_files`) and datasets
+(:mod:`accuracy_checks.dask.places`) are read in pieces, a table in partitions
+(:mod:`.sql_parts`, which :func:`read_piece` hands them to); a query, a ``memory://`` or
+``https://`` URL or a frame given in memory is read by the pandas readers on the client and
+then split into shards (:mod:`accuracy_checks.dask.run`).
 """
 
 from __future__ import annotations
@@ -30,6 +34,7 @@ from typing import Any
 import numpy as np
 import pandas as pd
 
+from accuracy_checks.dask.stores import Store, dataset_error, read_dataset_piece
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets
 from accuracy_checks.sources import frames as F
@@ -43,7 +48,7 @@ from accuracy_checks.sources.files import (
 )
 
 __all__ = ["ORDER", "SHARD", "Piece", "as_text", "date_forms", "local_files", "pieces",
-           "read_piece", "shard_of", "whole_file_error"]
+           "read_piece", "row_group_runs", "shard_of", "whole_file_error"]
 
 ORDER = "__order"
 SHARD = "__shard"
@@ -56,7 +61,8 @@ _ROW_BITS = 40
 class Piece:
     """A part of one input file, read by one task."""
 
-    file: Path
+    #: a local file, or (with ``store``) a file's path in the dataset's filesystem
+    file: Path | str
     role: str
     #: Parquet row groups of the piece (``None``: the whole file)
     row_groups: tuple[int, ...] | None
@@ -64,6 +70,23 @@ class Piece:
     first_row: int
     #: the piece's number in the run's reading order
     ordinal: int
+    #: the dataset the file belongs to (``None``: a local file of a plain file or folder)
+    store: Store | None = None
+    #: the file's partition values, one per ``store.partitions`` (text)
+    values: tuple[str, ...] = ()
+    #: more whole files of the same dataset read after ``file`` (small files grouped into one
+    #: piece), each with its partition values
+    more: tuple[tuple[str, tuple[str, ...]], ...] = ()
+
+    def dataset_files(self) -> list[tuple[str, tuple[str, ...]]]:
+        """A dataset piece's files in reading order, each with its partition values."""
+        return [(str(self.file), self.values), *self.more]
+
+    @property
+    def path(self) -> Path:
+        """The local file (a piece without a store)."""
+        assert self.store is None and isinstance(self.file, Path)
+        return self.file
 
 
 def local_files(place: object, role: str, key: str) -> list[Path] | None:
@@ -102,7 +125,6 @@ def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int | None
     them are left out (never read): the span's filter pushed into the read."""
     import pyarrow.parquet as pq
 
-    rows = PIECE_ROWS if rows is None else rows  # read when called (tests set it smaller)
     out: list[Piece] = []
     for file in files:
         if file.suffix.lower() not in PARQUET:
@@ -112,23 +134,36 @@ def pieces(files: Sequence[Path], role: str, *, start: int = 0, rows: int | None
             meta = pq.ParquetFile(file).metadata
         except READ_ERRORS as exc:
             raise InputError(f"The {role} file {file} cannot be read: {why(exc)}") from None
-        group: list[int] = []
-        first = offset = n = 0
-        for i in range(meta.num_row_groups):
-            size = meta.row_group(i).num_rows
-            keep = _dates_in(meta, i, column, wanted)
-            # a piece is a run of consecutive row groups (its rows numbered from its first)
-            if group and (not keep or n + size > rows):
-                out.append(Piece(file, role, tuple(group), first, start + len(out)))
-                group, n = [], 0
-            if keep:
-                if not group:
-                    first = offset
-                group.append(i)
-                n += size
-            offset += size
-        if group:
-            out.append(Piece(file, role, tuple(group), first, start + len(out)))
+        out += [Piece(file, role, groups, first, start + len(out) + i)
+                for i, (groups, first) in enumerate(row_group_runs(meta, rows, column, wanted))]
+    return out
+
+
+def row_group_runs(meta: Any, rows: int | None = None, column: str | None = None,
+                   wanted: Sequence[pd.Timestamp] | None = None
+                   ) -> list[tuple[tuple[int, ...], int]]:
+    """A Parquet file's pieces: runs of consecutive row groups of up to about ``rows`` rows
+    (default :data:`PIECE_ROWS`), each with its first row in the file; with ``column`` and
+    ``wanted``, the row groups whose statistics hold none of those dates left out."""
+    rows = PIECE_ROWS if rows is None else rows  # read when called (tests set it smaller)
+    out: list[tuple[tuple[int, ...], int]] = []
+    group: list[int] = []
+    first = offset = n = 0
+    for i in range(meta.num_row_groups):
+        size = meta.row_group(i).num_rows
+        keep = _dates_in(meta, i, column, wanted)
+        # a piece is a run of consecutive row groups (its rows numbered from its first)
+        if group and (not keep or n + size > rows):
+            out.append((tuple(group), first))
+            group, n = [], 0
+        if keep:
+            if not group:
+                first = offset
+            group.append(i)
+            n += size
+        offset += size
+    if group:
+        out.append((tuple(group), first))
     return out
 
 
@@ -145,26 +180,44 @@ def read_piece(piece: Piece, columns: Sequence[Column], *, keys: Sequence[str] =
     if not isinstance(piece, Piece):  # a table's partition (dask/sql_parts.py) reads itself
         return piece.read(columns, keys=keys, n_shards=n_shards,  # type: ignore[attr-defined]
                           rename=rename, text=text, head=head, every=every)
-    check_header(piece.file, every if every is not None else columns, piece.role)
+    if piece.store is not None:
+        raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
+                                 columns, head)
+        return _finish(piece, raw, columns, keys=keys, n_shards=n_shards, rename=rename,
+                       text=text, every=every)
+    check_header(piece.path, every if every is not None else columns, piece.role)
     wanted = list(dict.fromkeys(c.name for c in columns))
     try:
         if piece.row_groups is not None:
             raw = _parquet(piece, wanted, [c.name for c in columns if c.kind != "number"],
                            head)
         else:
-            raw = _csv(piece.file, columns, piece.role)
+            raw = _csv(piece.path, columns, piece.role)
     except READ_ERRORS as exc:
         raise InputError(f"The {piece.role} file {piece.file} cannot be read: "
                          f"{why(exc)}") from None
-    first_line = (1 if piece.row_groups is not None else 2) + piece.first_row
+    return _finish(piece, raw, columns, keys=keys, n_shards=n_shards, rename=rename, text=text,
+                   every=every)
+
+
+def _finish(piece: Piece, raw: pd.DataFrame, columns: Sequence[Column], *,
+            keys: Sequence[str], n_shards: int, rename: dict[str, str] | None,
+            text: Sequence[str], every: Sequence[Column] | None) -> pd.DataFrame:
+    """A piece's raw columns converted (a refusal: the whole file's or dataset's message),
+    renamed, with ``__shard`` and ``__order``."""
+    if piece.store is not None:  # (the dataset reader numbers the rows of its whole scan)
+        first_line, shown = 1, Path(piece.store.shown)
+    else:
+        first_line, shown = (1 if piece.row_groups is not None else 2) + piece.first_row, \
+            piece.path
     out: dict[str, pd.Series] = {}
     try:
         for c in columns:
             if c.name not in out:
-                out[c.name] = convert(raw[c.name], piece.file, c, piece.role, first_line)
+                out[c.name] = convert(raw[c.name], shown, c, piece.role, first_line)
     except InputError:
-        # part of a file, or some of its columns: the whole file's message
-        if piece.row_groups is not None or every is not None:
+        # part of a file or dataset, or some of its columns: the whole file's message
+        if piece.store is not None or piece.row_groups is not None or every is not None:
             found = whole_file_error(piece, every or columns)
             if found is not None:
                 raise found from None
@@ -188,19 +241,23 @@ def whole_file_error(piece: Piece, columns: Sequence[Column]) -> InputError | No
 
     Run only when a piece is refused (its own message names its rows alone) or when the
     pieces of a file disagree on a date column's UTC offsets (:func:`date_forms`): it holds
-    one column of the file in memory at a time."""
+    one column of the file in memory at a time. A dataset's piece: the pandas engine's
+    message over the whole dataset (:func:`~accuracy_checks.dask.stores.dataset_error`, one
+    column of the dataset in memory at a time)."""
     import pyarrow.parquet as pq
 
+    if piece.store is not None:
+        return dataset_error(piece.store.read, columns)
     if piece.row_groups is None:  # a CSV file: read whole, its lines numbered from 2
-        raw = _csv(piece.file, columns, piece.role)
+        raw = _csv(piece.path, columns, piece.role)
         try:
             for c in columns:
-                convert(raw[c.name], piece.file, c, piece.role, 2)
+                convert(raw[c.name], piece.path, c, piece.role, 2)
         except InputError as exc:
             return exc
         return None
-    groups = pq.ParquetFile(piece.file).metadata.num_row_groups
-    whole = Piece(piece.file, piece.role, tuple(range(groups)), 0, piece.ordinal)
+    groups = pq.ParquetFile(piece.path).metadata.num_row_groups
+    whole = Piece(piece.path, piece.role, tuple(range(groups)), 0, piece.ordinal)
     if groups == 0:
         return None
     done: set[str] = set()
@@ -210,7 +267,7 @@ def whole_file_error(piece: Piece, columns: Sequence[Column]) -> InputError | No
         done.add(c.name)
         raw = _parquet(whole, [c.name], [c.name] if c.kind != "number" else [])
         try:
-            convert(raw[c.name], piece.file, c, piece.role, 1)
+            convert(raw[c.name], piece.path, c, piece.role, 1)
         except InputError as exc:
             return exc
     return None
@@ -222,34 +279,76 @@ _OFFSET = r"\d{2}:\d{2}(?::\d{2}(?:\.\d+)?)?\s*(Z|[+-]\d{2}(?::?\d{2})?)$"
 
 
 def date_forms(piece: Piece, columns: Sequence[Column]) -> dict[str, frozenset[str]]:
-    """For each date column of a Parquet piece stored as text: the UTC offsets its dates carry
-    (``+HH:MM``; ``""``: a date without one). A file whose pieces carry more than one form in
-    a column mixes offsets, which the converters refuse over the whole file
-    (:func:`whole_file_error`) but a piece alone may not show."""
+    """For each date column of a Parquet piece (or a dataset's piece) stored as text: the UTC
+    offsets its dates carry (``+HH:MM``; ``""``: a date without one). A file (a dataset) whose
+    pieces carry more than one form in a column mixes offsets, which the converters refuse
+    over the whole file (:func:`whole_file_error`) but a piece alone may not show."""
     import pyarrow as pa
     import pyarrow.compute as pc
     import pyarrow.parquet as pq
 
+    if piece.store is not None:  # partition values: from the piece itself, no read
+        names = piece.store.partitions
+        out = {c.name: _forms(pd.Series([v[names.index(c.name)]
+                                         for _, v in piece.dataset_files()], dtype="string"))
+               for c in columns if c.kind == "date" and c.name in names}
+        dated = [c for c in columns if c.name in text_date_columns(piece, columns)]
+        if dated:
+            raw = read_dataset_piece(piece.store, piece.dataset_files(), piece.row_groups,
+                                     dated)
+            out.update({n: _forms(pd.Series(_distinct(raw[n]), dtype="string"))
+                        for n in dict.fromkeys(c.name for c in dated)
+                        if raw[n].dtype == object or pd.api.types.is_string_dtype(raw[n].dtype)
+                        or isinstance(raw[n].dtype, pd.CategoricalDtype)})
+        return out
     if piece.row_groups is None:
         return {}
-    schema = pq.read_schema(piece.file)
+    schema = pq.read_schema(piece.path)
     text = [c.name for c in columns if c.kind == "date" and c.name in schema.names
             and (pa.types.is_string(schema.field(c.name).type)
                  or pa.types.is_large_string(schema.field(c.name).type))]
     if not text:
         return {}
-    table = pq.ParquetFile(piece.file).read_row_groups(list(piece.row_groups),
+    table = pq.ParquetFile(piece.path).read_row_groups(list(piece.row_groups),
                                                        columns=list(dict.fromkeys(text)))
-    out: dict[str, frozenset[str]] = {}
-    for name in dict.fromkeys(text):
-        values = pd.Series(pc.unique(table[name]).to_pandas(), dtype="string").str.strip()
-        values = values[values.notna() & (values != "")]
-        found = values.str.extract(_OFFSET, expand=False)
-        hh = found.str.slice(0, 3)
-        mm = found.str.slice(3).str.replace(":", "", regex=False).str.ljust(2, "0")
-        form = (hh + ":" + mm).mask(found.eq("Z").fillna(False), "+00:00").fillna("")
-        out[name] = frozenset(form.unique().tolist())
-    return out
+    return {name: _forms(pd.Series(pc.unique(table[name]).to_pandas(), dtype="string"))
+            for name in dict.fromkeys(text)}
+
+
+def text_date_columns(piece: Piece, columns: Sequence[Column]) -> list[str]:
+    """The date columns of ``columns`` a dataset piece's files may store as text (partition
+    columns aside): every one in CSV, those of a text type in a Parquet dataset's schema."""
+    import pyarrow as pa
+
+    assert piece.store is not None
+    schema = piece.store.schema
+
+    def text(kind: Any) -> bool:
+        if pa.types.is_dictionary(kind):
+            kind = kind.value_type
+        return bool(pa.types.is_string(kind) or pa.types.is_large_string(kind))
+
+    return [c.name for c in columns if c.kind == "date" and c.name not in piece.store.partitions
+            and (schema is None or (c.name in schema.names
+                                    and text(schema.field(c.name).type)))]
+
+
+def _distinct(column: pd.Series) -> np.ndarray:
+    """The distinct values of a text column (a categorical's categories)."""
+    if isinstance(column.dtype, pd.CategoricalDtype):
+        return np.asarray(column.cat.categories, dtype=object)
+    return np.asarray(pd.unique(column.astype(object)), dtype=object)
+
+
+def _forms(values: pd.Series) -> frozenset[str]:
+    """The UTC offsets (``+HH:MM``, ``""`` for none) of distinct date texts."""
+    values = values.str.strip()
+    values = values[values.notna() & (values != "")]
+    found = values.str.extract(_OFFSET, expand=False)
+    hh = found.str.slice(0, 3)
+    mm = found.str.slice(3).str.replace(":", "", regex=False).str.ljust(2, "0")
+    form = (hh + ":" + mm).mask(found.eq("Z").fillna(False), "+00:00").fillna("")
+    return frozenset(form.unique().tolist())
 
 
 def as_text(column: pd.Series) -> pd.Series:
@@ -303,12 +402,12 @@ def _parquet(piece: Piece, wanted: list[str], dictionary: list[str],
     import pyarrow as pa
     import pyarrow.parquet as pq
 
-    handle = pq.ParquetFile(piece.file)
+    handle = pq.ParquetFile(piece.path)
     schema = handle.schema_arrow
     strings = [n for n in dictionary if n in schema.names
                and (pa.types.is_string(schema.field(n).type)
                     or pa.types.is_large_string(schema.field(n).type))]
-    handle = pq.ParquetFile(piece.file, read_dictionary=strings)
+    handle = pq.ParquetFile(piece.path, read_dictionary=strings)
     assert piece.row_groups is not None
     if head is not None:  # the first rows only (the dataframe's dtypes)
         batch = next(handle.iter_batches(batch_size=head, row_groups=[piece.row_groups[0]],

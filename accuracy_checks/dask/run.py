@@ -4,10 +4,11 @@
 (:mod:`accuracy_checks.engine`); drift, waivers and the store record stay the engine's. The
 steps:
 
-1. **pieces** of every local input file (:mod:`.read`); with tables among the inputs, the
-   tables in partitions and the files in pieces (:mod:`.sql_run`); an input that is neither
-   (a query, a URL, a Hive-partitioned dataset, a frame given in memory) makes the run read
-   its inputs with the pandas readers on the client, then shard them the same way
+1. **pieces** of every input file, local or of a dataset (a Hive-partitioned folder, object
+   storage: :mod:`.places`, :mod:`.stores`, :mod:`.read`); with tables among the inputs, the
+   tables in partitions and the files in pieces (:mod:`.sql_run`); an input the workers cannot
+   read (a query, a ``memory://`` or ``https://`` URL, a frame given in memory) makes the run
+   read its inputs with the pandas readers on the client, then shard them the same way
    (:mod:`.client_read`);
 2. **plan** (:mod:`.plan`): small reductions of every piece on the workers → the run's issue
    date, the periods read, the windows, each cycle's first period; the mapping is read on the
@@ -28,6 +29,7 @@ from __future__ import annotations
 
 import math
 import time
+from collections.abc import Sequence
 from dataclasses import replace
 from pathlib import Path
 from typing import Any
@@ -39,13 +41,22 @@ from accuracy_checks.config.places import Url
 from accuracy_checks.dask import merge as M
 from accuracy_checks.dask import plan as P
 from accuracy_checks.dask.merge import DaskRun
-from accuracy_checks.dask.read import Piece, PieceReader, local_files, piece_frame, pieces
+from accuracy_checks.dask.places import (
+    Explain,
+    Source,
+    date_filters,
+    no_rows,
+    source_of,
+    source_pieces,
+)
+from accuracy_checks.dask.read import Piece, PieceReader, piece_frame
 from accuracy_checks.dask.shards import Plan
+from accuracy_checks.dask.stores import DatasetRead
 from accuracy_checks.errors import ConfigError, InputError, UsageError
-from accuracy_checks.sources.columns import no_rows
+from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.load import ArchiveReader, Progress, quiet
 from accuracy_checks.sources.memory import GivenFrames
-from accuracy_checks.sources.readers import actual_columns, forecast_columns
+from accuracy_checks.sources.readers import actual_columns, forecast_columns, issued_since
 
 __all__ = ["DaskRun", "evaluate_on_dask", "refuse_plugins"]
 
@@ -67,13 +78,17 @@ def refuse_plugins() -> None:
         )
 
 
+#: each input's source: the forecast, the actuals, the history places
+Places = tuple[Source, Source, list[Source]]
+
+
 def _places(config: Config, forecast_path: Path | Url | None,
-            actuals_path: Path | Url | None) -> tuple[list[Path], list[Path],
-                                                      list[list[Path]]] | None:
-    """The local files of every input, or ``None`` when one is read on the client."""
-    f = local_files(forecast_path or config.forecast.place, "forecast", "forecast.path")
-    a = local_files(actuals_path or config.actuals.place, "actuals", "actuals.path")
-    h = [local_files(p, "history", "history") for p in config.history_paths]
+            actuals_path: Path | Url | None) -> Places | None:
+    """How every input is read (:func:`~accuracy_checks.dask.places.source_of`: local files or
+    a dataset, in pieces on the workers), or ``None`` when one is read on the client."""
+    f = source_of(forecast_path or config.forecast.place, "forecast", "forecast.path")
+    a = source_of(actuals_path or config.actuals.place, "actuals", "actuals.path")
+    h = [source_of(p, "history", "history") for p in config.history_paths]
     if f is None or a is None or any(x is None for x in h):
         return None
     return f, a, [x for x in h if x is not None]
@@ -98,7 +113,8 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
     if job is None and places is None:
         from accuracy_checks.dask.client_read import from_client
 
-        progress("dask engine: inputs read on the client (not local files), then sharded")
+        progress("dask engine: inputs read on the client (a table, a query, a memory:// or "
+                 "https:// URL, or frames), then sharded")
         job = from_client(config, client, forecast_path=forecast_path,
                           actuals_path=actuals_path, progress=progress, archive=archive,
                           frames=frames, n_workers=n_workers)
@@ -119,31 +135,33 @@ def evaluate_on_dask(config: Config, client: Any, *, forecast_path: Path | Url |
         from accuracy_checks.dask.first_error import pandas_order_error
 
         try:
-            columns = forecast_columns(config) + _segment_columns(config, places[0][0],
-                                                                  "forecast")
+            columns = forecast_columns(config) + _segment_columns(config, places[0])
         except UsageError as header:
             raise header from exc
-        first = pandas_order_error(config, client, places[0], columns, exc,
-                                   forecast=forecast_path)
+        first = pandas_order_error(config, client, places[0], columns, exc)
         if first is exc:
             raise
         raise first from exc
 
 
-def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Path],
-                 list[list[Path]]], *, forecast_path: Path | Url | None,
-                 actuals_path: Path | Url | None, progress: Progress,
-                 archive: ArchiveReader | None, n_workers: int) -> M.Job:
-    """Plan and shards of inputs read in pieces on the workers."""
+def _from_pieces(config: Config, client: Any, places: Places, *,
+                 forecast_path: Path | Url | None, actuals_path: Path | Url | None,
+                 progress: Progress, archive: ArchiveReader | None, n_workers: int) -> M.Job:
+    """Plan and shards of inputs read in pieces on the workers (local files and datasets:
+    a dataset's pieces are the files the pandas engine's filters keep, those filters pushed
+    into each piece's read)."""
     from accuracy_checks.dask.archived import archived_on_workers
     from accuracy_checks.dask.shards import HistoryPrune
     from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
     from accuracy_checks.sources.segments import read_mapping
 
+    progress("dask engine: inputs read in pieces on the workers")
     keys = list(config.forecast.keys)
-    f_files, a_files, h_places = places
+    f_src, a_src, h_srcs = places
+    explain = _explainer(client)
+    a_cols = actual_columns(config)
     needed = actuals_span(config)
-    every_a = pieces(a_files, "actuals")
+    every_a = source_pieces(a_src, a_cols, explain=explain)
     # the pre-read of the periods holding an actual (as sources/prereads.py), on the workers
     found = P.combine_periods(client.gather(client.map(
         P.actual_periods_piece, every_a, config=config, pure=False))) \
@@ -152,29 +170,34 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
     kept = tuple(pd.Timestamp(p) for p in found[-needed:]) if cut and found is not None \
         and needed is not None else None
 
-    f_pieces = pieces(f_files, "forecast")
-    # the actuals read: only the row groups that may hold a kept period
-    a_pieces = pieces(a_files, "actuals", column=config.actuals.period, wanted=kept) \
-        if kept is not None else every_a
-    h_pieces: list[tuple[int, Piece]] = []  # every row: the cycles' first periods
-    for i, files in enumerate(h_places):
-        h_pieces += [(i, p) for p in pieces(files, "history", start=len(h_pieces))]
+    # a dataset's columns as its reader checks them (a local file's: when read)
+    f_cols = forecast_columns(config) + (_segment_columns(config, f_src)
+                                         if f_src.is_dataset else [])
+    f_pieces = source_pieces(f_src, f_cols, explain=explain)
+    # the actuals read: only the row groups (the files) that may hold a kept period
+    period = config.actuals.period
+    a_pieces = source_pieces(a_src, a_cols, column=period, wanted=kept,
+                             filters=date_filters(a_cols, periods=(period, kept)),
+                             explain=explain) if kept is not None else every_a
+    # the local history files' every row: the cycles' first periods (a dataset's: below)
+    h_pieces: list[tuple[int, Piece]] = []
+    for i, src in enumerate(h_srcs):
+        if not src.is_dataset:
+            h_pieces += [(i, p) for p in source_pieces(src, [], start=len(h_pieces))]
 
     _refuse_mixed_offsets(client, [(f_pieces, forecast_columns(config)),
-                                   (every_a, actual_columns(config)),
+                                   (every_a, a_cols),
                                    ([p for _, p in h_pieces], forecast_columns(config))])
+    if f_src.is_dataset and not f_pieces:
+        raise no_rows(f_src)
     fsum = P.combine_forecast(client.gather(client.map(P.forecast_summary, f_pieces,
                                                        config=config, pure=False)))
-    if fsum.rows == 0:  # the readers' refusal (sources/files.py)
-        raise no_rows(f"The forecast {forecast_path or config.forecast.place} "
-                      "(config key `forecast.path`)", header=True)
+    if fsum.rows == 0:  # the readers' refusal
+        raise no_rows(f_src)
     asums = client.gather(client.map(P.actuals_summary, a_pieces, config=config,
                                      periods=kept, pure=False))
-    if not cut and sum(s.rows for s in asums) == 0:
-        raise no_rows(f"The actuals {actuals_path or config.actuals.place} "
-                      "(config key `actuals.path`)", header=True)
-    starts_parts = client.gather(client.map(P.history_starts, [p for _, p in h_pieces],
-                                            config=config, pure=False))
+    if sum(s.rows for s in asums) == 0:
+        raise no_rows(a_src)
     with_value = pd.unique(pd.concat([pd.Series(s.with_value) for s in asums]).to_numpy()) \
         if asums else []
     finite = pd.unique(pd.concat([pd.Series(s.finite) for s in asums]).to_numpy()) \
@@ -184,39 +207,49 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
     span = tuple(pd.Timestamp(p) for p in sorted(finite)[-span_n:]) if span_n > 0 else ()
     issued = pd.Timestamp(fsum.issue_counts.index.dropna().max()) \
         if fsum.issue_counts.index.notna().any() else pd.NaT
+    h_pieces += _dataset_history(config, h_srcs, span, start=len(h_pieces), explain=explain)
+    _refuse_mixed_offsets(client, [([p for i, p in h_pieces if h_srcs[i].is_dataset],
+                                    _history_dates(config))])
+    since = issued_since(config, list(span))
+    starts_parts = client.gather(client.map(
+        P.history_starts, [p for _, p in h_pieces],
+        [since if h_srcs[i].is_dataset else None for i, _ in h_pieces],
+        config=config, pure=False))
     history_starts = tuple(P.min_starts([s for (i, _), s in zip(h_pieces, starts_parts,
                                                                  strict=True) if i == place])
-                           for place in range(len(h_places)))
+                           for place in range(len(h_srcs)))
     plan = Plan(issued=issued, first_period=fsum.first_period,
                 issue_counts=fsum.issue_counts, actual_periods=kept, span=span,
                 window_start=recent[0] if recent else None, history_starts=history_starts,
                 actuals_place=actuals_path or config.actuals.place,
                 mapping=read_mapping(config), cut_actuals=cut)
 
-    history_cycles = {pd.Timestamp(t) for s in history_starts for t in s.index}
-    # the archive's snapshots chosen on the client, their rows read on the workers
-    archived = (archived_on_workers(client, config, archive, issued, history_cycles, span,
-                                    base=len(h_pieces)) if archive is not None else None)
 
     n_rows = fsum.rows + sum(s.rows for s in asums) * 2
     n_shards = max(2 * n_workers, math.ceil(n_rows / SHARD_ROWS))
     seg_cols = tuple(config.segments.columns)
-    f_cols = forecast_columns(config) + _segment_columns(config, f_files[0], "forecast")
+    if not f_src.is_dataset:
+        f_cols = forecast_columns(config) + _segment_columns(config, f_src)
     forecast = piece_frame(PieceReader(tuple(f_cols), tuple(keys), n_shards, text=seg_cols),
                            f_pieces)
     rename = (tuple(zip(config.actual_keys, keys, strict=True))
               if config.actuals.keys and list(config.actuals.keys) != keys else ())
-    actuals = piece_frame(PieceReader(tuple(actual_columns(config)), tuple(keys), n_shards,
+    actuals = piece_frame(PieceReader(tuple(a_cols), tuple(keys), n_shards,
                                       rename=rename), a_pieces)
-    # the earlier cycles read: only the row groups that may hold a period of the span
+    # the earlier cycles read: only the row groups (the files, the rows of a dataset) that
+    # may hold a period of the span
+    h_cols = (forecast_columns(config) + _segment_columns(config, h_srcs[0])) \
+        if h_srcs and h_srcs[0].is_dataset else []
     used: list[tuple[int, Piece]] = []
-    for i, files in enumerate(h_places):
-        used += [(i, p) for p in pieces(files, "history", start=len(used),
-                                        column=config.forecast.period, wanted=span)]
+    for i, src in enumerate(h_srcs):
+        filters, pairs = _history_filters(config, src, span, history_starts[i], issued)
+        used += [(i, p) for p in source_pieces(
+            src, h_cols, start=len(used), column=config.forecast.period, wanted=span,
+            filters=filters, pairs=pairs, allow_empty=True, explain=explain)]
     history = None
     if used:
-        h_cols = forecast_columns(config) + _segment_columns(
-            config, h_places[0][0], "history")
+        if not h_cols:  # (local files: the first file's header, as before)
+            h_cols = forecast_columns(config) + _segment_columns(config, h_srcs[0])
         history = piece_frame(PieceReader(tuple(h_cols), tuple(keys), n_shards, text=seg_cols,
                                           after=HistoryPrune(config, plan)), used)
     earlier_starts: list[pd.Series] = []
@@ -224,68 +257,153 @@ def _from_pieces(config: Config, client: Any, places: tuple[list[Path], list[Pat
         earlier_starts = client.gather(client.map(
             P.pruned_starts, [p for _, p in used], [i for i, _ in used],
             config=config, plan=plan, pure=False))
-    key_cols = tuple(c for c in actual_columns(config) if c.kind == "key")
+    history_cycles = {pd.Timestamp(t) for s in history_starts for t in s.index}
+    # the archive's snapshots chosen on the client, their rows read on the workers (numbered
+    # after every history piece: the pandas engine reads the archive last)
+    base = max(len(h_pieces), len(used))
+    archived = (archived_on_workers(client, config, archive, issued, history_cycles, span,
+                                    base=base) if archive is not None else None)
+    key_cols = tuple(c for c in a_cols if c.kind == "key")
     older = PieceReader(key_cols, rename=rename, text=tuple(keys))
     return M.Job(
         plan=replace(plan, extra={"earlier_starts": P.min_starts(earlier_starts),
                                   "finite_periods": tuple(pd.Timestamp(p)
                                                           for p in sorted(finite))}),
         n_shards=n_shards, forecast=forecast, actuals=actuals, history=history,
-        archived=archived, ordinal_base=len(h_pieces),
+        archived=archived, ordinal_base=base,
         info={"forecast_rows": fsum.rows, "older_pieces": every_a if cut else [],
               "older_reader": older, "places": {
             "forecast": {"path": str(forecast_path or config.forecast.place)},
             "actuals": {"path": str(actuals_path or config.actuals.place)}}})
 
 
-def _refuse_mixed_offsets(client: Any, inputs: list[tuple[list[Piece], list[Any]]]) -> None:
-    """The pandas engine's refusal of a Parquet file whose text dates mix UTC offsets across
-    its pieces (each piece alone may carry one): the offsets of each piece's text date
-    columns (:func:`~accuracy_checks.dask.read.date_forms`, on the workers, only for files of
-    several pieces with a text date column), then, for the first file that mixes them, the
-    whole file's conversion on a worker, which raises the converters' message."""
-    import pyarrow as pa
-    import pyarrow.parquet as pq
+def _explainer(client: Any) -> Explain:
+    """The pandas engine's refusal of a dataset read, asked of a worker (it reads the dataset
+    one column at a time: :func:`~accuracy_checks.dask.stores.dataset_error`)."""
+    from accuracy_checks.dask.stores import dataset_error
 
+    def explain(read: DatasetRead, columns: Sequence[Column]) -> InputError | None:
+        found: InputError | None = client.submit(dataset_error, read, list(columns),
+                                                 pure=False).result()
+        return found
+
+    return explain
+
+
+def _dataset_history(config: Config, h_srcs: list[Source], span: tuple[pd.Timestamp, ...], *,
+                     start: int, explain: Explain) -> list[tuple[int, Piece]]:
+    """The pieces of the history datasets the pandas engine's pre-read of the cycles reads:
+    the cycles issued since :func:`~accuracy_checks.sources.readers.issued_since` (older
+    partitions never opened)."""
+    fc = config.forecast
+    dates = _history_dates(config)
+    since = issued_since(config, list(span))
+    filters = date_filters(dates, since=(fc.issued, since) if since is not None else None)
+    out: list[tuple[int, Piece]] = []
+    for i, src in enumerate(h_srcs):
+        if src.is_dataset:
+            out += [(i, p) for p in source_pieces(src, dates, start=start + len(out),
+                                                  filters=filters, allow_empty=True,
+                                                  explain=explain)]
+    return out
+
+
+def _history_dates(config: Config) -> list[Column]:
+    """The issue date and period columns, in the order the pandas engine's pre-read of a
+    history dataset's cycles converts them."""
+    fc = config.forecast
+    dates = [c for c in forecast_columns(config) if c.name in (fc.issued, fc.period)]
+    return sorted(dates, key=lambda c: c.name != fc.issued)
+
+
+def _history_filters(config: Config, src: Source, span: tuple[pd.Timestamp, ...],
+                     starts: pd.Series, issued: pd.Timestamp) -> tuple[Any, Any]:
+    """The pandas engine's filters of a history dataset's read (none for local files): the
+    span's periods, the cycles issued since :func:`~accuracy_checks.sources.readers.
+    issued_since`, and the (issue date, period) pairs of the cycles it knows."""
+    from accuracy_checks.evaluation.join import cycle_targets
+    from accuracy_checks.sources.dataset_filters import PairFilter
+
+    if not src.is_dataset:
+        return (), None
+    fc = config.forecast
+    periods = list(span)
+    since = issued_since(config, periods)
+    cols = forecast_columns(config)
+    filters = date_filters(cols, periods=(fc.period, periods),
+                           since=(fc.issued, since) if since is not None else None)
+    known = starts.loc[starts.index < issued] if not pd.isna(issued) else starts.iloc[:0]
+    pairs = cycle_targets(known, periods=periods, lags=list(config.evaluation.lags),
+                          frequency=config.frequency)
+    return filters, PairFilter(fc.issued, fc.period, pairs, fc.date_formats.get(fc.issued),
+                               fc.date_formats.get(fc.period))
+
+
+def _refuse_mixed_offsets(client: Any, inputs: list[tuple[list[Piece], list[Any]]]) -> None:
+    """The pandas engine's refusal of a Parquet file (a dataset) whose text dates mix UTC
+    offsets across its pieces (each piece alone may carry one): the offsets of each piece's
+    text date columns (:func:`~accuracy_checks.dask.read.date_forms`, on the workers, only for
+    files or datasets of several pieces with a text date column), then, for the first that
+    mixes them, the whole file's (dataset's) conversion on a worker, which raises the
+    converters' message."""
     from accuracy_checks.dask.read import date_forms, whole_file_error
 
     for found, columns in inputs:
         dated = [c for c in columns if c.kind == "date"]
-        by_file: dict[Path, list[Piece]] = {}
+        by_file: dict[Any, list[Piece]] = {}
         for piece in found:
-            if piece.row_groups is not None:
-                by_file.setdefault(piece.file, []).append(piece)
-        wanted = []
-        for file, parts in by_file.items():
-            schema = pq.read_schema(file) if len(parts) > 1 else None
-            if schema is not None and any(
-                    c.name in schema.names and (pa.types.is_string(schema.field(c.name).type)
-                                                or pa.types.is_large_string(
-                                                    schema.field(c.name).type))
-                    for c in dated):
+            if piece.row_groups is not None or piece.store is not None:
+                by_file.setdefault(_unit(piece), []).append(piece)
+        wanted, here = [], []
+        for parts in by_file.values():
+            if len(parts) > 1 and _text_dates(parts[0], dated):
                 wanted += parts
-        if not wanted:
+            elif len(parts) > 1 and parts[0].store is not None:
+                here += parts  # only partition dates: their forms from the listed values
+        if not wanted and not here:
             continue
         forms = client.gather(client.map(date_forms, wanted, columns=dated, pure=False))
-        seen: dict[tuple[Path, str], set[str]] = {}
+        forms += [date_forms(p, dated) for p in here]
+        wanted += here
+        seen: dict[tuple[Any, str], set[str]] = {}
         for piece, per_column in zip(wanted, forms, strict=True):
             for name, got in per_column.items():
-                seen.setdefault((piece.file, name), set()).update(got)
-        for (file, _), got in seen.items():
+                seen.setdefault((_unit(piece), name), set()).update(got)
+        for (unit, _), got in seen.items():
             if len(got) > 1:
-                first = next(p for p in wanted if p.file == file)
+                first = next(p for p in wanted if _unit(p) == unit)
                 error = client.submit(whole_file_error, first, list(columns),
                                       pure=False).result()
                 if error is not None:
                     raise error
 
 
-def _segment_columns(config: Config, file: Path, role: str) -> list[Any]:
-    """The segment columns a file holds (read as text), as the readers add them."""
-    from accuracy_checks.sources.columns import Column
-    from accuracy_checks.sources.files import file_header
+def _unit(piece: Piece) -> Any:
+    """What the pandas engine converts as one: a local file, or a whole dataset."""
+    return piece.file if piece.store is None else (piece.store.shown, piece.role)
 
-    present = file_header(file, role)
+
+def _text_dates(piece: Piece, dated: list[Any]) -> bool:
+    """Whether a date column of ``piece``'s file (a dataset's files, partitions aside) may be
+    stored as text."""
+    import pyarrow as pa
+    import pyarrow.parquet as pq
+
+    from accuracy_checks.dask.read import text_date_columns
+
+    if piece.store is not None:
+        return bool(text_date_columns(piece, dated))
+    schema = pq.read_schema(piece.path)
+    return any(c.name in schema.names and (pa.types.is_string(schema.field(c.name).type)
+                                           or pa.types.is_large_string(
+                                               schema.field(c.name).type)) for c in dated)
+
+
+def _segment_columns(config: Config, source: Source) -> list[Any]:
+    """The segment columns an input holds (read as text), as the readers add them."""
+    from accuracy_checks.sources.columns import Column
+
+    present = source.header()
     names = {c.name for c in forecast_columns(config)}
     return [Column(s, "text", "segments.columns") for s in config.segments.columns
             if s in present and s not in names]

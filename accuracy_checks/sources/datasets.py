@@ -51,8 +51,9 @@ from accuracy_checks.errors import InputError
 from accuracy_checks.sources.columns import Column, convert, no_rows, refuse_missing
 from accuracy_checks.sources.dataset_filters import DateFilter, PairFilter, choose, row_expression
 
-__all__ = ["CONNECT_TIMEOUT_S", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter", "PairFilter",
-           "is_dataset", "open_dataset", "read_dataset_columns"]
+__all__ = ["CONNECT_TIMEOUT_S", "NA_TEXT", "REQUEST_TIMEOUT_S", "Dataset", "DateFilter",
+           "PairFilter", "dataset_columns", "dataset_format", "is_dataset", "open_dataset",
+           "read_dataset_columns", "url_filesystem", "why_masked"]
 
 #: seconds to reach an object store before the run gives up (exit 2)
 CONNECT_TIMEOUT_S = 5
@@ -62,8 +63,8 @@ REQUEST_TIMEOUT_S = 10
 _PARQUET = (".parquet", ".pq")
 _CSV = (".csv", ".csv.gz", ".txt")
 #: cells read as missing in number and date columns of CSV datasets (the files' words)
-_NA_TEXT = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
-            "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null"]
+NA_TEXT = ["", "#N/A", "#N/A N/A", "#NA", "-1.#IND", "-1.#QNAN", "-NaN", "-nan", "1.#IND",
+           "1.#QNAN", "<NA>", "N/A", "NA", "NULL", "NaN", "None", "n/a", "nan", "null"]
 
 
 @dataclass
@@ -88,11 +89,12 @@ def is_dataset(place: object) -> TypeGuard[Url | Path]:
         p.is_dir() and "=" in p.name for p in place.iterdir())
 
 
-def _why(exc: BaseException) -> str:
+def why_masked(exc: BaseException) -> str:
+    """The reader's words for ``exc`` on one line, any secret masked."""
     return mask_secrets(" ".join(str(exc).split()))
 
 
-def _filesystem(url: Url, key: str) -> tuple[Any, str, Any]:
+def url_filesystem(url: Url, key: str) -> tuple[Any, str, Any]:
     """``(pyarrow filesystem, path in it, temporary folder or None)`` of a URL."""
     import pyarrow.fs as pafs
 
@@ -174,8 +176,8 @@ def _download(text: str, url: Url, key: str) -> tuple[Any, str, Any]:
     except (urllib.error.URLError, OSError, ValueError) as exc:
         shutil.rmtree(tmp, ignore_errors=True)
         raise InputError(
-            f"Cannot read {url} (config key `{key}`): {_why(exc)}. Check the address and that "
-            f"the server answers within {REQUEST_TIMEOUT_S} s."
+            f"Cannot read {url} (config key `{key}`): {why_masked(exc)}. Check the address and "
+            f"that the server answers within {REQUEST_TIMEOUT_S} s."
         ) from None
     return pafs.LocalFileSystem(), str(target), tmp
 
@@ -198,7 +200,7 @@ def open_dataset(place: Url | Path, role: str, key: str) -> Dataset:
 
     shown = str(place)
     if isinstance(place, Url):
-        fs, root, tmp = _filesystem(place, key)
+        fs, root, tmp = url_filesystem(place, key)
     else:
         fs, root, tmp = pafs.LocalFileSystem(), str(place), None
     try:
@@ -228,7 +230,7 @@ def open_dataset(place: Url | Path, role: str, key: str) -> Dataset:
         raise
     except (OSError, ValueError) as exc:
         raise InputError(
-            f"Cannot reach the {role} {shown} (config key `{key}`): {_why(exc)}. Check the "
+            f"Cannot reach the {role} {shown} (config key `{key}`): {why_masked(exc)}. Check the "
             "bucket, the endpoint (AWS_ENDPOINT_URL for S3-compatible stores) and the "
             f"credentials (connect timeout {CONNECT_TIMEOUT_S} s, request timeout "
             f"{REQUEST_TIMEOUT_S} s)."
@@ -267,11 +269,11 @@ def _schema(data: Dataset, file: str, role: str, key: str) -> Any:
     import pyarrow.dataset as pds
 
     try:
-        return pds.dataset(file, filesystem=data.filesystem, format=_format(data, [])).schema
+        return pds.dataset(file, filesystem=data.filesystem, format=dataset_format(data, [])).schema
     except (OSError, ValueError) as exc:
         raise InputError(
             f"The {role} file {_shown_file(data, file)} (config key `{key}`) cannot be read as "
-            f"{'Parquet' if data.kind == 'parquet' else 'CSV'}: {_why(exc)}"
+            f"{'Parquet' if data.kind == 'parquet' else 'CSV'}: {why_masked(exc)}"
         ) from None
 
 
@@ -282,7 +284,7 @@ def _shown_file(data: Dataset, file: str) -> str:
     return f"{data.shown.rstrip('/')}/{rel}" if rel else data.shown
 
 
-def _format(data: Dataset, text_columns: Sequence[str]) -> Any:
+def dataset_format(data: Dataset, text_columns: Sequence[str]) -> Any:
     """The file format: ``text_columns`` read as text (CSV) or as dictionaries (Parquet, when
     the files store them as text)."""
     import pyarrow as pa
@@ -376,7 +378,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
     wanted = list(dict.fromkeys(c.name for c in [*columns, *extra]))
     if files:
         numbers = {c.name for c in [*columns, *extra] if c.kind == "number"}
-        fmt = _format(data, [n for n in wanted if n not in data.partitions
+        fmt = dataset_format(data, [n for n in wanted if n not in data.partitions
                              and (data.kind == "csv" or n not in numbers)])
         # partition values are text, whatever they look like ("07" stays "07"), as
         # dictionaries (one copy of each value, a categorical in pandas); the converters
@@ -393,7 +395,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
                                   partitioning=partitioning, partition_base_dir=data.root)
         except (OSError, ValueError, pa.ArrowInvalid) as exc:
             raise InputError(
-                f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
+                f"The {role} {data.shown} (config key `{key}`) cannot be read: {why_masked(exc)}"
             ) from None
         expression = row_expression(data.partitions, data.shown, dataset, filters, pairs, role)
         grouped = distinct and data.kind == "parquet" and (present is None or (
@@ -408,7 +410,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
                 table = dataset.to_table(columns=wanted, filter=expression)
         except (OSError, ValueError, pa.ArrowInvalid) as exc:
             raise InputError(
-                f"The {role} {data.shown} (config key `{key}`) cannot be read: {_why(exc)}"
+                f"The {role} {data.shown} (config key `{key}`) cannot be read: {why_masked(exc)}"
             ) from None
         frame = table.to_pandas(split_blocks=True, self_destruct=True)
         del table
@@ -431,7 +433,7 @@ def read_dataset_columns(place: Url | Path, columns: Sequence[Column], *, role: 
         if data.kind == "csv" and c.kind in ("date", "number") and (
                 raw.dtype == object or pd.api.types.is_string_dtype(raw.dtype)
                 or isinstance(raw.dtype, pd.CategoricalDtype)):
-            raw = raw.where(~raw.isin(_NA_TEXT))
+            raw = raw.where(~raw.isin(NA_TEXT))
         out[c.name] = convert(raw, shown, c, role, 1)
     result = pd.DataFrame(out, copy=False)  # (no consolidating copy of every column)
     if distinct:
