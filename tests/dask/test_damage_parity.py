@@ -7,6 +7,9 @@ headers, reserved segment names, damaged mappings and earlier cycles) is done to
 project's files; then the pandas engine and the dask engine (a real 2-process cluster) must
 both refuse the inputs with the same error type and message, or both give the same report
 (every result's check, status, counts, examples, message, values to 1e-9 relative).
+
+The examples are the same every run (a distributed run per example is slow, and the suite
+gates publishing); to hunt further, run with ``derandomize`` off and other seeds.
 """
 
 from __future__ import annotations
@@ -60,7 +63,7 @@ def assert_same_answer(project: Project, cluster: str, kinds: list[str]) -> None
     compare(pandas, dask)
 
 
-@damaged_by(DAMAGE, examples=12)
+@damaged_by(DAMAGE, examples=12, fixed=True)
 def test_damaged_forecasts_same_answer_on_both_engines(
         make_project: Callable[..., Project], cluster: str, kinds: list[str],
         seed: int) -> None:
@@ -71,7 +74,7 @@ def test_damaged_forecasts_same_answer_on_both_engines(
     assert_same_answer(make_project(forecast=frame), cluster, kinds)
 
 
-@damaged_by(ACTUALS_DAMAGE, examples=12)
+@damaged_by(ACTUALS_DAMAGE, examples=12, fixed=True)
 def test_damaged_actuals_mappings_and_earlier_cycles_same_answer_on_both_engines(
         make_project: Callable[..., Project], cluster: str, kinds: list[str],
         seed: int) -> None:
@@ -87,7 +90,7 @@ def test_damaged_actuals_mappings_and_earlier_cycles_same_answer_on_both_engines
     assert_same_answer(project, cluster, kinds)
 
 
-@settings(max_examples=12, deadline=None,
+@settings(max_examples=12, deadline=None, derandomize=True,
           suppress_health_check=[HealthCheck.function_scoped_fixture])
 @given(forecast_kinds=st.lists(DAMAGE, min_size=1, max_size=2),
        actuals_kinds=st.lists(ACTUALS_DAMAGE, min_size=1, max_size=2),

@@ -25,14 +25,15 @@ NON_FINITE = ["inf", "-inf", "nan", "Infinity", "-Infinity", "NaN", "1e308", "-1
               "1.7976931348623157e308"]
 
 
-def damaged_by(damage: st.SearchStrategy[str], examples: int = 25
+def damaged_by(damage: st.SearchStrategy[str], examples: int = 25, *, fixed: bool = False
                ) -> Callable[[Callable[..., None]], Callable[..., None]]:
     """``examples`` of one to three kinds of ``damage`` and a seed. Each example builds its
-    own project from the function-scoped fixture's factory, so reusing it is safe."""
+    own project from the function-scoped fixture's factory, so reusing it is safe.
+    ``fixed``: the same examples every run (hypothesis' ``derandomize``)."""
     def wrap(test: Callable[..., None]) -> Callable[..., None]:
         drawn = given(kinds=st.lists(damage, min_size=1, max_size=3),
                       seed=st.integers(0, 2**31 - 1))(test)
-        return settings(max_examples=examples, deadline=None,
+        return settings(max_examples=examples, deadline=None, derandomize=fixed,
                         suppress_health_check=[HealthCheck.function_scoped_fixture])(drawn)
     return wrap
 
