@@ -18,6 +18,7 @@ from __future__ import annotations
 from collections.abc import Sequence
 from dataclasses import dataclass
 from pathlib import Path
+from typing import Any
 
 import numpy as np
 import pandas as pd
@@ -26,6 +27,7 @@ from accuracy_checks.config import Config
 from accuracy_checks.dask.read import Piece, read_piece
 from accuracy_checks.dask.stores import read_dataset_piece
 from accuracy_checks.errors import InputError
+from accuracy_checks.evaluation.spans import evaluation_span
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
@@ -190,3 +192,35 @@ def combine_periods(parts: Sequence[np.ndarray | None]) -> pd.DatetimeIndex | No
     periods = pd.DatetimeIndex(pd.concat(found, ignore_index=True).unique()).sort_values()
     periods = periods.tz_localize(None) if periods.tz is not None else periods
     return periods.as_unit("ns")
+
+
+@dataclass(frozen=True)
+class Windows:
+    """The run's windows from the plan's reductions: the issue date checked (the forecast's
+    latest), the periods holding a finite actual (sorted), the evaluation span (the last of
+    them) and the coverage window's first period (``None``: no actual)."""
+
+    issued: pd.Timestamp
+    finite: tuple[pd.Timestamp, ...]
+    span: tuple[pd.Timestamp, ...]
+    window_start: Any
+
+
+def windows(config: Config, forecast: ForecastSummary,
+            actuals: Sequence[ActualsSummary]) -> Windows:
+    """:class:`Windows` of the run from the forecast's and the actuals' pieces' summaries."""
+
+    def distinct(name: str) -> list[Any]:
+        if not actuals:
+            return []
+        return sorted(pd.unique(pd.concat([pd.Series(getattr(s, name))
+                                           for s in actuals]).to_numpy()))
+
+    recent = distinct("with_value")[-config.coverage.active_periods:]
+    finite = [pd.Timestamp(p) for p in distinct("finite")]
+    n = evaluation_span(config)
+    counts = forecast.issue_counts.index
+    return Windows(issued=pd.Timestamp(counts.dropna().max()) if counts.notna().any()
+                   else pd.NaT,
+                   finite=tuple(finite), span=tuple(finite[-n:]) if n > 0 else (),
+                   window_start=recent[0] if recent else None)

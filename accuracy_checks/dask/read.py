@@ -38,7 +38,7 @@ from accuracy_checks.dask.stores import Store, dataset_error, read_dataset_piece
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets
 from accuracy_checks.sources import frames as F
-from accuracy_checks.sources.columns import Column, convert
+from accuracy_checks.sources.columns import Column, convert, first_refusal
 from accuracy_checks.sources.files import (
     PARQUET,
     READ_ERRORS,
@@ -260,17 +260,11 @@ def whole_file_error(piece: Piece, columns: Sequence[Column]) -> InputError | No
     whole = Piece(piece.path, piece.role, tuple(range(groups)), 0, piece.ordinal)
     if groups == 0:
         return None
-    done: set[str] = set()
-    for c in columns:
-        if c.name in done:
-            continue
-        done.add(c.name)
+    def check(c: Column) -> None:
         raw = _parquet(whole, [c.name], [c.name] if c.kind != "number" else [])
-        try:
-            convert(raw[c.name], piece.path, c, piece.role, 1)
-        except InputError as exc:
-            return exc
-    return None
+        convert(raw[c.name], piece.path, c, piece.role, 1)
+
+    return first_refusal(columns, check)
 
 
 #: a date written with a time and a UTC offset: the offset (``Z``, ``+HH``, ``+HHMM``,

@@ -152,7 +152,7 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     into each piece's read)."""
     from accuracy_checks.dask.archived import archived_on_workers
     from accuracy_checks.dask.shards import HistoryPrune
-    from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
+    from accuracy_checks.evaluation.spans import actuals_span
     from accuracy_checks.sources.segments import read_mapping
 
     progress("dask engine: inputs read in pieces on the workers")
@@ -198,15 +198,8 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
                                      periods=kept, pure=False))
     if sum(s.rows for s in asums) == 0:
         raise no_rows(a_src)
-    with_value = pd.unique(pd.concat([pd.Series(s.with_value) for s in asums]).to_numpy()) \
-        if asums else []
-    finite = pd.unique(pd.concat([pd.Series(s.finite) for s in asums]).to_numpy()) \
-        if asums else []
-    recent = sorted(with_value)[-config.coverage.active_periods:]
-    span_n = evaluation_span(config)
-    span = tuple(pd.Timestamp(p) for p in sorted(finite)[-span_n:]) if span_n > 0 else ()
-    issued = pd.Timestamp(fsum.issue_counts.index.dropna().max()) \
-        if fsum.issue_counts.index.notna().any() else pd.NaT
+    win = P.windows(config, fsum, asums)
+    span, issued = win.span, win.issued
     h_pieces += _dataset_history(config, h_srcs, span, start=len(h_pieces), explain=explain)
     _refuse_mixed_offsets(client, [([p for i, p in h_pieces if h_srcs[i].is_dataset],
                                     _history_dates(config))])
@@ -220,7 +213,7 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
                            for place in range(len(h_srcs)))
     plan = Plan(issued=issued, first_period=fsum.first_period,
                 issue_counts=fsum.issue_counts, actual_periods=kept, span=span,
-                window_start=recent[0] if recent else None, history_starts=history_starts,
+                window_start=win.window_start, history_starts=history_starts,
                 actuals_place=actuals_path or config.actuals.place,
                 mapping=read_mapping(config), cut_actuals=cut)
 
@@ -267,8 +260,7 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     older = PieceReader(key_cols, rename=rename, text=tuple(keys))
     return M.Job(
         plan=replace(plan, extra={"earlier_starts": P.min_starts(earlier_starts),
-                                  "finite_periods": tuple(pd.Timestamp(p)
-                                                          for p in sorted(finite))}),
+                                  "finite_periods": win.finite}),
         n_shards=n_shards, forecast=forecast, actuals=actuals, history=history,
         archived=archived, ordinal_base=base,
         info={"forecast_rows": fsum.rows, "older_pieces": every_a if cut else [],

@@ -40,7 +40,7 @@ from accuracy_checks.config import SqlSource
 from accuracy_checks.dask.read import ORDER, SHARD, as_text, shard_of
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import sql
-from accuracy_checks.sources.columns import Column
+from accuracy_checks.sources.columns import Column, first_refusal
 
 __all__ = ["PART_ROWS", "SqlPart", "dates_refused", "order_kind", "plan_parts"]
 
@@ -126,18 +126,9 @@ class SqlPart:
         """The pandas engine's refusal of this input: ``columns`` read over the whole
         statement (every partition) one at a time, in order, and converted (``None``: none
         refused). Run only when a partition is refused."""
-        done: set[str] = set()
-        for c in columns:
-            if c.name in done:
-                continue
-            done.add(c.name)
-            try:
-                sql.read_sql_columns(self.source, [c], role=self.role, key=self.key,
-                                     allow_empty=True, row_filter=self.row_filter,
-                                     pairs=self.pairs)
-            except InputError as exc:
-                return exc
-        return None
+        return first_refusal(columns, lambda c: sql.read_sql_columns(
+            self.source, [c], role=self.role, key=self.key, allow_empty=True,
+            row_filter=self.row_filter, pairs=self.pairs))
 
 
 def order_kind(source: SqlSource, role: str, key: str) -> str | None:

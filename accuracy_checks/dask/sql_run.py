@@ -102,7 +102,7 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
     from accuracy_checks.dask.archived import archived_on_workers
     from accuracy_checks.dask.shards import HistoryPrune
     from accuracy_checks.evaluation.join import cycle_targets
-    from accuracy_checks.evaluation.spans import actuals_span, evaluation_span
+    from accuracy_checks.evaluation.spans import actuals_span
     from accuracy_checks.sources.prereads import actual_periods, cycle_starts
     from accuracy_checks.sources.segments import read_mapping
 
@@ -162,22 +162,15 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
                                      periods=kept, pure=False))
     parts_starts = client.gather(client.map(P.history_starts, [p for _, p in h_pieces],
                                             config=config, pure=False))
-    with_value = pd.unique(pd.concat([pd.Series(s.with_value) for s in asums]).to_numpy()) \
-        if asums else []
-    finite = pd.unique(pd.concat([pd.Series(s.finite) for s in asums]).to_numpy()) \
-        if asums else []
-    recent = sorted(with_value)[-config.coverage.active_periods:]
-    span_n = evaluation_span(config)
-    span = tuple(pd.Timestamp(p) for p in sorted(finite)[-span_n:]) if span_n > 0 else ()
-    issued = pd.Timestamp(fsum.issue_counts.index.dropna().max()) \
-        if fsum.issue_counts.index.notna().any() else pd.NaT
+    win = P.windows(config, fsum, asums)
+    span, issued = win.span, win.issued
     history_starts = tuple(
         P.min_starts([s for (i, _), s in zip(h_pieces, parts_starts, strict=True) if i == place])
         if table_starts.get(place) is None else P.min_starts([table_starts[place]])
         for place in range(len(h_list)))
     plan = Plan(issued=issued, first_period=fsum.first_period,
                 issue_counts=fsum.issue_counts, actual_periods=kept, span=span,
-                window_start=recent[0] if recent else None, history_starts=history_starts,
+                window_start=win.window_start, history_starts=history_starts,
                 actuals_place=actuals_path or config.actuals.place,
                 mapping=read_mapping(config), cut_actuals=cut)
 
@@ -226,8 +219,7 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
              "actuals": {"path": str(actuals_path or config.actuals.place)}}
     return M.Job(
         plan=replace(plan, extra={"earlier_starts": P.min_starts(earlier_starts),
-                                  "finite_periods": tuple(pd.Timestamp(p)
-                                                          for p in sorted(finite))}),
+                                  "finite_periods": win.finite}),
         n_shards=n_shards, forecast=forecast, actuals=actuals, history=history,
         archived=archived, ordinal_base=max(len(h_pieces), len(used)) + 1,
         info={"forecast_rows": fsum.rows, "older_pieces": every_a if cut else [],

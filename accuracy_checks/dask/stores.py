@@ -34,7 +34,7 @@ import pandas as pd
 from accuracy_checks.config.places import Url
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets
-from accuracy_checks.sources.columns import Column
+from accuracy_checks.sources.columns import Column, first_refusal
 from accuracy_checks.sources.dataset_filters import DateFilter, PairFilter, row_expression
 
 __all__ = ["DatasetRead", "Store", "dataset_error", "filesystem", "read_dataset_piece",
@@ -165,15 +165,6 @@ def dataset_error(read: DatasetRead, columns: Sequence[Column]) -> InputError | 
     """The pandas engine's refusal of the dataset ``read`` (``None``: it refuses nothing):
     its reader run over ``columns`` one at a time (one column of the dataset in memory), in
     the order it converts them, so the first refusal is the one it gives."""
-    done: set[str] = set()
-    for c in columns:
-        if c.name in done:
-            continue
-        done.add(c.name)
-        try:
-            datasets.read_dataset_columns(read.place, [c], role=read.role, key=read.key,
-                                          allow_empty=True, filters=read.filters,
-                                          pairs=read.pairs)
-        except InputError as exc:
-            return exc
-    return None
+    return first_refusal(columns, lambda c: datasets.read_dataset_columns(
+        read.place, [c], role=read.role, key=read.key, allow_empty=True,
+        filters=read.filters, pairs=read.pairs))

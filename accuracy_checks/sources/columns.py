@@ -36,7 +36,7 @@ dictionary-encoded), never per row in Python.
 from __future__ import annotations
 
 import re
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 
@@ -67,6 +67,23 @@ class Column:
     key: str  # config key path, for messages
     canonical: str | None = None  # rename to this
     fmt: str | None = None  # dates: the strftime format (None: ISO 8601)
+
+
+def first_refusal(columns: Sequence[Column], check: Callable[[Column], object]
+                  ) -> InputError | None:
+    """The first :class:`InputError` of ``check`` run on each column of ``columns`` in order
+    (a column named twice checked once), or ``None``: how a reader's refusal is found again
+    one column at a time, so that only one column is in memory at once."""
+    done: set[str] = set()
+    for c in columns:
+        if c.name in done:
+            continue
+        done.add(c.name)
+        try:
+            check(c)
+        except InputError as exc:
+            return exc
+    return None
 
 
 def no_rows(where: str, *, header: bool = False) -> InputError:

@@ -23,9 +23,9 @@ from accuracy_checks.cli.main import main
 from tests.support.damage import (
     ACTUALS_DAMAGE,
     DAMAGE,
-    damage_actuals,
-    damage_forecast,
     damaged_by,
+    damaged_forecast,
+    damaged_project,
 )
 from tests.support.project import CURRENT, EARLIER, PRODUCTS, Project, actuals_frame, forecast_frame
 
@@ -47,9 +47,7 @@ def test_damaged_forecasts_get_a_verdict_or_a_clear_message(
         make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str],
         kinds: list[str], seed: int) -> None:
     rng = np.random.default_rng(seed)
-    frame = forecast_frame(CURRENT)
-    for kind in kinds:
-        frame = damage_forecast(frame, kind, rng)
+    frame = damaged_forecast(kinds, rng)
     project = make_project(forecast=frame)
     assert_verdict_or_message(project, capsys, kinds)
 
@@ -59,13 +57,7 @@ def test_damaged_actuals_and_mappings_get_a_verdict_or_a_clear_message(
         make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str],
         kinds: list[str], seed: int) -> None:
     rng = np.random.default_rng(seed)
-    actuals = actuals_frame(CURRENT).astype(object)
-    mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
-    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
-    for kind in kinds:
-        actuals, mapping, earlier = damage_actuals(actuals, mapping, earlier, kind, rng)
-    project = make_project(actuals=actuals, earlier=earlier)
-    project.write("products.csv", mapping)
+    project = damaged_project(make_project, kinds, rng)
     assert_verdict_or_message(project, capsys, kinds)
 
 

@@ -30,11 +30,11 @@ from tests.dask.support import compare
 from tests.support.damage import (
     ACTUALS_DAMAGE,
     DAMAGE,
-    damage_actuals,
-    damage_forecast,
     damaged_by,
+    damaged_forecast,
+    damaged_project,
 )
-from tests.support.project import CURRENT, EARLIER, PRODUCTS, Project, actuals_frame, forecast_frame
+from tests.support.project import CURRENT, EARLIER, Project, actuals_frame, forecast_frame
 
 
 def _answer(config: Path, engine: str, scheduler: str | None) -> RunReport | tuple[str, str]:
@@ -68,9 +68,7 @@ def test_damaged_forecasts_same_answer_on_both_engines(
         make_project: Callable[..., Project], cluster: str, kinds: list[str],
         seed: int) -> None:
     rng = np.random.default_rng(seed)
-    frame = forecast_frame(CURRENT)
-    for kind in kinds:
-        frame = damage_forecast(frame, kind, rng)
+    frame = damaged_forecast(kinds, rng)
     assert_same_answer(make_project(forecast=frame), cluster, kinds)
 
 
@@ -80,13 +78,7 @@ def test_damaged_actuals_mappings_and_earlier_cycles_same_answer_on_both_engines
         seed: int) -> None:
     assume(one_known_order(kinds))
     rng = np.random.default_rng(seed)
-    actuals = actuals_frame(CURRENT).astype(object)
-    mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
-    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
-    for kind in kinds:
-        actuals, mapping, earlier = damage_actuals(actuals, mapping, earlier, kind, rng)
-    project = make_project(actuals=actuals, earlier=earlier)
-    project.write("products.csv", mapping)
+    project = damaged_project(make_project, kinds, rng)
     assert_same_answer(project, cluster, kinds)
 
 
@@ -102,16 +94,8 @@ def test_several_broken_inputs_get_the_pandas_engines_refusal(
     refusal named is the one the pandas engine meets first (dask/first_error.py)."""
     assume(one_known_order(actuals_kinds))
     rng = np.random.default_rng(seed)
-    frame = forecast_frame(CURRENT)
-    for kind in forecast_kinds:
-        frame = damage_forecast(frame, kind, rng)
-    actuals = actuals_frame(CURRENT).astype(object)
-    mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
-    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
-    for kind in actuals_kinds:
-        actuals, mapping, earlier = damage_actuals(actuals, mapping, earlier, kind, rng)
-    project = make_project(forecast=frame, actuals=actuals, earlier=earlier)
-    project.write("products.csv", mapping)
+    frame = damaged_forecast(forecast_kinds, rng)
+    project = damaged_project(make_project, actuals_kinds, rng, forecast=frame)
     assert_same_answer(project, cluster, [*forecast_kinds, *actuals_kinds])
 
 

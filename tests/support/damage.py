@@ -13,6 +13,15 @@ import pandas as pd
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
+from tests.support.project import (
+    CURRENT,
+    EARLIER,
+    PRODUCTS,
+    Project,
+    actuals_frame,
+    forecast_frame,
+)
+
 DAMAGE = st.sampled_from([
     "drop_column", "text_in_number", "garbage_date", "blank_key", "duplicate_rows",
     "drop_rows", "nan", "inf", "negative", "cross_quantiles", "second_issue_date",
@@ -176,3 +185,25 @@ def damage_actuals(actuals: pd.DataFrame, mapping: pd.DataFrame, earlier: pd.Dat
         earlier.loc[int(rng.integers(len(earlier))), "units"] = str(
             rng.choice(["1e308", "-1e308", "inf"]))
     return actuals, mapping, earlier
+
+
+def damaged_forecast(kinds: list[str], rng: np.random.Generator) -> pd.DataFrame:
+    """The small project's current forecast with ``kinds`` of :data:`DAMAGE` done to it."""
+    frame = forecast_frame(CURRENT)
+    for kind in kinds:
+        frame = damage_forecast(frame, kind, rng)
+    return frame
+
+
+def damaged_project(make_project: Callable[..., Project], kinds: list[str],
+                    rng: np.random.Generator, forecast: pd.DataFrame | None = None) -> Project:
+    """The small project with ``kinds`` of :data:`ACTUALS_DAMAGE` done to its actuals,
+    mapping and earlier cycles (and ``forecast`` in place of its own, when given)."""
+    actuals = actuals_frame(CURRENT).astype(object)
+    mapping = pd.DataFrame({"product": list(PRODUCTS), "category": list(PRODUCTS.values())})
+    earlier = pd.concat([forecast_frame(d) for d in EARLIER], ignore_index=True)
+    for kind in kinds:
+        actuals, mapping, earlier = damage_actuals(actuals, mapping, earlier, kind, rng)
+    project = make_project(forecast=forecast, actuals=actuals, earlier=earlier)
+    project.write("products.csv", mapping)
+    return project
