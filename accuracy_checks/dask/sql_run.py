@@ -29,7 +29,7 @@ from accuracy_checks.dask.read import Piece, PieceReader, local_files, piece_fra
 from accuracy_checks.dask.shards import Plan
 from accuracy_checks.dask.sql_parts import SqlPart, dates_refused, order_kind, plan_parts
 from accuracy_checks.sources import sql
-from accuracy_checks.sources.columns import Column
+from accuracy_checks.sources.columns import Column, no_rows
 from accuracy_checks.sources.files import columns_of, file_header, sql_key
 from accuracy_checks.sources.load import ArchiveReader, Progress
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
@@ -158,8 +158,14 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
         ([p for _, p in h_pieces if isinstance(p, Piece)], h_cols)])
     fsum = P.combine_forecast(client.gather(client.map(P.forecast_summary, f_pieces,
                                                        config=config, pure=False)))
+    if fsum.rows == 0 and isinstance(f_place, list):  # files: the readers' refusal
+        raise no_rows(f"The forecast {forecast_path or config.forecast.place} "
+                      "(config key `forecast.path`)", header=True)
     asums = client.gather(client.map(P.actuals_summary, a_pieces, config=config,
                                      periods=kept, pure=False))
+    if not cut and isinstance(a_place, list) and sum(s.rows for s in asums) == 0:
+        raise no_rows(f"The actuals {actuals_path or config.actuals.place} "
+                      "(config key `actuals.path`)", header=True)
     parts_starts = client.gather(client.map(P.history_starts, [p for _, p in h_pieces],
                                             config=config, pure=False))
     win = P.windows(config, fsum, asums)

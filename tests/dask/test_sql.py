@@ -288,3 +288,17 @@ def test_only_plain_postgresql_tables_are_read_in_partitions(pg_url: str) -> Non
              for t in ("plain", "split", "split_a", "parent", "child", "shown")}
     assert kinds == {"plain": "ctid", "split": None, "split_a": "ctid", "parent": None,
                      "child": "ctid", "shown": None}
+
+
+def test_an_empty_forecast_file_beside_table_actuals_is_refused_alike(
+        make_project: Callable[..., Project], cluster: str,
+        monkeypatch: pytest.MonkeyPatch) -> None:
+    """A forecast file with a header and no rows, the actuals in a table: the readers'
+    refusal on both engines (the dask engine once crashed here, exit 3)."""
+    project = make_project(**_breached())
+    url = load_tables(project, "sqlite")
+    project.write("forecast.csv", _frames(project)["forecast"].iloc[:0])
+    point_at(project, url, ("actuals",))
+    pandas = _refusal(lambda: _pandas(project.config))
+    assert pandas == _refusal(lambda: _dask(project.config, cluster, monkeypatch))
+    assert "forecast.csv (config key `forecast.path`) has a header but no rows" in pandas
