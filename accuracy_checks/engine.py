@@ -5,7 +5,9 @@ Every input is read and validated before anything is written
 :func:`archived_cycles`), so an input error (exit 2) leaves the archive untouched;
 :func:`evaluate` computes every result (pure); :func:`run_checks` adds the drift checks and
 the waivers from the audit store, stages the snapshot and records the run in one store
-transaction (protocol in :mod:`accuracy_checks.store.archive`).
+transaction (protocol in :mod:`accuracy_checks.store.archive`; those steps are in
+:mod:`accuracy_checks.recording`, which also runs the hashing of the input files and the
+writing of the snapshot on threads beside the checks).
 """
 
 from __future__ import annotations
@@ -30,6 +32,14 @@ from accuracy_checks.checks.plugins import run_check_plugins
 from accuracy_checks.config import Config
 from accuracy_checks.config.places import Url
 from accuracy_checks.errors import UsageError
+from accuracy_checks.recording import (
+    StagingInBackground,
+    drift_and_waivers,
+    evaluated_cycles,
+    prepare_store_and_archive,
+    record,
+    still_staged,
+)
 from accuracy_checks.results import ALL_SERIES, CheckResult, RunReport
 from accuracy_checks.sources import frames as F
 from accuracy_checks.sources.frames import cycle_label
@@ -52,7 +62,6 @@ from accuracy_checks.store.remote_archive import open_archive
 
 if TYPE_CHECKING:
     from accuracy_checks.config.engines import Engine
-    from accuracy_checks.store import Store
     from accuracy_checks.store.remote_archive import RemoteStaged
 
 __all__ = ["ARCHIVE_CHECK", "archived_cycles", "evaluate", "given_frames", "run_checks",
@@ -220,10 +229,11 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     false) judge the figures against the earlier cycles in the audit store; then the waivers
     active at the run's start turn the breaches they cover (drift results included) into
     ``waived``; the forecast is staged for the archive (unless ``snapshot=False``, a dry
-    run); and the run is recorded in the audit store (``config.store``) in one transaction,
-    which allocates the run's attempt of its cycle and moves the staged snapshot to that
-    attempt's name (protocol in :mod:`accuracy_checks.store.archive`). ``label`` is an optional
-    pipeline run label kept with the record. Raises ``StoreError`` (a ``UsageError``) when the
+    run; written on a thread while the checks run, once the inputs are read); and the run
+    is recorded in the audit store (``config.store``) in one transaction, which allocates
+    the run's attempt of its cycle and moves the staged snapshot to that attempt's name
+    (protocol in :mod:`accuracy_checks.store.archive`). ``label`` is an optional pipeline run
+    label kept with the record. Raises ``StoreError`` (a ``UsageError``) when the
     store cannot be opened or written, ``ArchiveError`` when the archive cannot be read or
     written: then nothing is recorded and nothing archived. Both are checked before the checks
     run where they can be (a file where a folder should be, a folder that cannot be written,
@@ -234,6 +244,7 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
     reading and the checks (same results); drift, waivers and the record are the same code.
     """
     from accuracy_checks.store import open_store
+    from accuracy_checks.store.fingerprints import FileHashes, local_input_files
 
     progress = progress or quiet
     started = datetime.now(UTC)
@@ -242,61 +253,60 @@ def run_checks(config: Config, *, forecast_path: Path | Url | None = None,
                           mapping=mapping, forecast_path=forecast_path,
                           actuals_path=actuals_path)
     settings = _engine_settings(config, engine, scheduler)
-    recorded = _prepare_store_and_archive(config, snapshot=snapshot, progress=progress)
+    recorded = prepare_store_and_archive(config, snapshot=snapshot, progress=progress)
     staged: StagedSnapshot | RemoteStaged | None = None
-    inputs: Inputs | None = None
-    if settings.name == "dask":
-        from accuracy_checks.dask.cluster import open_client
-        from accuracy_checks.dask.run import evaluate_on_dask, refuse_plugins
+    staging: StagingInBackground | None = None
+    with FileHashes(local_input_files(config, forecast_path=forecast_path,
+                                      actuals_path=actuals_path, frames=frames)) as hashes:
+        try:
+            if settings.name == "dask":
+                from accuracy_checks.dask.cluster import open_client
+                from accuracy_checks.dask.run import evaluate_on_dask, refuse_plugins
 
-        refuse_plugins()
-        with open_client(settings) as client:
-            done = evaluate_on_dask(config, client, forecast_path=forecast_path,
-                                    actuals_path=actuals_path, progress=progress,
-                                    archive=archived_cycles(config, recorded), frames=frames,
-                                    snapshot=snapshot)
-        results = done.results + unmatched_segments(config, done.segments)
-        issued, info, staged = done.issued, done.info, done.staged
-    else:
-        inputs = load_inputs(config, forecast_path=forecast_path, actuals_path=actuals_path,
-                             progress=progress, archive=archived_cycles(config, recorded),
-                             frames=frames, reduce_history=True)
-        results = evaluate(config, inputs, progress=progress)
-        issued, info = inputs.issued, inputs.info
-    cycle = cycle_label(issued)
-    try:
-        with open_store(config) as store:
-            results = _drift_and_waivers(config, results, store, cycle=cycle,
-                                         started=started, progress=progress)
-            if snapshot and inputs is not None:
-                staged = _stage_snapshot(config, inputs, progress)
-            report = RunReport(
-                run_id=run_id,
-                cycle=cycle,
-                attempt=None,
-                results=results,
-                started_at=started.isoformat(timespec="seconds"),
-                finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
-                config_path=str(config.source) if config.source else None,
-                inputs=info,
-                evaluated_cycles=_evaluated_cycles(results),
-                label=label,
-            )
-            _record(config, store, report, staged, forecast_path=forecast_path,
-                    actuals_path=actuals_path, progress=progress)
-    except BaseException:
-        if staged is not None and _still_staged(staged):
-            staged.discard()
-        raise
+                refuse_plugins()
+                with open_client(settings) as client:
+                    done = evaluate_on_dask(
+                        config, client, forecast_path=forecast_path, actuals_path=actuals_path,
+                        progress=progress, archive=archived_cycles(config, recorded),
+                        frames=frames, snapshot=snapshot)
+                results = done.results + unmatched_segments(config, done.segments)
+                issued, info, staged = done.issued, done.info, done.staged
+            else:
+                inputs = load_inputs(config, forecast_path=forecast_path,
+                                     actuals_path=actuals_path, progress=progress,
+                                     archive=archived_cycles(config, recorded), frames=frames,
+                                     reduce_history=True)
+                if snapshot:
+                    staging = StagingInBackground(config, inputs)
+                results = evaluate(config, inputs, progress=progress)
+                issued, info = inputs.issued, inputs.info
+            cycle = cycle_label(issued)
+            with open_store(config) as store:
+                results = drift_and_waivers(config, results, store, cycle=cycle,
+                                            started=started, progress=progress)
+                if staging is not None:
+                    staged, staging = staging.result(progress), None
+                report = RunReport(
+                    run_id=run_id,
+                    cycle=cycle,
+                    attempt=None,
+                    results=results,
+                    started_at=started.isoformat(timespec="seconds"),
+                    finished_at=datetime.now(UTC).isoformat(timespec="seconds"),
+                    config_path=str(config.source) if config.source else None,
+                    inputs=info,
+                    evaluated_cycles=evaluated_cycles(results),
+                    label=label,
+                )
+                record(config, store, report, staged, forecast_path=forecast_path,
+                       actuals_path=actuals_path, progress=progress, hashes=hashes)
+        except BaseException:
+            if staging is not None:
+                staging.discard()
+            if staged is not None and still_staged(staged):
+                staged.discard()
+            raise
     return report
-
-
-def _still_staged(staged: StagedSnapshot | RemoteStaged) -> bool:
-    """Whether a staged snapshot still waits in the staging folder (not placed yet)."""
-    if getattr(staged, "claimed", None) == []:  # the dask engine's parts, not claimed yet
-        return True
-    path = getattr(staged, "path", None)
-    return isinstance(path, Path) and path.exists()
 
 
 def _engine_settings(config: Config, engine: str | None, scheduler: str | None) -> Engine:
@@ -329,110 +339,6 @@ def given_frames(*, forecast: object = None, actuals: object = None, history: ob
                              f"(`{name}_path`) were given: give one of them.")
     frames = GivenFrames(forecast=forecast, actuals=actuals, history=history, mapping=mapping)
     return frames if frames.any else None
-
-
-def _prepare_store_and_archive(config: Config, *, snapshot: bool,
-                               progress: Progress) -> dict[str, int] | None:
-    """Fail fast, before the checks (a bad store URL or location, an unusable archive); move
-    aside the snapshots of runs killed before their record committed (crash debris, never a
-    recorded snapshot); return which snapshot is the last of each cycle, as recorded
-    (``None`` when there is no store yet)."""
-    from accuracy_checks.store import open_store
-    from accuracy_checks.store.database import check_sqlite_location, validate_url
-    from accuracy_checks.store.urls import default_store_url, sqlite_file
-
-    store_url = default_store_url(config)
-    validate_url(store_url)
-    db_file = sqlite_file(store_url)
-    if db_file is not None:
-        check_sqlite_location(db_file)
-    open_archive(config.archive).check_usable(write=snapshot)
-    if db_file is not None and not db_file.exists():
-        return None
-    with open_store(store_url) as store:
-        moved = store.retire_orphans(config.archive)
-        finished = store.finish_snapshots(config.archive)
-        recorded = store.archived_attempts()
-    if moved:
-        progress(f"moved {len(moved)} unrecorded snapshot(s) left by interrupted runs "
-                 f"to {_parent(_parent(moved[0]))}")
-    if finished:
-        progress(f"wrote {len(finished)} snapshot(s) of recorded runs that were interrupted "
-                 f"before their upload: {', '.join(map(str, finished))}")
-    return recorded
-
-
-def _parent(path: Path | str) -> Path | str:
-    """The folder of a local path or of an object's URL."""
-    return path.parent if isinstance(path, Path) else path.rsplit("/", 1)[0]
-
-
-def _drift_and_waivers(config: Config, results: list[CheckResult], store: Store, *,
-                       cycle: str, started: datetime, progress: Progress) -> list[CheckResult]:
-    """``results`` with the drift results added (unless drift is off) and the waivers active
-    at ``started`` applied (drift results are waivable like any other)."""
-    from accuracy_checks.store import apply_waivers
-
-    if config.drift.enabled:
-        from accuracy_checks.checks.drift import drift_checks
-
-        t0 = time.perf_counter()
-        found = drift_checks(config, results, store, cycle=cycle)
-        results = [*results, *found]
-        progress(f"drift checks against earlier cycles: {len(found)} result(s) in "
-                 f"{time.perf_counter() - t0:.1f} s")
-    results = apply_waivers(results, store.active_waivers(on=started))
-    waived = sum(r.status == "waived" for r in results)
-    if waived:
-        progress(f"{waived} breach(es) waived by active waivers (see the results)")
-    return results
-
-
-def _stage_snapshot(config: Config, inputs: Inputs,
-                    progress: Progress) -> StagedSnapshot | RemoteStaged:
-    """The forecast written in full to the archive's staging folder (outside any lock)."""
-    t0 = time.perf_counter()
-    staged = open_archive(config.archive).stage(inputs.forecast, inputs.issued)
-    progress(f"snapshot staged in {time.perf_counter() - t0:.1f} s")
-    return staged
-
-
-def _record(config: Config, store: Store, report: RunReport,
-            staged: StagedSnapshot | RemoteStaged | None, *,
-            forecast_path: Path | Url | None, actuals_path: Path | Url | None,
-            progress: Progress) -> None:
-    """Record ``report`` (and place the staged snapshot) in one store transaction; the staged
-    file is discarded when the inputs' fingerprints cannot be taken."""
-    from accuracy_checks.store import input_fingerprints
-
-    t0 = time.perf_counter()
-    try:
-        fingerprints = input_fingerprints(config, report.inputs, forecast_path=forecast_path,
-                                          actuals_path=actuals_path)
-    except BaseException:
-        if staged is not None:
-            staged.discard()
-        raise
-    store.record_run(report, config=config, fingerprints=fingerprints, snapshot=staged,
-                     progress=progress)
-    where = f"; snapshot {report.snapshot}" if report.snapshot else ""
-    progress(f"recorded as attempt {report.attempt} of cycle {report.cycle} in the audit "
-             f"store {store.url} in {time.perf_counter() - t0:.1f} s{where}")
-
-
-def _evaluated_cycles(results: list[CheckResult]) -> list[dict[str, object]]:
-    """The earlier cycles the accuracy results used, once each, by cycle."""
-    evaluated = sorted({(r.get("cycle"), r.get("attempt"), r.get("source"))
-                        for r in _cycles_of(results)}, key=lambda t: str(t[0]))
-    return [{"cycle": c, "attempt": a, "source": s} for c, a, s in evaluated]
-
-
-def _cycles_of(results: list[CheckResult]) -> list[dict[str, object]]:
-    """The cycles (with attempt and source) the accuracy results were measured on."""
-    out: list[dict[str, object]] = []
-    for r in results:
-        out.extend(r.details.get("cycles", []) if r.check == "accuracy" else [])
-    return out
 
 
 def evaluate(config: Config, inputs: Inputs, *, progress: Progress = quiet) -> list[CheckResult]:

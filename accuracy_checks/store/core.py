@@ -150,7 +150,7 @@ class Store:
         (protocol in :mod:`accuracy_checks.store.archive`); with ``config`` but no snapshot,
         unrecorded snapshots numbered N or above are still moved aside, so the archive never
         holds a number that the store gives to another run. ``fingerprints`` (see
-        :func:`~accuracy_checks.store.record.input_fingerprints`) default to
+        :func:`~accuracy_checks.store.fingerprints.input_fingerprints`) default to
         ``report.inputs``. ``archive`` is the archive folder or URL (default
         ``config.archive``; ``snapshot.root`` when only a snapshot is given). Raises
         :class:`StoreError` when the store cannot be written; then nothing is recorded and the

@@ -10,9 +10,7 @@ result rows), the canonical JSON being sorted keys, no whitespace, timestamps as
 UTC. Editing, inserting or deleting any recorded run or result breaks the chain from there on;
 :meth:`accuracy_checks.store.Store.verify` recomputes it.
 
-**Input fingerprints**: for each input file (forecast, actuals, history, mapping) its path,
-SHA-256, size in bytes and, where known, its row count; a folder is hashed as the SHA-256 of
-its files' relative names and SHA-256s, in name order.
+The input fingerprints kept with a run are made by :mod:`accuracy_checks.store.fingerprints`.
 """
 
 from __future__ import annotations
@@ -27,7 +25,6 @@ import socket
 from collections import Counter
 from collections.abc import Callable, Sequence
 from datetime import UTC, datetime
-from pathlib import Path
 from typing import TYPE_CHECKING, Any
 
 from sqlalchemy import Connection
@@ -38,7 +35,6 @@ from accuracy_checks.version import __version__
 
 if TYPE_CHECKING:
     from accuracy_checks.config import Config
-    from accuracy_checks.config.places import Url
 
 #: the run fields covered by the digest (every column but ``id`` and ``digest``)
 RUN_FIELDS = (
@@ -309,66 +305,6 @@ def _canon(value: Any) -> Any:
     if isinstance(value, datetime):
         return iso(value)
     return value
-
-
-# ------------------------------------------------------------------------ input fingerprints
-
-
-def file_fingerprint(path: Any) -> dict[str, Any]:
-    """``{"path", "sha256", "bytes"}`` of a file, or of a folder's files (see module doc); a
-    table or query (``SqlSource``) is named only (its ``str``, password masked)."""
-    if not isinstance(path, str | Path):
-        return {"path": str(path), "sha256": None, "bytes": None}
-    path = Path(path)
-    if path.is_dir():
-        h = hashlib.sha256()
-        size = 0
-        for f in sorted(p for p in path.rglob("*") if p.is_file()):
-            digest, n = _sha256(f)
-            h.update(f"{f.relative_to(path).as_posix()}\0{digest}\n".encode())
-            size += n
-        return {"path": str(path), "sha256": h.hexdigest(), "bytes": size}
-    if path.is_file():
-        digest, n = _sha256(path)
-        return {"path": str(path), "sha256": digest, "bytes": n}
-    return {"path": str(path), "sha256": None, "bytes": None}
-
-
-def _sha256(path: Path) -> tuple[str, int]:
-    with open(path, "rb") as fh:
-        digest = hashlib.file_digest(fh, "sha256").hexdigest()
-        return digest, fh.tell()
-
-
-def input_fingerprints(config: Config, info: dict[str, Any], *,
-                       forecast_path: Path | Url | None = None,
-                       actuals_path: Path | Url | None = None) -> dict[str, Any]:
-    """Fingerprints of every input of a run, with the row counts from the run's ``info``.
-    An input given as a frame has no file: its ``info`` entry (``"frame"``, rows, content
-    hash; :mod:`accuracy_checks.sources.memory`) is its fingerprint."""
-    out: dict[str, Any] = {}
-    for role, path in (("forecast", forecast_path or config.forecast.place),
-                       ("actuals", actuals_path or config.actuals.place)):
-        seen = info.get(role)
-        if isinstance(seen, dict) and "frame" in seen:
-            out[role] = dict(seen)
-            continue
-        entry = file_fingerprint(path)
-        if isinstance(seen, dict):
-            entry.update({k: v for k, v in seen.items() if k != "path"})
-        out[role] = entry
-    if isinstance(info.get("history"), list):
-        out["history"] = list(info["history"])
-    elif config.history_paths:
-        out["history"] = [file_fingerprint(p) for p in config.history_paths]
-    if isinstance(info.get("mapping"), dict):
-        out["mapping"] = dict(info["mapping"])
-    elif config.segments.mapping_place is not None:
-        out["mapping"] = file_fingerprint(config.segments.mapping_place)
-    earlier = info.get("earlier")
-    if isinstance(earlier, dict):
-        out["earlier"] = dict(earlier)
-    return out
 
 
 def insert_results(conn: Connection, run_pk: int, rows: Sequence[Sequence[Any]]) -> None:
