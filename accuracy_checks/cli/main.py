@@ -167,10 +167,12 @@ def _place(text: str | None, option: str) -> Path | Url | None:
 
 
 def _run(args: argparse.Namespace) -> int:
+    from accuracy_checks.cli.memory import keep_freed_memory
     from accuracy_checks.engine import run_checks
     from accuracy_checks.measures.catalogue import load_config
     from accuracy_checks.outputs import render_console, write_json, write_junit, write_markdown
 
+    keep_freed_memory()  # this process ends with the run: reuse what it frees (see module)
     config = load_config(args.config)
     color = False if args.no_color or os.environ.get("NO_COLOR") else None
 
