@@ -43,9 +43,11 @@ LAYERS: tuple[tuple[str, tuple[str, ...]], ...] = (
     ("sources/evaluation/measures", ("accuracy_checks.sources", "accuracy_checks.evaluation",
                                      "accuracy_checks.measures")),
     ("checks/store", ("accuracy_checks.checks", "accuracy_checks.store")),
-    # dask: the dask engine, beside engine.py (which calls it lazily)
+    # dask: the dask engine, beside engine.py (which calls it lazily); recording: the run's
+    # store and archive steps, which engine.py calls
     ("outputs/report/engine/dask", ("accuracy_checks.outputs", "accuracy_checks.report",
-                                    "accuracy_checks.engine", "accuracy_checks.dask")),
+                                    "accuracy_checks.engine", "accuracy_checks.recording",
+                                    "accuracy_checks.dask")),
     ("cli/demo/prefect/gx/api", ("accuracy_checks.cli", "accuracy_checks.__main__",
                                  "accuracy_checks.demo", "accuracy_checks.prefect",
                                  "accuracy_checks.gx", "accuracy_checks.api",
