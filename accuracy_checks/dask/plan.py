@@ -24,7 +24,7 @@ import numpy as np
 import pandas as pd
 
 from accuracy_checks.config import Config
-from accuracy_checks.dask.read import Piece, read_piece
+from accuracy_checks.dask.read import Piece, PieceReader, piece_frame, read_piece
 from accuracy_checks.dask.stores import read_dataset_piece
 from accuracy_checks.errors import InputError
 from accuracy_checks.evaluation.spans import evaluation_span
@@ -33,8 +33,8 @@ from accuracy_checks.sources.columns import Column
 from accuracy_checks.sources.readers import actual_columns, forecast_columns
 
 __all__ = ["ActualsSummary", "ForecastSummary", "actual_periods_piece", "actuals_summary",
-           "combine_forecast", "combine_periods",
-           "forecast_summary", "history_starts", "min_starts", "pruned_starts"]
+           "combine_forecast", "combine_periods", "forecast_summary", "history_pieces",
+           "history_starts", "min_starts", "pruned_starts"]
 
 
 def _dates(config: Config, role: str) -> list[Column]:
@@ -129,6 +129,22 @@ def pruned_starts(piece: Piece, place: int, *, config: Config, plan: object) -> 
     read = read_piece(piece, _dates(config, "history"), every=_every(config, "history"))
     frame = prune_history_piece(read, config, plan, place)
     return frame.groupby(F.ISSUED, sort=False)[F.PERIOD].min()
+
+
+def history_pieces(client: Any, config: Config, plan: object, used: Sequence[tuple[int, Any]],
+                   columns: Sequence[Column], keys: Sequence[str], n_shards: int,
+                   text: Sequence[str]) -> tuple[Any, list[pd.Series]]:
+    """The history pieces used (``(history entry, piece)`` pairs in reading order; ``used``
+    not empty) as one dask dataframe of the rows the evaluation uses, and each piece's first
+    period of each cycle among them (:func:`pruned_starts`, computed on the workers)."""
+    from accuracy_checks.dask.shards import HistoryPrune, Plan
+
+    assert isinstance(plan, Plan)
+    frame = piece_frame(PieceReader(tuple(columns), tuple(keys), n_shards, text=tuple(text),
+                                    after=HistoryPrune(config, plan)), list(used))
+    starts = client.gather(client.map(pruned_starts, [p for _, p in used], [i for i, _ in used],
+                                      config=config, plan=plan, pure=False))
+    return frame, starts
 
 
 def actual_periods_piece(piece: Piece, config: Config) -> np.ndarray | None:

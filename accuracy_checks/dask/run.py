@@ -151,7 +151,6 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
     a dataset's pieces are the files the pandas engine's filters keep, those filters pushed
     into each piece's read)."""
     from accuracy_checks.dask.archived import archived_on_workers
-    from accuracy_checks.dask.shards import HistoryPrune
     from accuracy_checks.evaluation.spans import actuals_span
     from accuracy_checks.sources.segments import read_mapping
 
@@ -239,17 +238,13 @@ def _from_pieces(config: Config, client: Any, places: Places, *,
         used += [(i, p) for p in source_pieces(
             src, h_cols, start=len(used), column=config.forecast.period, wanted=span,
             filters=filters, pairs=pairs, allow_empty=True, explain=explain)]
-    history = None
+    history: Any = None
+    earlier_starts: list[pd.Series] = []
     if used:
         if not h_cols:  # (local files: the first file's header, as before)
             h_cols = forecast_columns(config) + _segment_columns(config, h_srcs[0])
-        history = piece_frame(PieceReader(tuple(h_cols), tuple(keys), n_shards, text=seg_cols,
-                                          after=HistoryPrune(config, plan)), used)
-    earlier_starts: list[pd.Series] = []
-    if used:
-        earlier_starts = client.gather(client.map(
-            P.pruned_starts, [p for _, p in used], [i for i, _ in used],
-            config=config, plan=plan, pure=False))
+        history, earlier_starts = P.history_pieces(client, config, plan, used, h_cols, keys,
+                                                   n_shards, seg_cols)
     history_cycles = {pd.Timestamp(t) for s in history_starts for t in s.index}
     # the archive's snapshots chosen on the client, their rows read on the workers (numbered
     # after every history piece: the pandas engine reads the archive last)

@@ -100,7 +100,6 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
     ``None`` when one input is read on the client. ``refuse_offsets``: the file pieces' check
     of text dates mixing UTC offsets (``dask/run.py``'s)."""
     from accuracy_checks.dask.archived import archived_on_workers
-    from accuracy_checks.dask.shards import HistoryPrune
     from accuracy_checks.evaluation.join import cycle_targets
     from accuracy_checks.evaluation.spans import actuals_span
     from accuracy_checks.sources.prereads import actual_periods, cycle_starts
@@ -203,17 +202,12 @@ def sql_job(config: Config, client: Any, *, forecast_path: Path | Url | None,
                              wanted=span if known else None, pairs=pairs, candidates=dated)
         _refuse_dates(client, place, h_cols, found_parts)
         used += [(i, p) for p in found_parts]
-    history = None
-    if used:
-        first = h_list[0]
-        h_all = h_cols + _segment_columns(config, first, "history")
-        history = piece_frame(PieceReader(tuple(h_all), tuple(keys), n_shards, text=seg_cols,
-                                          after=HistoryPrune(config, plan)), used)
+    history: Any = None
     earlier_starts: list[pd.Series] = []
     if used:
-        earlier_starts = client.gather(client.map(
-            P.pruned_starts, [p for _, p in used], [i for i, _ in used],
-            config=config, plan=plan, pure=False))
+        h_all = h_cols + _segment_columns(config, h_list[0], "history")
+        history, earlier_starts = P.history_pieces(client, config, plan, used, h_all, keys,
+                                                   n_shards, seg_cols)
     # the archive's snapshots chosen on the client, their rows read on the workers (numbered
     # after every history piece and partition: the pandas engine reads the archive last)
     archived = (archived_on_workers(client, config, archive, issued, history_cycles, span,

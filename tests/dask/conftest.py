@@ -6,13 +6,12 @@ from collections.abc import Iterator
 
 import pytest
 
+from tests.dask.support import local_cluster
+
 
 @pytest.fixture(scope="module")
 def cluster() -> Iterator[str]:
-    """A real local cluster of 2 worker processes for the module (~2 s to start); yields its
-    scheduler's address."""
-    import distributed
-
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=":0", silence_logs=40) as local:
-        yield local.scheduler_address
+    """A real local cluster of 2 worker processes for the module; yields its scheduler's
+    address."""
+    with local_cluster() as address:
+        yield address

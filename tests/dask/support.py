@@ -3,10 +3,15 @@
 from __future__ import annotations
 
 import math
+from collections.abc import Iterator
+from contextlib import contextmanager
 from pathlib import Path
 from typing import Any
 
+import pytest
+
 from accuracy_checks import load_config, run_checks
+from accuracy_checks.errors import InputError
 from accuracy_checks.results import RunReport
 
 #: the numbers of the two engines agree to this relative tolerance
@@ -55,3 +60,27 @@ def both(config: Path, scheduler: str, **kwargs: Any) -> tuple[RunReport, RunRep
     cfg = load_config(config)
     return (run_checks(cfg, engine="pandas", **kwargs),
             run_checks(cfg, engine="dask", scheduler=scheduler, **kwargs))
+
+
+def refusals(config: Path, scheduler: str) -> list[str]:
+    """The InputError message of each engine (pandas, then dask on ``scheduler``) on
+    ``config`` (dry runs)."""
+    cfg = load_config(config)
+    out = []
+    for engine in ("pandas", "dask"):
+        with pytest.raises(InputError) as err:
+            run_checks(cfg, engine=engine, scheduler=scheduler if engine == "dask" else None,
+                       snapshot=False)
+        out.append(str(err.value))
+    return out
+
+
+@contextmanager
+def local_cluster() -> Iterator[str]:
+    """A real local cluster of 2 worker processes (~2 s to start); yields its scheduler's
+    address. The workers inherit the environment as it is when it starts."""
+    import distributed
+
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  dashboard_address=":0", silence_logs=40) as local:
+        yield local.scheduler_address

@@ -21,8 +21,7 @@ from accuracy_checks import load_config, run_checks
 from accuracy_checks.dask import client_read
 from accuracy_checks.dask import read as R
 from accuracy_checks.demo.scenario import generate_scenario
-from accuracy_checks.errors import InputError
-from tests.dask.support import both, compare
+from tests.dask.support import both, compare, refusals
 from tests.sources.test_sql import BREACHED
 from tests.support.project import Project
 
@@ -172,17 +171,6 @@ def test_the_test_project_as_a_lake(make_project: Callable[..., Project], cluste
         [(r.check, r.segment, r.status, r.value) for r in pandas_report.results]
 
 
-def _messages(config: Path, cluster: str) -> list[str]:
-    cfg = load_config(config)
-    out = []
-    for engine in ("pandas", "dask"):
-        with pytest.raises(InputError) as err:
-            run_checks(cfg, engine=engine, scheduler=cluster if engine == "dask" else None,
-                       snapshot=False)
-        out.append(str(err.value))
-    return out
-
-
 @pytest.fixture
 def project_lake(make_project: Callable[..., Project]) -> Iterator[tuple[Project, Path, Path]]:
     """The test project as a local Parquet lake: (project, lake folder, config)."""
@@ -202,7 +190,7 @@ def test_a_damaged_file_in_the_span_is_refused_with_the_same_message(
                     "actuals/week=2026-02-16/part-1.parquet"):
         good = (root / damaged).read_bytes()
         (root / damaged).write_bytes(GARBAGE)
-        pandas_message, dask_message = _messages(config, cluster)
+        pandas_message, dask_message = refusals(config, cluster)
         assert damaged in pandas_message, pandas_message
         assert dask_message == pandas_message
         (root / damaged).write_bytes(good)
@@ -221,7 +209,7 @@ def test_a_bad_value_is_refused_with_the_dataset_readers_message(
     at = table.schema.get_field_index("units")
     pq.write_table(table.set_column(at, "units", pa.array(units, pa.string())), file,
                    row_group_size=3)
-    pandas_message, dask_message = _messages(config, cluster)
+    pandas_message, dask_message = refusals(config, cluster)
     assert "twelve" in pandas_message
     assert dask_message == pandas_message
 
@@ -244,7 +232,7 @@ def test_mixed_utc_offsets_across_the_files_of_a_dataset(
         rest.assign(week=rest["week"] + "T00:00:00+02:00"), "csv")
     write(project.root / "lake", files)
     config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
-    pandas_message, dask_message = _messages(config, cluster)
+    pandas_message, dask_message = refusals(config, cluster)
     assert "mixes time zones" in pandas_message, pandas_message
     assert dask_message == pandas_message
 
@@ -286,7 +274,7 @@ def test_a_bad_actual_in_a_csv_dataset_is_refused_with_the_same_message(
     write(project.root / "lake", lake(_csv(data / "forecast.csv"), _csv(data / "earlier.csv"),
                                       actuals, "csv"))
     config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
-    pandas_message, dask_message = _messages(config, cluster)
+    pandas_message, dask_message = refusals(config, cluster)
     assert "twelve" in pandas_message, pandas_message
     assert dask_message == pandas_message
 
@@ -304,7 +292,7 @@ def test_a_missing_key_is_refused_naming_the_rows_of_the_whole_scan(
     at = table.schema.get_field_index("product")
     pq.write_table(table.set_column(at, "product", pa.array(product, pa.string())), file,
                    row_group_size=3)
-    pandas_message, dask_message = _messages(config, cluster)
+    pandas_message, dask_message = refusals(config, cluster)
     assert "row " in pandas_message and "product" in pandas_message, pandas_message
     assert dask_message == pandas_message
 
@@ -324,7 +312,7 @@ def test_mixed_utc_offsets_across_the_partitions_of_a_history_dataset(
     del files[f"history/issued_on={OLD}/part-0.parquet"]  # (a date without offset)
     write(project.root / "lake", files)
     config = point(project.config, PROJECT_PATHS, str(project.root / "lake"))
-    pandas_message, dask_message = _messages(config, cluster)
+    pandas_message, dask_message = refusals(config, cluster)
     assert "mixes time zones" in pandas_message, pandas_message
     assert dask_message == pandas_message
 
@@ -335,6 +323,6 @@ def test_a_dataset_without_rows_is_refused_with_the_same_message(
     for file in (root / "forecast").rglob("*.parquet"):
         table = pq.read_table(file)
         pq.write_table(table.slice(0, 0), file)
-    pandas_message, dask_message = _messages(config, cluster)
+    pandas_message, dask_message = refusals(config, cluster)
     assert "has no rows" in pandas_message, pandas_message
     assert dask_message == pandas_message

@@ -8,12 +8,10 @@ the client (a real multi-process local cluster, both engines)."""
 
 from __future__ import annotations
 
-import socket
 from collections.abc import Callable, Iterator
 from pathlib import Path
 
 import pytest
-from moto.server import ThreadedMotoServer
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.dask import client_read
@@ -21,7 +19,7 @@ from accuracy_checks.dask import read as R
 from accuracy_checks.demo.scenario import generate_scenario
 from accuracy_checks.errors import InputError
 from accuracy_checks.sources import datasets
-from tests.dask.support import compare
+from tests.dask.support import compare, local_cluster
 from tests.dask.test_datasets import (
     DEMO_PATHS,
     GARBAGE,
@@ -34,43 +32,24 @@ from tests.dask.test_datasets import (
 )
 from tests.sources.test_sql import BREACHED
 from tests.support.project import Project
+from tests.support.s3 import s3_server
 
 SECRET = "s3cr3t-key"
-
-
-def _free_port() -> int:
-    with socket.socket() as s:
-        s.bind(("127.0.0.1", 0))
-        return int(s.getsockname()[1])
 
 
 @pytest.fixture(scope="module")
 def s3() -> Iterator[str]:
     """An S3-compatible server on loopback and the standard AWS variables pointing at it
     (set before the module's cluster starts: its workers inherit them)."""
-    port = _free_port()
-    server = ThreadedMotoServer(ip_address="127.0.0.1", port=port, verbose=False)
-    server.start()
-    endpoint = f"http://127.0.0.1:{port}"
-    with pytest.MonkeyPatch.context() as mp:
-        for name, value in (("AWS_ENDPOINT_URL", endpoint), ("AWS_ACCESS_KEY_ID", "testing"),
-                            ("AWS_SECRET_ACCESS_KEY", SECRET),
-                            ("AWS_DEFAULT_REGION", "us-east-1"), ("LAKE_BUCKET", "lake")):
-            mp.setenv(name, value)
-        try:
-            yield endpoint
-        finally:
-            server.stop()
+    with s3_server(SECRET, LAKE_BUCKET="lake") as endpoint:
+        yield endpoint
 
 
 @pytest.fixture(scope="module")
 def cluster(s3: str) -> Iterator[str]:
     """The module's local cluster of 2 worker processes, started with the AWS variables."""
-    import distributed
-
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=":0", silence_logs=40) as local:
-        yield local.scheduler_address
+    with local_cluster() as address:
+        yield address
 
 
 @pytest.fixture(scope="module")

@@ -5,26 +5,12 @@ shards or several pieces of a file (a real multi-process local cluster, both eng
 from __future__ import annotations
 
 from collections.abc import Callable
-from pathlib import Path
 
 import pandas as pd
 import pytest
 
-from accuracy_checks import load_config, run_checks
-from accuracy_checks.errors import InputError
+from tests.dask.support import refusals
 from tests.support.project import CURRENT, Project, actuals_frame, forecast_frame
-
-
-def _messages(config: Path, cluster: str) -> list[str]:
-    """The InputError message of each engine (pandas, dask) on ``config``."""
-    cfg = load_config(config)
-    out = []
-    for engine in ("pandas", "dask"):
-        with pytest.raises(InputError) as err:
-            run_checks(cfg, engine=engine, scheduler=cluster if engine == "dask" else None,
-                       snapshot=False)
-        out.append(str(err.value))
-    return out
 
 
 def _many_series(frame: pd.DataFrame, n: int) -> pd.DataFrame:
@@ -39,7 +25,7 @@ def test_repeated_actuals_counted_over_the_whole_file(make_project: Callable[...
     repeated = actuals.iloc[::5]  # a repeated row in every series
     actuals = pd.concat([actuals, repeated], ignore_index=True)
     project = make_project(forecast=_many_series(forecast_frame(CURRENT), 12), actuals=actuals)
-    pandas_message, dask_message = _messages(project.config, cluster)
+    pandas_message, dask_message = refusals(project.config, cluster)
     assert f"hold {2 * len(repeated)} rows that repeat" in pandas_message
     assert dask_message == pandas_message
 
@@ -65,7 +51,7 @@ def test_an_error_in_several_pieces_names_the_whole_files_rows(
     forecast.loc[[30, 31, 45, 70, 90], "week"] = "2026-13-40"
     project = make_project(forecast=forecast)
     _parquet_project(project, "forecast", forecast, 10)
-    pandas_message, dask_message = _messages(project.config, cluster)
+    pandas_message, dask_message = refusals(project.config, cluster)
     assert "5 values" in pandas_message and "row 31" in pandas_message
     assert dask_message == pandas_message
 
@@ -84,7 +70,7 @@ def test_utc_offsets_mixed_across_pieces_are_refused(make_project: Callable[...,
     actuals["week"] = actuals["week"] + "T00:00:00" + pd.Series(offset)
     project = make_project(forecast=_many_series(forecast_frame(CURRENT), 2), actuals=actuals)
     _parquet_project(project, "actuals", actuals, 10)
-    pandas_message, dask_message = _messages(project.config, cluster)
+    pandas_message, dask_message = refusals(project.config, cluster)
     assert "different UTC offsets" in pandas_message
     assert dask_message == pandas_message
 
@@ -97,6 +83,6 @@ def test_the_first_offending_column_of_the_file_is_named(make_project: Callable[
     forecast.loc[2, "week"] = "2026-13-40"
     forecast.loc[9, "store"] = ""
     project = make_project(forecast=forecast)
-    pandas_message, dask_message = _messages(project.config, cluster)
+    pandas_message, dask_message = refusals(project.config, cluster)
     assert "key column 'store'" in pandas_message and "line 11" in pandas_message
     assert dask_message == pandas_message

@@ -7,8 +7,6 @@ after the commit is finished by the next run, and never read half done."""
 
 from __future__ import annotations
 
-import logging
-import os
 import uuid
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -16,7 +14,6 @@ from pathlib import Path
 import boto3
 import pandas as pd
 import pytest
-from moto.server import ThreadedMotoServer
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.config import Config
@@ -26,8 +23,9 @@ from accuracy_checks.sources.load import load_inputs
 from accuracy_checks.store import open_store
 from accuracy_checks.store.archive import Archive, ArchiveError, Snapshot
 from accuracy_checks.store.remote_archive import RemoteArchive, open_archive
-from tests.dask.support import compare
+from tests.dask.support import compare, local_cluster
 from tests.support.project import EARLIER, Project, forecast_frame
+from tests.support.s3 import finals, keys, s3_server
 
 FIRST, SECOND = (f"{d:%Y-%m-%d}" for d in EARLIER)
 
@@ -36,28 +34,15 @@ FIRST, SECOND = (f"{d:%Y-%m-%d}" for d in EARLIER)
 def s3_env() -> Iterator[str]:
     """The server and the standard AWS variables, set before the module's cluster starts
     (its worker processes inherit them)."""
-    logging.getLogger("werkzeug").setLevel(logging.ERROR)
-    server = ThreadedMotoServer(ip_address="127.0.0.1", port=0, verbose=False)
-    server.start()
-    host, port = server.get_host_and_port()
-    with pytest.MonkeyPatch.context() as m:
-        for name, value in (("AWS_ENDPOINT_URL", f"http://{host}:{port}"),
-                            ("AWS_ACCESS_KEY_ID", "testing"),
-                            ("AWS_SECRET_ACCESS_KEY", "testing-secret"),
-                            ("AWS_DEFAULT_REGION", "us-east-1")):
-            m.setenv(name, value)
-        yield os.environ["AWS_ENDPOINT_URL"]
-    server.stop()
+    with s3_server("testing-secret") as endpoint:
+        yield endpoint
 
 
 @pytest.fixture(scope="module")
 def cluster(s3_env: str) -> Iterator[str]:
     """The module's cluster, started once the AWS variables are set."""
-    import distributed
-
-    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
-                                  dashboard_address=":0", silence_logs=40) as local:
-        yield local.scheduler_address
+    with local_cluster() as address:
+        yield address
 
 
 @pytest.fixture
@@ -65,16 +50,6 @@ def bucket(s3_env: str) -> str:
     name = f"b-{uuid.uuid4().hex[:12]}"
     boto3.client("s3").create_bucket(Bucket=name)
     return name
-
-
-def keys(bucket: str, prefix: str = "archive/") -> list[str]:
-    found = boto3.client("s3").list_objects_v2(Bucket=bucket, Prefix=prefix)
-    return sorted(o["Key"][len(prefix):] for o in found.get("Contents", [])
-                  if not o["Key"].endswith("/"))
-
-
-def finals(bucket: str) -> list[str]:
-    return [k for k in keys(bucket) if k.startswith("cycle=")]
 
 
 def s3_project(make_project: Callable[..., Project], bucket: str,

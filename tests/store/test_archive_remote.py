@@ -11,7 +11,6 @@ on a local archive (itself recomputed with numpy in tests/store/test_archive.py)
 from __future__ import annotations
 
 import json
-import logging
 import uuid
 from collections.abc import Callable, Iterator
 from pathlib import Path
@@ -20,7 +19,6 @@ from typing import Any
 import boto3
 import pandas as pd
 import pytest
-from moto.server import ThreadedMotoServer
 
 from accuracy_checks import load_config
 from accuracy_checks.config import Config
@@ -33,6 +31,7 @@ from accuracy_checks.store.archive import Archive, ArchiveError, Snapshot, Snaps
 from accuracy_checks.store.remote_archive import RemoteArchive, RemoteStaged, open_archive
 from tests.support.cli import run
 from tests.support.project import CURRENT, EARLIER, Project, forecast_frame
+from tests.support.s3 import finals, keys, s3_server
 from tests.support.store import pg_password
 
 FIRST, SECOND, THIS = (f"{d:%Y-%m-%d}" for d in (*EARLIER, CURRENT))
@@ -41,34 +40,17 @@ SECRET = "wJalrXUtnFEMI-K7MDENG-bPxRfiCYzz9"  # the moto server accepts any key 
 
 @pytest.fixture(scope="module")
 def s3_endpoint() -> Iterator[str]:
-    logging.getLogger("werkzeug").setLevel(logging.ERROR)  # one line per request otherwise
-    server = ThreadedMotoServer(ip_address="127.0.0.1", port=0, verbose=False)
-    server.start()
-    host, port = server.get_host_and_port()
-    yield f"http://{host}:{port}"
-    server.stop()
+    """The server, and the standard AWS variables pointing every client at it."""
+    with s3_server(SECRET) as endpoint:
+        yield endpoint
 
 
 @pytest.fixture
-def bucket(s3_endpoint: str, monkeypatch: pytest.MonkeyPatch) -> str:
-    """A new empty bucket; the standard AWS variables point every client at the server."""
-    for name, value in (("AWS_ENDPOINT_URL", s3_endpoint), ("AWS_ACCESS_KEY_ID", "testing"),
-                        ("AWS_SECRET_ACCESS_KEY", SECRET), ("AWS_DEFAULT_REGION", "us-east-1")):
-        monkeypatch.setenv(name, value)
+def bucket(s3_endpoint: str) -> str:
+    """A new empty bucket."""
     name = f"b-{uuid.uuid4().hex[:12]}"
     boto3.client("s3").create_bucket(Bucket=name)
     return name
-
-
-def keys(bucket: str, prefix: str = "archive/") -> list[str]:
-    """Every object under ``prefix`` (directory markers left out)."""
-    found = boto3.client("s3").list_objects_v2(Bucket=bucket, Prefix=prefix)
-    return sorted(o["Key"][len(prefix):] for o in found.get("Contents", [])
-                  if not o["Key"].endswith("/"))
-
-
-def finals(bucket: str) -> list[str]:
-    return [k for k in keys(bucket) if k.startswith("cycle=")]
 
 
 def point_at(project: Project, archive: str, store: str) -> Config:
