@@ -15,7 +15,7 @@ from hypothesis import strategies as st
 
 from accuracy_checks import load_config, run_checks
 from accuracy_checks.demo.scenario import generate_scenario
-from tests.dask.support import both, compare
+from tests.dask.support import both, compare, refusals
 from tests.support.project import CURRENT, Project, actuals_frame, forecast_frame
 
 
@@ -211,15 +211,7 @@ def test_an_unusable_input_is_the_same_exit_2_message(make_project: Callable[...
                                                       cluster: str) -> None:
     """A date that does not parse, read on a worker: the same InputError as the pandas
     engine's, raised on the client (exit 2)."""
-    from accuracy_checks.errors import InputError
-
     forecast = forecast_frame(CURRENT)
     forecast.loc[5, "week"] = "2026-13-40"
-    config = load_config(make_project(forecast=forecast).config)
-    messages = []
-    for engine in ("pandas", "dask"):
-        with pytest.raises(InputError) as err:
-            run_checks(config, engine=engine, scheduler=cluster if engine == "dask" else None,
-                       snapshot=False)
-        messages.append(str(err.value))
+    messages = refusals(make_project(forecast=forecast).config, cluster)
     assert messages[0] == messages[1] and "line 7" in messages[0]
