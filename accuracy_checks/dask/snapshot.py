@@ -42,7 +42,6 @@ from accuracy_checks.store.archive import (
     Archive,
     StagedSnapshot,
     archive_url,
-    write_snapshot,
 )
 from accuracy_checks.store.remote_archive import RemoteArchive, open_archive
 
@@ -147,15 +146,8 @@ class RemoteParts:
     def write_part(self, index: int, frame: pd.DataFrame) -> None:
         """Upload one shard's rows (on a worker); a failed upload leaves no object."""
         archive = self.archive
-        key = self._staged(f"part-{index:05d}.parquet")
-        try:
-            with archive.fs.open_output_stream(key) as out:
-                write_snapshot(frame, out)
-        except BaseException as exc:
-            archive._delete_quietly(key)
-            if isinstance(exc, Exception):
-                raise archive._error("written", exc) from None
-            raise
+        archive.upload(self._staged(f"part-{index:05d}.parquet"), frame,
+                       lambda exc: archive._error("written", exc))
 
     def _parts(self) -> list[str]:
         prefix = self._staged()

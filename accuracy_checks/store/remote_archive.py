@@ -46,7 +46,7 @@ import json
 import os
 import time
 import uuid
-from collections.abc import Sequence
+from collections.abc import Callable, Sequence
 from dataclasses import dataclass
 from pathlib import Path
 from typing import TYPE_CHECKING, Any
@@ -256,20 +256,25 @@ class RemoteArchive(Archive):
         object is deleted and :class:`ArchiveError` raised."""
         self._sweep_incoming()
         name = uuid.uuid4().hex
-        key = self._key(f"{_INCOMING}/{name}.parquet")
+        self.upload(self._key(f"{_INCOMING}/{name}.parquet"), frame, lambda exc: ArchiveError(
+            f"The forecast could not be archived under {self.location}: "
+            f"{self._scrub(exc)}. Nothing was recorded and no snapshot was kept. "
+            "Check that the bucket answers and that the credentials allow writing "
+            "objects under it (with --no-snapshot nothing is archived)."))
+        return RemoteStaged(self.url, cycle_label(issued), name, self)
+
+    def upload(self, key: str, frame: pd.DataFrame,
+               error: Callable[[Exception], ArchiveError]) -> None:
+        """Write ``frame`` as a snapshot's Parquet object at ``key``; on failure the partial
+        object is deleted and ``error(exc)`` raised (an interrupt is re-raised as it is)."""
         try:
             with self.fs.open_output_stream(key) as out:
                 write_snapshot(frame, out)
         except BaseException as exc:
             self._delete_quietly(key)
             if isinstance(exc, Exception):
-                raise ArchiveError(
-                    f"The forecast could not be archived under {self.location}: "
-                    f"{self._scrub(exc)}. Nothing was recorded and no snapshot was kept. "
-                    "Check that the bucket answers and that the credentials allow writing "
-                    "objects under it (with --no-snapshot nothing is archived).") from None
+                raise error(exc) from None
             raise
-        return RemoteStaged(self.url, cycle_label(issued), name, self)
 
     def retire_unrecorded(self, cycle: str, first: int) -> list[str]:  # type: ignore[override]
         """Move the cycle's final objects numbered ``first`` or above to ``.orphans/``
