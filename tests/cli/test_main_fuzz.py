@@ -16,7 +16,7 @@ from collections.abc import Callable
 import numpy as np
 import pandas as pd
 import pytest
-from hypothesis import HealthCheck, given, settings
+from hypothesis import HealthCheck, example, given, settings
 from hypothesis import strategies as st
 
 from accuracy_checks.cli.main import main
@@ -52,6 +52,7 @@ def test_damaged_forecasts_get_a_verdict_or_a_clear_message(
     assert_verdict_or_message(project, capsys, kinds)
 
 
+@example(kinds=["mapping_repeated_header", "mapping_repeat"], seed=0)  # once broke the helper
 @damaged_by(ACTUALS_DAMAGE)
 def test_damaged_actuals_and_mappings_get_a_verdict_or_a_clear_message(
         make_project: Callable[..., Project], capsys: pytest.CaptureFixture[str],

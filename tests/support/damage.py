@@ -151,8 +151,12 @@ def damage_actuals(actuals: pd.DataFrame, mapping: pd.DataFrame, earlier: pd.Dat
     elif kind == "offset_date" and "week" in has and len(actuals):
         actuals.loc[actuals.index[i], "week"] = f"{actuals['week'].iloc[i]}T00:00:00+05:00"
     elif kind == "mapping_repeat":
-        mapping = pd.concat([mapping, pd.DataFrame({"product": ["P1"],
-                                                    "category": ["plants"]})])
+        if mapping.columns.is_unique:
+            mapping = pd.concat([mapping, pd.DataFrame({"product": ["P1"],
+                                                        "category": ["plants"]})])
+        else:  # after a repeated header: the first row once more, column for column
+            rows = mapping.to_numpy().tolist()
+            mapping = pd.DataFrame([*rows, rows[0]], columns=mapping.columns)
     elif kind == "mapping_without_segment" and "category" in mapping:
         mapping = mapping.drop(columns=["category"])
     elif kind == "leading_zero_key" and "product" in has:
